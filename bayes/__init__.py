@@ -1,0 +1,1 @@
+"""Bayesian linear regression with elicited priors: design, engines, summaries, report."""
