@@ -122,7 +122,7 @@ class ScaledPrior:
 
 
 def natural_transform(factor: DataFactor) -> np.ndarray:
-    """Matrix T with ``beta = T @ gamma`` (natural units, intercept first).
+    """Matrix T with ``beta = T @ gamma + y_mean * e_0`` (natural units, intercept first).
 
     Returns
     -------
@@ -137,5 +137,11 @@ def natural_transform(factor: DataFactor) -> np.ndarray:
 
 
 def to_natural(factor: DataFactor, gamma: np.ndarray) -> np.ndarray:
-    """Map scaled coefficients ``gamma`` (..., p + 1) to natural units (..., p + 1)."""
-    return gamma @ natural_transform(factor).T
+    """Map scaled coefficients ``gamma`` (..., p + 1) to natural units (..., p + 1).
+
+    The scaled problem models the centred response, so the natural intercept is
+    ``y_mean + alpha - sum_j x_mean_j theta_j / x_scale_j``.
+    """
+    beta = np.asarray(gamma, dtype=float) @ natural_transform(factor).T
+    beta[..., 0] += factor.y_mean
+    return beta
