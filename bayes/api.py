@@ -1,0 +1,122 @@
+"""The Python entry point: ``bayes.fit(frame, response=..., priors=...)``.
+
+The CLI is a thin layer over these functions.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Sequence
+from pathlib import Path
+
+import pandas as pd
+
+from .design import Design, build_design
+from .errors import InputError
+from .exact import exact_posterior
+from .factor import factor_from_arrays
+from .problem import DataFactor
+from .result import FitResult, make_result
+from .scaled import scaled_prior
+
+METHODS = ("auto", "exact", "sample")
+
+
+def load_priors(priors):
+    """A PriorSet from a PriorSet, a path to a prior file, or None (flat priors)."""
+    from elicit.spec import PriorSet, flat_priors, read_prior_file
+
+    if priors is None:
+        return flat_priors()
+    if isinstance(priors, PriorSet):
+        return priors
+    return read_prior_file(Path(priors))
+
+
+def fit(
+    data: pd.DataFrame | Design,
+    response: str | None = None,
+    predictors: Sequence[str] | None = None,
+    priors=None,
+    level: float = 0.95,
+    drop_missing: bool = False,
+    method: str = "auto",
+    chains: int = 4,
+    draws: int = 1000,
+    warmup: int = 1000,
+    seed: int = 0,
+    progress: Callable[[int, int], None] | None = None,
+    source: str = "data frame",
+    provenance: dict | None = None,
+) -> FitResult:
+    """Fit the Bayesian linear model of ``response`` on ``predictors``.
+
+    Parameters
+    ----------
+    data : DataFrame or Design
+        One row per observation.
+    response : str, optional
+        Response column; default the prior file's ``[study] response``.
+    predictors : sequence of str, optional
+        Default: every numeric column other than the response.
+    priors : PriorSet, path or None
+        None gives flat coefficient priors and the Jeffreys noise prior.
+    level : float
+        Credible level of the reported equal-tailed intervals, in (0, 1).
+    method : {"auto", "exact", "sample"}
+        "auto" is exact for flat/normal priors and sampling otherwise.
+    chains, draws, warmup, seed : int
+        Sampler settings (sampled fits only).
+
+    Returns
+    -------
+    FitResult
+    """
+    prior_set = load_priors(priors)
+    if isinstance(data, Design):
+        design = data
+    else:
+        response = response or prior_set.response
+        if not response:
+            raise InputError("no response column given (--response, or [study] response)")
+        design = build_design(data, response, predictors, drop_missing, source)
+    factor = factor_from_arrays(design.X, design.y, design.names)
+    return fit_factor(
+        factor, prior_set, design.response, level, method, chains, draws, warmup, seed,
+        progress, design, provenance,
+    )  # fmt: skip
+
+
+def fit_factor(
+    factor: DataFactor,
+    priors,
+    response: str,
+    level: float = 0.95,
+    method: str = "auto",
+    chains: int = 4,
+    draws: int = 1000,
+    warmup: int = 1000,
+    seed: int = 0,
+    progress: Callable[[int, int], None] | None = None,
+    data: Design | None = None,
+    provenance: dict | None = None,
+) -> FitResult:
+    """Fit from a data factor (in-memory or streamed); see :func:`fit`."""
+    if not 0.0 < level < 1.0:
+        raise InputError(f"--level must lie strictly between 0 and 1 (got {level})")
+    if method not in METHODS:
+        raise InputError(f"unknown method '{method}' (choose from {', '.join(METHODS)})")
+    priors = load_priors(priors)
+    scaled = scaled_prior(factor, priors)
+    if method == "auto":
+        method = "exact" if scaled.gaussian_only else "sample"
+    if method == "exact" and not scaled.gaussian_only:
+        bad = [c for c, f in zip(("intercept", *factor.names), scaled.family, strict=True)
+               if f not in ("flat", "normal")]  # fmt: skip
+        raise InputError(
+            f"the priors on {', '.join(bad)} are not Gaussian: the exact engine cannot fit them; "
+            "use --method sample"
+        )
+    if method == "exact":
+        posterior = exact_posterior(factor, scaled)
+        return make_result(response, factor, priors, posterior, level, data, provenance)
+    raise InputError("sampling (--method sample) is not available in this build")

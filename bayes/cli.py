@@ -1,0 +1,204 @@
+"""The `bayes` command: a thin layer over the Python API.
+
+Only this module touches files and the terminal. Heavy libraries are imported
+inside the commands so that ``bayes --help`` starts instantly.
+"""
+
+from __future__ import annotations
+
+import functools
+import json
+import sys
+from pathlib import Path
+
+import click
+
+
+class _Group(click.Group):
+    """Bad input ends with one line on stderr and exit status 2, never a traceback."""
+
+    def invoke(self, ctx):
+        from elicit.spec import PriorFileError
+
+        from .errors import InputError
+
+        try:
+            return super().invoke(ctx)
+        except (InputError, PriorFileError) as e:
+            click.echo(f"error: {e}", err=True)
+            sys.exit(2)
+
+
+@click.group(cls=_Group)
+@click.version_option(package_name="bayes-elicit")
+def main() -> None:
+    """Bayesian linear regression with expert priors stated in natural units."""
+
+
+def model_options(f):
+    """Options shared by every command that fits the model to a data file."""
+    options = [
+        click.argument("data", type=click.Path(dir_okay=False)),
+        click.option("--response", help="Response column (default: [study] response)."),
+        click.option(
+            "--predictors",
+            help="Comma-separated predictor columns "
+            "(default: every numeric column but the response).",
+        ),  # fmt: skip
+        click.option("--priors", type=click.Path(dir_okay=False), help="Prior file (TOML)."),
+        click.option("--drop-missing", is_flag=True, help="Drop rows with missing values."),
+        click.option(
+            "--level",
+            type=float,
+            default=0.95,
+            show_default=True,
+            help="Credible level of the equal-tailed intervals.",
+        ),  # fmt: skip
+        click.option(
+            "--format",
+            "fmt",
+            type=click.Choice(["text", "json"]),
+            default="text",
+            show_default=True,
+        ),  # fmt: skip
+    ]
+    return functools.reduce(lambda g, opt: opt(g), reversed(options), f)
+
+
+def sampler_options(f):
+    """Options of the Gibbs sampler."""
+    options = [
+        click.option(
+            "--method",
+            type=click.Choice(["auto", "exact", "sample"]),
+            default="auto",
+            show_default=True,
+            help="auto: exact for normal/flat priors, "
+            "sampling when a Laplace or Student-t prior is present.",
+        ),  # fmt: skip
+        click.option("--chains", type=click.IntRange(1), default=4, show_default=True),
+        click.option("--draws", type=click.IntRange(10), default=2000, show_default=True),
+        click.option("--warmup", type=click.IntRange(0), default=1000, show_default=True),
+        click.option("--seed", type=int, default=20261201, show_default=True),
+    ]
+    return functools.reduce(lambda g, opt: opt(g), reversed(options), f)
+
+
+def provenance(data_path: str | None, seed: int | None = None, dropped: int = 0) -> dict:
+    """Where a result came from: data file and its SHA-256, command line, date, versions."""
+    import datetime
+    import hashlib
+    import platform
+    from importlib import metadata
+
+    info = {
+        "command": " ".join(["bayes", *sys.argv[1:]]),
+        "date": datetime.datetime.now(datetime.UTC).strftime("%Y-%m-%d %H:%M UTC"),
+        "versions": {
+            "python": platform.python_version(),
+            **{pkg: metadata.version(pkg) for pkg in ("bayes-elicit", "numpy", "scipy", "pandas")},
+        },
+        "seed": seed,
+        "dropped": dropped,
+    }
+    if data_path:
+        digest = hashlib.sha256()
+        with open(data_path, "rb") as fh:
+            for block in iter(lambda: fh.read(1 << 20), b""):
+                digest.update(block)
+        info["data"] = Path(data_path).name
+        info["data_sha256"] = digest.hexdigest()
+    return info
+
+
+def split_columns(text: str | None) -> list[str] | None:
+    """'a, b,c' -> ['a', 'b', 'c']."""
+    if text is None:
+        return None
+    return [c.strip() for c in text.split(",") if c.strip()]
+
+
+def fit_from_options(data, response, predictors, priors, drop_missing, level, method="exact",
+                     chains=4, draws=2000, warmup=1000, seed=0, progress=None):  # fmt: skip
+    """Read the files named on the command line and fit (used by several commands)."""
+    from .api import fit, load_priors
+    from .design import build_design, read_table
+
+    prior_set = load_priors(priors)
+    response = response or prior_set.response
+    if not response:
+        raise click.UsageError("give --response (or [study] response in the prior file)")
+    design = build_design(
+        read_table(data), response, split_columns(predictors), drop_missing, Path(data).name
+    )
+    return fit(
+        design, priors=prior_set, level=level, method=method, chains=chains, draws=draws,
+        warmup=warmup, seed=seed, progress=progress,
+        provenance=provenance(data, seed if method != "exact" else None, design.dropped),
+    )  # fmt: skip
+
+
+def emit(obj: dict, text: str, fmt: str) -> None:
+    """Print one JSON object or the text form."""
+    if fmt == "json":
+        click.echo(json.dumps(obj, indent=2, allow_nan=False))
+    else:
+        click.echo(text)
+
+
+@main.command("fit")
+@model_options
+@sampler_options
+@click.option("--save", "save_dir", type=click.Path(file_okay=False),
+              help="Store the fit in this folder for report, sweep and predict.")  # fmt: skip
+@click.option("--digits", type=click.IntRange(2, 15), default=7, show_default=True,
+              help="Significant digits in the text table.")  # fmt: skip
+def fit_command(data, response, predictors, priors, drop_missing, level, fmt, method, chains,
+                draws, warmup, seed, save_dir, digits):  # fmt: skip
+    """Fit the model to DATA (CSV or Parquet) and print the posterior table."""
+    result = fit_from_options(data, response, predictors, priors, drop_missing, level, method,
+                              chains, draws, warmup, seed)  # fmt: skip
+    if save_dir:
+        from .store import save_fit
+
+        save_fit(result, save_dir)
+    emit(result.to_dict(), result.text(digits), fmt)
+    if save_dir and fmt == "text":
+        click.echo(f"Saved the fit in {save_dir}/")
+
+
+@main.command("predict")
+@click.argument("fit_dir", type=click.Path(file_okay=False))
+@click.argument("newdata", type=click.Path(dir_okay=False))
+@click.option("--level", type=float, default=0.95, show_default=True)
+@click.option("--format", "fmt", type=click.Choice(["text", "json", "csv"]), default="text",
+              show_default=True)  # fmt: skip
+def predict_command(fit_dir, newdata, level, fmt):
+    """Posterior mean, credible and predictive intervals for the rows of NEWDATA."""
+    from .design import read_table
+    from .predict import predict
+    from .store import load_fit
+    from .summary import fmt as num
+
+    result = load_fit(fit_dir)
+    table = predict(result, read_table(newdata), level, source=Path(newdata).name)
+    if fmt == "csv":
+        click.echo(table.to_csv(index=False), nl=False)
+        return
+    rows = table.to_dict(orient="records")
+    headers = list(table.columns)
+    from .summary import format_table
+
+    text = format_table(headers, [[num(r[h]) if not isinstance(r[h], str) else r[h]
+                                   for h in headers] for r in rows])  # fmt: skip
+    emit({"level": level, "predictions": rows}, text, fmt)
+
+
+@main.command("demo")
+@click.option("--out", type=click.Path(file_okay=False), default="demo-output",
+              show_default=True, help="Folder for the demo's outputs.")  # fmt: skip
+def demo_command(out):
+    """Run the whole job on the built-in, invented trial-mix study."""
+    from .demo import run_demo
+
+    run_demo(Path(out), echo=click.echo)

@@ -1,0 +1,195 @@
+"""Data file -> validated design: response vector, predictor matrix, column names.
+
+Everything that can be wrong with the data is caught here, once, with a
+message naming the file, the row and the column.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from .errors import InputError
+
+
+@dataclass(frozen=True)
+class Design:
+    """A validated design in natural units.
+
+    Attributes
+    ----------
+    response : str
+        Response column name.
+    names : tuple of str, length p
+        Design column names (no intercept).
+    X : ndarray, shape (n, p)
+    y : ndarray, shape (n,)
+    source : str
+        Where the data came from (file name or "data frame").
+    dropped : int
+        Rows dropped for missing values (``drop_missing=True``).
+    """
+
+    response: str
+    names: tuple[str, ...]
+    X: np.ndarray
+    y: np.ndarray
+    source: str = "data frame"
+    dropped: int = 0
+
+    @property
+    def n(self) -> int:
+        return len(self.y)
+
+    def frame(self) -> pd.DataFrame:
+        """The design as a data frame (response first)."""
+        data = {self.response: self.y, **{c: self.X[:, j] for j, c in enumerate(self.names)}}
+        return pd.DataFrame(data)
+
+
+def read_table(path: str | Path) -> pd.DataFrame:
+    """Read a CSV or Parquet file, turning parser failures into :class:`InputError`."""
+    path = Path(path)
+    if not path.exists():
+        raise InputError(f"{path}: no such file")
+    try:
+        if path.suffix.lower() in (".parquet", ".pq"):
+            return pd.read_parquet(path)
+        frame = pd.read_csv(path, skipinitialspace=True)
+    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, ValueError) as e:
+        first = str(e).strip().splitlines()[0] if str(e).strip() else type(e).__name__
+        raise InputError(f"{path}: not a readable table: {first}") from None
+    if frame.shape[1] == 0 or frame.shape[0] == 0:
+        raise InputError(f"{path}: no data rows")
+    return frame
+
+
+def _file_row(frame: pd.DataFrame, i: int) -> int:
+    """Line number in a CSV file (header on line 1) of positional row i."""
+    label = frame.index[int(i)]
+    return int(label) + 2 if isinstance(label, (int, np.integer)) else int(i) + 2
+
+
+def _numeric(frame: pd.DataFrame, col: str, source: str) -> np.ndarray:
+    s = frame[col]
+    if pd.api.types.is_bool_dtype(s):
+        return s.to_numpy(dtype=float)
+    if pd.api.types.is_numeric_dtype(s):
+        return s.to_numpy(dtype=float)
+    values = pd.to_numeric(s, errors="coerce")
+    bad = np.flatnonzero(values.isna().to_numpy() & s.notna().to_numpy())
+    i = int(bad[0])
+    raise InputError(
+        f"{source}: column '{col}' is not numeric (row {_file_row(frame, i)}: {s.iloc[i]!r})"
+    )
+
+
+def build_design(
+    frame: pd.DataFrame,
+    response: str,
+    predictors: Sequence[str] | None = None,
+    drop_missing: bool = False,
+    source: str = "data frame",
+) -> Design:
+    """Validate a data frame and extract the design.
+
+    Parameters
+    ----------
+    frame : DataFrame
+        The data; one row per observation.
+    response : str
+        Response column.
+    predictors : sequence of str, optional
+        Predictor columns; default every numeric column other than the response.
+    drop_missing : bool
+        Drop rows with a missing value in the used columns (otherwise an error).
+    source : str
+        Name used in error messages (the file name).
+
+    Returns
+    -------
+    Design
+    """
+    columns = [str(c) for c in frame.columns]
+    frame = frame.set_axis(columns, axis=1)
+    dup_names = sorted({c for c in columns if columns.count(c) > 1})
+    if dup_names:
+        raise InputError(f"{source}: column name '{dup_names[0]}' appears more than once")
+    if response not in columns:
+        raise InputError(f"{source}: no column named '{response}' (columns: {', '.join(columns)})")
+    if predictors is None:
+        predictors = [
+            c for c in columns if c != response and pd.api.types.is_numeric_dtype(frame[c])
+        ]
+        if not predictors:
+            raise InputError(f"{source}: no numeric predictor columns besides '{response}'")
+    predictors = [str(c) for c in predictors]
+    for c in predictors:
+        if c not in columns:
+            raise InputError(f"{source}: no column named '{c}' (columns: {', '.join(columns)})")
+        if c == response:
+            raise InputError(f"{source}: '{c}' is the response and cannot also be a predictor")
+    if len(set(predictors)) != len(predictors):
+        twice = next(c for c in predictors if predictors.count(c) > 1)
+        raise InputError(f"{source}: predictor '{twice}' is listed twice")
+    used = [response, *predictors]
+    sub = frame[used]
+    missing = sub.isna().to_numpy()
+    dropped = 0
+    if missing.any():
+        rows, cols = np.nonzero(missing)
+        if not drop_missing:
+            raise InputError(
+                f"{source}: {missing.sum()} missing value(s) in {len(set(rows))} row(s), first at "
+                f"row {_file_row(sub, rows[0])} column '{used[cols[0]]}' "
+                "(fix the file or use --drop-missing)"
+            )
+        keep = ~missing.any(axis=1)
+        dropped = int((~keep).sum())
+        sub = sub.loc[keep]
+    values = {c: _numeric(sub, c, source) for c in used}
+    for c, v in values.items():
+        if not np.all(np.isfinite(v)):
+            i = int(np.flatnonzero(~np.isfinite(v))[0])
+            row = _file_row(sub, i)
+            raise InputError(f"{source}: column '{c}' has a non-finite value at row {row}")
+    X = np.column_stack([values[c] for c in predictors]) if predictors else np.empty((len(sub), 0))
+    y = values[response]
+    for j, c in enumerate(predictors):
+        if np.ptp(X[:, j]) == 0:
+            raise InputError(f"{source}: column '{c}' is constant ({X[0, j]:g}): it has no effect")
+        for k in range(j):
+            if np.array_equal(X[:, j], X[:, k]):
+                raise InputError(f"{source}: columns '{predictors[k]}' and '{c}' are identical")
+    if np.ptp(y) == 0:
+        raise InputError(f"{source}: response '{response}' is constant")
+    return Design(response, tuple(predictors), X, y, source, dropped)
+
+
+def predictor_matrix(frame: pd.DataFrame, names: Sequence[str], source: str) -> np.ndarray:
+    """The predictor columns ``names`` of new rows (e.g. for prediction), validated.
+
+    Returns
+    -------
+    ndarray, shape (n, len(names))
+    """
+    frame = frame.set_axis([str(c) for c in frame.columns], axis=1)
+    for c in names:
+        if c not in frame.columns:
+            raise InputError(f"{source}: no column named '{c}' (the fit needs {', '.join(names)})")
+    sub = frame[list(names)]
+    missing = sub.isna().to_numpy()
+    if missing.any():
+        rows, cols = np.nonzero(missing)
+        raise InputError(
+            f"{source}: missing value at row {_file_row(sub, rows[0])} column '{names[cols[0]]}'"
+        )
+    return (
+        np.column_stack([_numeric(sub, c, source) for c in names])
+        if names
+        else np.empty((len(sub), 0))
+    )

@@ -1,0 +1,45 @@
+"""Posterior and predictive distributions of the response at new predictor values."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from .design import predictor_matrix
+from .result import FitResult
+
+
+def predict(
+    result: FitResult, frame: pd.DataFrame, level: float = 0.95, source: str = "new data"
+) -> pd.DataFrame:
+    """Mean response and intervals at each row of ``frame``.
+
+    Parameters
+    ----------
+    result : FitResult
+    frame : DataFrame
+        Holds the fit's predictor columns (natural units).
+    level : float
+        Level of both intervals.
+
+    Returns
+    -------
+    DataFrame
+        One row per input row: ``mean`` (posterior mean of the expected response),
+        ``lower``/``upper`` (credible interval of the expected response) and
+        ``pred_lower``/``pred_upper`` (predictive interval of a new observation),
+        all in response units.
+    """
+    names = result.factor.names
+    X = predictor_matrix(frame, names, source)
+    out = []
+    for x in X:
+        a = np.concatenate([[1.0], x])
+        mean_dist = result.posterior.marginal(a)
+        pred_dist = result.posterior.marginal(a, noise=True)
+        lo, hi = mean_dist.interval(level)
+        plo, phi = pred_dist.interval(level)
+        out.append({"mean": mean_dist.mean, "lower": lo, "upper": hi,
+                    "pred_lower": plo, "pred_upper": phi})  # fmt: skip
+    table = pd.DataFrame(out)
+    return pd.concat([frame[list(names)].reset_index(drop=True), table], axis=1)
