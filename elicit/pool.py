@@ -1,0 +1,148 @@
+"""Pooling several experts' priors for one coefficient into one prior of a chosen family.
+
+Two opinion pools, each with expert weights ``w_i`` (normalised to sum to one):
+
+- **linear** (the default): the mixture ``sum_i w_i f_i(x)``. It keeps the experts'
+  disagreement: when two experts' centres are far apart, the pooled prior is wide enough to
+  cover both, so no coefficient ends up with a prior narrower than the evidence of disagreement
+  warrants. Overconfident priors are the costly mistake in a small study, which is why linear
+  is the default. The mixture is not itself a member of a family, so it is matched back to the
+  chosen family by least squares on its 5/25/50/75/95% quantiles (moments do not exist for
+  heavy-tailed members); the loss of fit is reported as the largest difference between the
+  mixture's and the fitted prior's cumulative probabilities (a Kolmogorov distance, 0..1).
+- **log**: the normalised weighted geometric mean ``prod_i f_i(x)^w_i``. It treats the experts as
+  consistent readings of one quantity and ignores the spread of their centres. For normals it is
+  exactly normal with precision ``sum_i w_i / s_i^2`` and the precision-weighted mean (misfit 0);
+  for the other families it is computed on a grid and matched by quantiles like the linear pool.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Protocol
+
+import numpy as np
+from scipy import optimize
+
+from elicit.convert import distribution, fit_quantiles
+
+METHODS = ("linear", "log")
+DEFAULT_METHOD = "linear"
+MATCH_PROBS = (0.05, 0.25, 0.5, 0.75, 0.95)
+
+
+class Opinion(Protocol):
+    """What pooling needs from a statement (e.g. :class:`elicit.spec.Statement`)."""
+
+    family: str
+    center: float
+    scale: float
+    df: float | None
+    weight: float
+
+
+@dataclass(frozen=True)
+class PoolResult:
+    """A pooled prior matched to one family.
+
+    Attributes
+    ----------
+    center, scale : float
+        Parameters of the matched prior (coefficient units).
+    misfit : float
+        Largest absolute difference of cumulative probability between the pooled distribution
+        and the matched prior (0 when the pool is exactly in the family).
+    """
+
+    center: float
+    scale: float
+    misfit: float
+
+
+def _weights(opinions: Sequence[Opinion]) -> np.ndarray:
+    w = np.array([o.weight for o in opinions], dtype=float)
+    return w / w.sum()
+
+
+def _grid(opinions: Sequence[Opinion], size: int = 4001) -> np.ndarray:
+    dists = [distribution(o.family, o.center, o.scale, o.df) for o in opinions]
+    lo = min(float(d.ppf(1e-6)) for d in dists)
+    hi = max(float(d.ppf(1 - 1e-6)) for d in dists)
+    return np.linspace(lo, hi, size)
+
+
+def mixture_cdf(opinions: Sequence[Opinion], x: np.ndarray) -> np.ndarray:
+    """Cumulative probability of the linear pool at ``x`` (any shape)."""
+    w = _weights(opinions)
+    return sum(
+        wi * distribution(o.family, o.center, o.scale, o.df).cdf(x)
+        for wi, o in zip(w, opinions, strict=True)
+    )
+
+
+def mixture_ppf(opinions: Sequence[Opinion], p: float) -> float:
+    """Quantile of the linear pool at probability ``p`` (root of the mixture cdf)."""
+    each = [float(distribution(o.family, o.center, o.scale, o.df).ppf(p)) for o in opinions]
+    lo, hi = min(each), max(each)
+    if lo == hi:
+        return lo
+    return optimize.brentq(lambda x: float(mixture_cdf(opinions, x)) - p, lo, hi, xtol=1e-12)
+
+
+def _match(family: str, df: float | None, grid: np.ndarray, cdf: np.ndarray, quantiles):
+    fit = fit_quantiles(family, quantiles, df=df)
+    misfit = float(np.max(np.abs(cdf - distribution(family, fit.center, fit.scale, df).cdf(grid))))
+    return PoolResult(fit.center, fit.scale, misfit)
+
+
+def linear_pool(opinions: Sequence[Opinion], family: str, df: float | None = None) -> PoolResult:
+    """Linear opinion pool (weighted mixture) matched to ``family`` by quantiles.
+
+    Parameters
+    ----------
+    opinions : sequence of Opinion
+        Each with family, center, scale, df and a positive weight.
+    family : {"normal", "laplace", "student_t"}
+        Family of the pooled prior.
+    df : float, optional
+        Student-t degrees of freedom of the pooled prior.
+    """
+    quantiles = [(p, mixture_ppf(opinions, p)) for p in MATCH_PROBS]
+    grid = _grid(opinions)
+    return _match(family, df, grid, mixture_cdf(opinions, grid), quantiles)
+
+
+def log_pool(opinions: Sequence[Opinion], family: str, df: float | None = None) -> PoolResult:
+    """Logarithmic opinion pool (weighted geometric mean of densities) matched to ``family``.
+
+    All-normal statements pooled to a normal are exact: precision ``sum w_i / s_i^2`` and the
+    precision-weighted mean. Otherwise the pooled density is normalised on a grid of 4001
+    points and matched by quantiles.
+    """
+    w = _weights(opinions)
+    if family == "normal" and all(o.family == "normal" for o in opinions):
+        precision = w / np.array([o.scale for o in opinions]) ** 2
+        center = float(precision @ np.array([o.center for o in opinions]) / precision.sum())
+        return PoolResult(center, float(1.0 / np.sqrt(precision.sum())), 0.0)
+    grid = _grid(opinions)
+    logpdf = sum(
+        wi * distribution(o.family, o.center, o.scale, o.df).logpdf(grid)
+        for wi, o in zip(w, opinions, strict=True)
+    )
+    density = np.exp(logpdf - logpdf.max())
+    cdf = np.concatenate([[0.0], np.cumsum(0.5 * (density[1:] + density[:-1]) * np.diff(grid))])
+    cdf /= cdf[-1]
+    quantiles = [(p, float(np.interp(p, cdf, grid))) for p in MATCH_PROBS]
+    return _match(family, df, grid, cdf, quantiles)
+
+
+def pool(
+    opinions: Sequence[Opinion], method: str, family: str, df: float | None = None
+) -> PoolResult:
+    """Pool ``opinions`` with ``method`` ("linear" or "log") into one ``family`` prior."""
+    if method == "linear":
+        return linear_pool(opinions, family, df)
+    if method == "log":
+        return log_pool(opinions, family, df)
+    raise ValueError(f"unknown pool method {method!r} (expected 'linear' or 'log')")
