@@ -51,18 +51,32 @@ class Design:
         return pd.DataFrame(data)
 
 
+CSV_OPTIONS = {"skipinitialspace": True}  # pandas.read_csv options, shared with bayes.stream
+READ_ERRORS = (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, ValueError)
+
+
+def is_parquet(path: str | Path) -> bool:
+    """Whether ``path`` names a Parquet file (by its suffix); otherwise it is read as CSV."""
+    return Path(path).suffix.lower() in (".parquet", ".pq")
+
+
+def unreadable(path: str | Path, e: Exception) -> InputError:
+    """The one-line error for a parser failure (one of READ_ERRORS) on ``path``."""
+    first = str(e).strip().splitlines()[0] if str(e).strip() else type(e).__name__
+    return InputError(f"{path}: not a readable table: {first}")
+
+
 def read_table(path: str | Path) -> pd.DataFrame:
     """Read a CSV or Parquet file, turning parser failures into :class:`InputError`."""
     path = Path(path)
     if not path.exists():
         raise InputError(f"{path}: no such file")
     try:
-        if path.suffix.lower() in (".parquet", ".pq"):
+        if is_parquet(path):
             return pd.read_parquet(path)
-        frame = pd.read_csv(path, skipinitialspace=True)
-    except (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, ValueError) as e:
-        first = str(e).strip().splitlines()[0] if str(e).strip() else type(e).__name__
-        raise InputError(f"{path}: not a readable table: {first}") from None
+        frame = pd.read_csv(path, **CSV_OPTIONS)
+    except READ_ERRORS as e:
+        raise unreadable(path, e) from None
     if frame.shape[1] == 0 or frame.shape[0] == 0:
         raise InputError(f"{path}: no data rows")
     return frame
@@ -114,6 +128,22 @@ def build_design(
     -------
     Design
     """
+    frame, predictors = select_columns(frame, response, predictors, source)
+    values, dropped = checked_values(frame[[response, *predictors]], source, drop_missing)
+    y = values[response]
+    X = np.column_stack([values[c] for c in predictors]) if predictors else np.empty((len(y), 0))
+    check_distinct(X, y, predictors, response, source)
+    return Design(response, tuple(predictors), X, y, source, dropped)
+
+
+def select_columns(
+    frame: pd.DataFrame, response: str, predictors: Sequence[str] | None, source: str
+) -> tuple[pd.DataFrame, list[str]]:
+    """Check the response and predictor names against ``frame``'s columns.
+
+    Returns the frame with string column names and the predictor list (default:
+    every numeric column other than the response, judged from ``frame``'s dtypes).
+    """
     columns = [str(c) for c in frame.columns]
     frame = frame.set_axis(columns, axis=1)
     dup_names = sorted({c for c in columns if columns.count(c) > 1})
@@ -136,8 +166,24 @@ def build_design(
     if len(set(predictors)) != len(predictors):
         twice = next(c for c in predictors if predictors.count(c) > 1)
         raise InputError(f"{source}: predictor '{twice}' is listed twice")
-    used = [response, *predictors]
-    sub = frame[used]
+    return frame, predictors
+
+
+def checked_values(
+    sub: pd.DataFrame, source: str, drop_missing: bool = False
+) -> tuple[dict[str, np.ndarray], int]:
+    """Missing-value, numeric and finiteness checks on the used columns of a block of rows.
+
+    Works on a whole table or on one chunk of a streamed file: row numbers in the
+    errors come from ``sub``'s index labels (row label i is file line i + 2).
+
+    Returns
+    -------
+    values : dict of column name -> ndarray, shape (n_kept,)
+    dropped : int
+        Rows dropped for missing values (``drop_missing=True``).
+    """
+    used = list(sub.columns)
     missing = sub.isna().to_numpy()
     dropped = 0
     if missing.any():
@@ -157,8 +203,21 @@ def build_design(
             i = int(np.flatnonzero(~np.isfinite(v))[0])
             row = _file_row(sub, i)
             raise InputError(f"{source}: column '{c}' has a non-finite value at row {row}")
-    X = np.column_stack([values[c] for c in predictors]) if predictors else np.empty((len(sub), 0))
-    y = values[response]
+    return values, dropped
+
+
+def check_distinct(
+    X: np.ndarray, y: np.ndarray, predictors: Sequence[str], response: str, source: str
+) -> None:
+    """No constant predictor, no two identical predictors, no constant response.
+
+    Parameters
+    ----------
+    X : ndarray, shape (m, p)
+    y : ndarray, shape (m,)
+        All rows, or any subset of rows that keeps the first row and witnesses
+        every variation and every difference between columns (bayes.stream).
+    """
     for j, c in enumerate(predictors):
         if np.ptp(X[:, j]) == 0:
             raise InputError(f"{source}: column '{c}' is constant ({X[0, j]:g}): it has no effect")
@@ -167,7 +226,6 @@ def build_design(
                 raise InputError(f"{source}: columns '{predictors[k]}' and '{c}' are identical")
     if np.ptp(y) == 0:
         raise InputError(f"{source}: response '{response}' is constant")
-    return Design(response, tuple(predictors), X, y, source, dropped)
 
 
 def predictor_matrix(frame: pd.DataFrame, names: Sequence[str], source: str) -> np.ndarray:
