@@ -2,6 +2,7 @@ PY ?= python3
 VENV := .venv
 BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
+LINT_DIRS := $(wildcard bayes elicit tests benchmarks)
 
 .PHONY: demo test lint env clean bench
 
@@ -17,8 +18,8 @@ demo: $(STAMP)
 	$(BIN)/bayes demo --out demo-output
 
 lint: $(STAMP)
-	$(BIN)/ruff check bayes elicit tests benchmarks
-	$(BIN)/ruff format --check bayes elicit tests benchmarks
+	$(BIN)/ruff check $(LINT_DIRS)
+	$(BIN)/ruff format --check $(LINT_DIRS)
 
 test: $(STAMP) lint
 	$(BIN)/python -m pytest
