@@ -900,6 +900,26 @@ def parse_priors(doc: Mapping[str, Any], source: str = "<priors>") -> PriorSet:
     )
 
 
+def load_document(path: str | Path) -> dict[str, Any]:
+    """The raw TOML document of a prior file, not yet validated.
+
+    Raises
+    ------
+    PriorFileError
+        Unreadable file, not UTF-8, TOML syntax error or duplicate key (with line and column).
+    """
+    source = str(path)
+    try:
+        with open(path, "rb") as handle:
+            return tomllib.load(handle)
+    except OSError as exc:
+        raise PriorFileError(f"{source}: cannot read: {exc.strerror or exc}") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise PriorFileError(f"{source}: {exc}") from None
+    except UnicodeDecodeError as exc:
+        raise PriorFileError(f"{source}: not UTF-8 text: {exc.reason}") from None
+
+
 def read_prior_file(path: str | Path) -> PriorSet:
     """Read and validate a TOML prior file.
 
@@ -913,14 +933,4 @@ def read_prior_file(path: str | Path) -> PriorSet:
         Unreadable file, TOML syntax error or duplicate key (with line and column), or any
         validation error (see :func:`parse_priors`).
     """
-    source = str(path)
-    try:
-        with open(path, "rb") as handle:
-            doc = tomllib.load(handle)
-    except OSError as exc:
-        raise PriorFileError(f"{source}: cannot read: {exc.strerror or exc}") from None
-    except tomllib.TOMLDecodeError as exc:
-        raise PriorFileError(f"{source}: {exc}") from None
-    except UnicodeDecodeError as exc:
-        raise PriorFileError(f"{source}: not UTF-8 text: {exc.reason}") from None
-    return parse_priors(doc, source)
+    return parse_priors(load_document(path), str(path))

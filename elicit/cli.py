@@ -1,0 +1,202 @@
+"""The ``elicit`` command: show, pool, interview. A thin layer over the elicit modules.
+
+Bad input ends with one line on stderr and exit status 2, never a traceback.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+import warnings
+from pathlib import Path
+
+import click
+
+from elicit.spec import PriorFileError
+
+
+class BadInput(click.ClickException):
+    """Bad input from the user: one line, exit status 2."""
+
+    exit_code = 2
+
+
+class _Group(click.Group):
+    """A click group whose errors are single lines on stderr."""
+
+    def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
+        try:
+            with warnings.catch_warnings(record=True) as caught:
+                warnings.simplefilter("always")
+                code = super().main(args, prog_name, complete_var, standalone_mode=False, **extra)
+                _echo_warnings(caught)
+        except (PriorFileError, ValueError) as exc:
+            click.echo(f"elicit: {exc}", err=True)
+            sys.exit(2)
+        except click.ClickException as exc:
+            click.echo(f"elicit: {' '.join(exc.format_message().split())}", err=True)
+            sys.exit(exc.exit_code)
+        except click.Abort:
+            click.echo("elicit: aborted", err=True)
+            sys.exit(1)
+        sys.exit(code if isinstance(code, int) else 0)
+
+
+def _echo_warnings(caught) -> None:
+    from elicit.spec import ElicitationWarning
+
+    for w in caught:
+        if issubclass(w.category, ElicitationWarning):
+            click.echo(f"warning: {w.message}", err=True)
+
+
+def _read_data(path: str | None):
+    if path is None:
+        return None
+    import pandas as pd
+
+    try:
+        return pd.read_csv(path)
+    except FileNotFoundError:
+        raise BadInput(f"{path}: no such file") from None
+    except (OSError, ValueError, pd.errors.ParserError) as exc:
+        first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+        raise BadInput(f"{path}: cannot read the data: {first}") from None
+
+
+def _data_columns(frame) -> list[str]:
+    """Design columns the data can supply: numeric columns and ``name[level]`` of the others."""
+    columns = list(frame.columns)
+    for name in frame.columns:
+        if frame[name].dtype == object or str(frame[name].dtype) == "category":
+            columns += [f"{name}[{v}]" for v in frame[name].dropna().unique()]
+    return columns
+
+
+@click.group(cls=_Group)
+def main() -> None:
+    """Elicit priors from experts: show what a prior file implies, pool experts, interview."""
+
+
+@main.command()
+@click.argument("priors", type=click.Path(dir_okay=False))
+@click.option("--noise-sd", type=float, help="Residual sd for the penalties (default: prior).")
+@click.option("--data", type=click.Path(dir_okay=False), help="CSV: reference rows and checks.")
+@click.option("--response", help="Response column of --data (default: [study] response).")
+@click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text")
+def show(priors: str, noise_sd: float | None, data: str | None, response: str | None, fmt: str):
+    """Show each prior's parameters and what it implies."""
+    from elicit.feedback import feedback, format_text, to_json
+    from elicit.spec import read_prior_file
+
+    if noise_sd is not None and not noise_sd > 0:
+        raise BadInput(f"--noise-sd: must be positive, got {noise_sd:g}")
+    prior_set = read_prior_file(priors)
+    frame = _read_data(data)
+    if frame is not None:
+        prior_set.check_columns(_data_columns(frame))
+        response = response or prior_set.response
+        if response is not None and response not in frame:
+            raise BadInput(f"{data}: no response column {response!r}")
+    fb = feedback(prior_set, noise_sd, frame, response)
+    if fmt == "json":
+        click.echo(json.dumps(to_json(fb), allow_nan=False, default=_json_number))
+    else:
+        click.echo(format_text(fb), nl=False)
+
+
+def _json_number(value):
+    return float(value)
+
+
+@main.command()
+@click.argument("priors", type=click.Path(dir_okay=False))
+@click.option("--out", required=True, type=click.Path(dir_okay=False), help="Pooled prior file.")
+@click.option("--method", type=click.Choice(["linear", "log"]), help="Overrides [pool] method.")
+@click.option("--family", type=click.Choice(["normal", "laplace", "student_t"]),
+              help="Family of pooled priors (overrides [pool] family).")  # fmt: skip
+@click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text")
+def pool(priors: str, out: str, method: str | None, family: str | None, fmt: str):
+    """Pool several experts' entries per coefficient; keep their statements in OUT."""
+    from elicit.spec import load_document, parse_priors
+    from elicit.write import write_prior_file
+
+    doc = load_document(priors)
+    if method or family:
+        table = dict(doc.get("pool", {}))
+        table.update({k: v for k, v in (("method", method), ("family", family)) if v})
+        doc = {**doc, "pool": table}
+    prior_set = parse_priors(doc, priors)
+    write_prior_file(prior_set, out, header=f"Pooled by `elicit pool` from {Path(priors).name}.")
+    rows = [
+        {
+            "name": c.column,
+            "family": c.family,
+            "center": c.center if c.family != "flat" else None,
+            "scale": c.scale if c.family != "flat" else None,
+            "pool": c.pool,
+            "pool_misfit": c.pool_misfit,
+            "statements": len(c.statements),
+        }
+        for c in prior_set.coefficients
+    ]
+    if fmt == "json":
+        click.echo(json.dumps({"out": out, "coefficients": rows}, allow_nan=False))
+        return
+    for r in rows:
+        if r["pool"]:
+            click.echo(
+                f"{r['name']}: {r['statements']} statements, {r['pool']} pool -> {r['family']}"
+                f"(center={r['center']:.4g}, scale={r['scale']:.4g}), largest cdf difference "
+                f"of the fit {r['pool_misfit']:.3g}"
+            )
+        else:
+            click.echo(f"{r['name']}: one statement, kept as is")
+    click.echo(f"wrote {out}")
+
+
+@main.command()
+@click.option("--data", required=True, type=click.Path(dir_okay=False), help="CSV of the study.")
+@click.option("--response", required=True, help="Response column.")
+@click.option("--out", required=True, type=click.Path(dir_okay=False), help="Prior file to write.")
+@click.option("--response-units", help="Units of the response, e.g. MPa.")
+@click.option("--expert", help="Default expert name.")
+@click.option("--no-noise", is_flag=True, help="Do not ask about the noise.")
+def interview(
+    data: str,
+    response: str,
+    out: str,
+    response_units: str | None,
+    expert: str | None,
+    no_noise: bool,
+):
+    """Ask an expert about each predictor, with feedback; save after every answer; resume."""
+    from elicit.interview import Interview, terms_from_data
+
+    frame = _read_data(data)
+    if response not in frame:
+        raise BadInput(f"{data}: no response column {response!r}")
+
+    echo = not sys.stdin.isatty()
+
+    def ask(prompt, type=None, default=None):
+        answer = click.prompt(prompt, type=type, default=default)
+        if echo:  # scripted input is not echoed by the terminal: show it for the transcript
+            click.echo(answer)
+        return answer
+
+    session = Interview(Path(out), response, ask, click.echo, frame, response_units, expert)
+    terms = terms_from_data(frame, response, session.priors.units)
+    try:
+        session.run(terms, noise=not no_noise)
+    except click.Abort:
+        click.echo(
+            f"\nelicit: interview stopped; accepted answers are in {out}; "
+            "run the same command to resume",
+            err=True,
+        )
+        sys.exit(1)
+
+
+if __name__ == "__main__":
+    main()

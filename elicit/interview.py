@@ -1,0 +1,288 @@
+"""The elicitation interview: question by question, with feedback, saved after every answer.
+
+The questions come from a list of :class:`Term` (one per design column: a predictor, later a
+categorical level or a derived term), so new kinds of columns only need new terms. Input and
+output go through two callables, ``ask(prompt, type, default)`` and ``say(text)``, so the
+command line uses :func:`click.prompt` (line based, works with stdin not a terminal) and tests
+can script them.
+
+Each accepted answer is validated by :func:`elicit.spec.parse_priors` (the one validator) and
+the whole prior file is rewritten atomically, so killing the process at any prompt loses at most
+the answer being typed. Started again with the same output file, the interview skips every
+column the file already answers and carries on.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import click
+
+from elicit import convert, feedback
+from elicit.spec import FAMILIES, PriorFileError, PriorSet, parse_priors, read_prior_file
+from elicit.write import prior_doc, write_prior_file
+
+Ask = Callable[..., Any]
+Say = Callable[[str], None]
+
+
+@dataclass(frozen=True)
+class Term:
+    """One design column the interview asks about.
+
+    Attributes
+    ----------
+    name : str
+        Name in the prior file (the data column).
+    level : str or None
+        Categorical level (not asked yet; kept for the prior file's ``level`` key).
+    units : str or None
+        Units of the predictor, shown in the questions.
+    describe : str
+        What the data say about it (range, mean), shown before the questions.
+    reference : tuple of (label, value)
+        Predictor values at which the implied response is shown as feedback.
+    """
+
+    name: str
+    level: str | None = None
+    units: str | None = None
+    describe: str = ""
+    reference: tuple[tuple[str, float], ...] = ()
+
+    @property
+    def column(self) -> str:
+        return self.name if self.level is None else f"{self.name}[{self.level}]"
+
+
+def terms_from_data(frame, response: str, units: Mapping[str, str] | None = None) -> list[Term]:
+    """One :class:`Term` per numeric predictor column of ``frame`` (all but ``response``)."""
+    units = units or {}
+    terms = []
+    for name in frame.select_dtypes("number").columns:
+        if name == response:
+            continue
+        x = frame[name].dropna()
+        lo, hi = float(x.quantile(0.1)), float(x.quantile(0.9))
+        describe = f"data: {float(x.min()):.4g} to {float(x.max()):.4g}, mean {float(x.mean()):.4g}"
+        reference = ((f"{name} = {lo:.4g} (10% quantile)", lo),
+                     (f"{name} = {hi:.4g} (90% quantile)", hi))  # fmt: skip
+        terms.append(Term(name, None, units.get(name), describe, reference))
+    return terms
+
+
+def _blank_to_none(text: str) -> str | None:
+    text = text.strip()
+    return text or None
+
+
+class Interview:
+    """State of one interview: the prior document so far and where it is saved.
+
+    Parameters
+    ----------
+    out : Path
+        The prior file; read and resumed if it exists.
+    response : str
+        Response column.
+    ask, say : callables
+        ``ask(prompt, type=None, default=None)`` returns the answer; ``say(text)`` prints.
+    frame : pandas.DataFrame, optional
+        Data, for the implied-response feedback.
+    response_units : str, optional
+    expert : str, optional
+        Default expert name.
+    """
+
+    def __init__(
+        self,
+        out: Path,
+        response: str,
+        ask: Ask,
+        say: Say,
+        frame=None,
+        response_units: str | None = None,
+        expert: str | None = None,
+    ):
+        self.out = Path(out)
+        self.ask = ask
+        self.say = say
+        self.frame = frame
+        self.expert = expert
+        if self.out.exists():
+            priors = read_prior_file(self.out)
+            if priors.response is not None and priors.response != response:
+                raise PriorFileError(
+                    f"{self.out}: [study]: field 'response': the file is for "
+                    f"{priors.response!r}, not {response!r}"
+                )
+            self.doc = prior_doc(priors)
+            self.doc.setdefault("study", {})["response"] = response
+        else:
+            study = {"response": response}
+            if response_units:
+                study["response_units"] = response_units
+            self.doc = {"study": study}
+        self.priors = parse_priors(self.doc, str(self.out))
+        self.response = response
+
+    # -------------------------------------------------------------- state
+    @property
+    def answered(self) -> set[str]:
+        done = {c.column for c in self.priors.coefficients}
+        if self.priors.block is not None:
+            done |= set(self.priors.block.names)
+        return done
+
+    def _candidate(self, key: str, value: Any) -> PriorSet:
+        doc = dict(self.doc)
+        if key == "coefficient":
+            doc["coefficient"] = [*self.doc.get("coefficient", []), value]
+        else:
+            doc[key] = value
+        return parse_priors(doc, str(self.out))
+
+    def _save(self, priors: PriorSet) -> None:
+        write_prior_file(priors, self.out, header="Prior file written by `elicit interview`.")
+        self.priors = priors
+        self.doc = prior_doc(priors)
+
+    def _units(self) -> str:
+        u = self.priors.response_units
+        return f" {u}" if u else ""
+
+    # -------------------------------------------------------------- questions
+    def ask_term(self, term: Term, last: Mapping[str, Any]) -> dict[str, Any]:
+        """Ask one term's questions (previous answers as defaults); return the entry."""
+        units = f" {term.units}" if term.units else ""
+        family = self.ask(
+            f"Family for {term.column}",
+            type=click.Choice(FAMILIES),
+            default=last.get("family", "normal"),
+        )
+        entry: dict[str, Any] = {"name": term.name}
+        if term.level is not None:
+            entry["level"] = term.level
+        entry["family"] = family
+        if family == "student_t":
+            entry["df"] = self.ask(
+                "Degrees of freedom", type=float, default=last.get("df", convert.DEFAULT_DF)
+            )
+        if family != "flat":
+            per = self.ask(
+                f"The range is for a change of how many {term.units or 'units'} of {term.column}",
+                type=float,
+                default=last.get("per", 1.0),
+            )
+            what = f"change in {self.response} per {per:g}{units} of {term.column}"
+            entry["low"] = self.ask(f"Lowest plausible {what}", type=float, default=last.get("low"))
+            entry["high"] = self.ask(
+                f"Highest plausible {what}", type=float, default=last.get("high")
+            )
+            entry["mass"] = self.ask(
+                "Probability that the effect lies in that range",
+                type=float,
+                default=last.get("mass", 0.9),
+            )
+            if per != 1.0:
+                entry["per"] = per
+        expert = _blank_to_none(
+            self.ask("Expert", type=str, default=last.get("expert", self.expert or ""))
+        )
+        if expert:
+            entry["expert"] = expert
+            self.expert = expert
+        rationale = _blank_to_none(
+            self.ask("Rationale (one line)", type=str, default=last.get("rationale", ""))
+        )
+        if rationale:
+            entry["rationale"] = rationale
+        return entry
+
+    def _show_term(self, priors: PriorSet, term: Term) -> None:
+        noise_sd = priors.noise.median if priors.noise is not None else None
+        info = feedback.coefficient_feedback(priors.get(term.column), noise_sd)
+        self.say("\n".join(feedback.format_coefficient(info, noise_sd)))
+        if self.frame is None or not term.reference or info.family == "flat":
+            return
+        numeric = self.frame.select_dtypes("number")
+        means = {c: float(numeric[c].mean()) for c in numeric.columns if c != self.response}
+        y_mean = float(self.frame[self.response].mean())
+        rows = [(label, {term.column: value}) for label, value in term.reference]
+        implied = feedback.prior_predictive(priors, rows, means, y_mean)
+        self.say("\n".join(feedback.format_predictive(implied, priors.response_units)))
+
+    def _accept(self) -> bool:
+        choice = self.ask("Accept (a) or revise (r)?", type=click.Choice(["a", "r"]), default="a")
+        return choice == "a"
+
+    def run_term(self, term: Term, index: int, total: int) -> None:
+        """Ask about one term until an answer is valid and accepted; then save."""
+        head = f"\n[{index}/{total}] {term.column}"
+        self.say(head + (f" ({term.units})" if term.units else "") + (f"; {term.describe}"
+                 if term.describe else ""))  # fmt: skip
+        last: dict[str, Any] = {}
+        while True:
+            entry = self.ask_term(term, last)
+            last = entry
+            try:
+                candidate = self._candidate("coefficient", entry)
+            except PriorFileError as exc:
+                self.say(f"not accepted: {exc}")
+                continue
+            self._show_term(candidate, term)
+            if self._accept():
+                self._save(candidate)
+                self.say(f"saved {term.column} to {self.out}")
+                return
+
+    def run_noise(self) -> None:
+        """Ask the range of the residual sd until valid and accepted; then save."""
+        self.say(f"\nNoise: the scatter of {self.response} around its expected value")
+        last: dict[str, Any] = {}
+        while True:
+            what = f"residual standard deviation of {self.response}{self._units()}"
+            entry = {
+                "low": self.ask(f"Lowest plausible {what}", type=float, default=last.get("low")),
+                "high": self.ask(f"Highest plausible {what}", type=float, default=last.get("high")),
+                "mass": self.ask(
+                    "Probability that it lies in that range",
+                    type=float,
+                    default=last.get("mass", 0.9),
+                ),
+            }
+            last = entry
+            try:
+                candidate = self._candidate("noise", entry)
+            except PriorFileError as exc:
+                self.say(f"not accepted: {exc}")
+                continue
+            noise = feedback.noise_feedback(candidate.noise)
+            q = noise["quantiles"]
+            self.say(
+                f"noise sd: median {noise['median']:.4g}, 90% interval {q['0.05']:.4g} .. "
+                f"{q['0.95']:.4g} (inverse gamma on the variance, shape {noise['shape']:.4g})"
+            )
+            if self._accept():
+                self._save(candidate)
+                self.say(f"saved the noise range to {self.out}")
+                return
+
+    def run(self, terms: Sequence[Term], noise: bool = True) -> PriorSet:
+        """Ask every unanswered term, then the noise; return the saved priors."""
+        done = self.answered
+        todo = [t for t in terms if t.column not in done]
+        if done:
+            skipped = ", ".join(t.column for t in terms if t.column in done)
+            self.say(f"resuming {self.out}: already answered: {skipped or '-'}")
+        for i, term in enumerate(todo, len(terms) - len(todo) + 1):
+            self.run_term(term, i, len(terms))
+        if noise and self.priors.noise is None:
+            self.run_noise()
+        if not self.out.exists():
+            self._save(self.priors)
+        self.say(f"\ndone: {self.out} holds {len(self.priors.coefficients)} coefficient prior(s)")
+        return self.priors
