@@ -98,6 +98,7 @@ def load_fit(folder: str | Path) -> FitResult:
     import tomllib
 
     import pandas as pd
+
     from elicit.spec import flat_priors, parse_priors
 
     from .design import Design
