@@ -10,7 +10,7 @@ import pandas as pd
 import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
-NIST = ROOT.parent / "shared" / "reference" / "nist-strd"
+NIST = ROOT / "tests" / "reference" / "nist-strd"  # copy of shared/reference/nist-strd
 DEMO = ROOT / "bayes" / "demo"
 
 
