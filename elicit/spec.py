@@ -200,37 +200,20 @@ class CoefficientPrior:
         """The same stated range read as another family.
 
         The prior's central interval at the stated mass (0.9 when the statements do not share
-        one) is kept and re-read as ``family``; each statement is re-read the same way.
-        Flat priors, and conversions to "flat", keep the statements and lose the parameters.
+        one) is kept and re-read as ``family`` (Student-t: ``df``, default 5). The statements
+        stay as they are: they are the record of what was said. A flat prior stays flat; to
+        "flat", the parameters are dropped.
         """
-        if self.family == "flat":
+        new_df = (df if df is not None else convert.DEFAULT_DF) if family == "student_t" else None
+        if self.family == "flat" or (family, new_df) == (self.family, self.df):
             return self
+        if family == "flat":
+            return replace(self, family="flat", center=0.0, scale=math.nan, df=None)
         masses = {s.mass for s in self.statements if s.mass is not None}
         mass = masses.pop() if len(masses) == 1 else 0.9
-        new_df = (df if df is not None else convert.DEFAULT_DF) if family == "student_t" else None
-
-        def reread(center: float, scale: float, old_family: str, old_df: float | None):
-            if family == "flat":
-                return 0.0, math.nan
-            low, high = convert.central_range(old_family, center, scale, mass, old_df)
-            return convert.from_range(family, low, high, mass, df=new_df)
-
-        statements = tuple(
-            s
-            if s.family == "flat"
-            else replace(
-                s, family=family, df=new_df, **_cs(reread(s.center, s.scale, s.family, s.df))
-            )
-            for s in self.statements
-        )
-        center, scale = reread(self.center, self.scale, self.family, self.df)
-        return replace(
-            self, family=family, center=center, scale=scale, df=new_df, statements=statements
-        )
-
-
-def _cs(pair: tuple[float, float]) -> dict[str, float]:
-    return {"center": pair[0], "scale": pair[1]}
+        low, high = convert.central_range(self.family, self.center, self.scale, mass, self.df)
+        center, scale = convert.from_range(family, low, high, mass, df=new_df)
+        return replace(self, family=family, center=center, scale=scale, df=new_df)
 
 
 @dataclass(frozen=True)
@@ -309,6 +292,31 @@ class CorrelatedBlock:
         )
 
     __hash__ = None  # type: ignore[assignment]
+
+    def rescaled(self, factor: float, columns: set[str] | None = None) -> CorrelatedBlock:
+        """Covariance rows and columns of ``columns`` (default all) multiplied by ``factor``.
+
+        Rescaling all of it widens each stated row's range about its midpoint and derives the
+        block again; rescaling part of it keeps mean and covariance and drops the rows (they no
+        longer describe the block).
+        """
+        if columns is None or set(self.names) <= columns:
+            if self.rows:
+                rows = tuple(
+                    replace(
+                        r,
+                        low=0.5 * (r.low + r.high) - 0.5 * factor * (r.high - r.low),
+                        high=0.5 * (r.low + r.high) + 0.5 * factor * (r.high - r.low),
+                    )
+                    for r in self.rows
+                )
+                mean, cov = from_stated_rows(
+                    self.names, [dict(r.at) for r in rows], [(r.low, r.high, r.mass) for r in rows]
+                )
+                return CorrelatedBlock(self.names, mean, cov, rows)
+            return replace(self, cov=self.cov * factor**2)
+        d = np.array([factor if n in columns else 1.0 for n in self.names])
+        return CorrelatedBlock(self.names, self.mean, self.cov * np.outer(d, d))
 
 
 @dataclass(frozen=True)
@@ -403,7 +411,8 @@ class PriorSet:
             Only these columns (default all). The correlated block's covariance is rescaled
             on its rows and columns among them.
         expert : str, optional
-            Only this expert's statements are widened, then the column is pooled again.
+            Only this expert's statements are widened and the column pooled again; the
+            statements kept on the result are the original record.
         """
         if not (math.isfinite(factor) and factor > 0):
             raise ValueError(f"factor must be positive and finite, got {factor}")
@@ -415,19 +424,19 @@ class PriorSet:
             elif expert is None:
                 coefficients.append(c.rescaled(factor))
             elif any(s.expert == expert for s in c.statements):
-                statements = tuple(
+                widened = tuple(
                     replace(s, scale=s.scale * factor)
                     if s.expert == expert and s.family != "flat"
                     else s
                     for s in c.statements
                 )
-                coefficients.append(_combine(c.name, c.level, statements, c.pool, c.family, c.df))
+                pooled = _combine(c.name, c.level, widened, c.pool, c.family, c.df)
+                coefficients.append(replace(pooled, statements=c.statements))
             else:
                 coefficients.append(c)
         block = self.block
         if block is not None and expert is None:
-            d = np.array([factor if chosen is None or n in chosen else 1.0 for n in block.names])
-            block = replace(block, cov=block.cov * np.outer(d, d))
+            block = block.rescaled(factor, chosen)
         return replace(self, coefficients=tuple(coefficients), block=block)
 
     def as_family(self, family: str) -> PriorSet:
