@@ -194,6 +194,23 @@ def predict_command(fit_dir, newdata, level, fmt):
     emit({"level": level, "predictions": rows}, text, fmt)
 
 
+@main.command("report")
+@click.argument("fit_dir", type=click.Path(file_okay=False))
+@click.option("--out", type=click.Path(dir_okay=False), default="report.html", show_default=True,
+              help="The report as one self-contained HTML file.")  # fmt: skip
+@click.option("--markdown", type=click.Path(dir_okay=False),
+              help="Also write it as Markdown, with PNG figures beside it.")  # fmt: skip
+@click.option("--csv-dir", type=click.Path(file_okay=False),
+              help="Also write each table of the report as a CSV file in this folder.")  # fmt: skip
+def report_command(fit_dir, out, markdown, csv_dir):
+    """Write the report of the fit saved in FIT_DIR (by bayes fit --save)."""
+    from .report import build_report, outputs_text, write_report
+
+    report = build_report(fit_dir)
+    write_report(report, out, markdown, csv_dir)
+    click.echo(outputs_text(report, out, markdown, csv_dir))
+
+
 @main.command("demo")
 @click.option("--out", type=click.Path(file_okay=False), default="demo-output",
               show_default=True, help="Folder for the demo's outputs.")  # fmt: skip
