@@ -12,8 +12,6 @@ from pathlib import Path
 
 import click
 
-from elicit.spec import PriorFileError
-
 
 class BadInput(click.ClickException):
     """Bad input from the user: one line, exit status 2."""
@@ -30,7 +28,11 @@ class _Group(click.Group):
                 warnings.simplefilter("always")
                 code = super().main(args, prog_name, complete_var, standalone_mode=False, **extra)
                 _echo_warnings(caught)
-        except (PriorFileError, ValueError) as exc:
+        except ValueError as exc:
+            from elicit.spec import PriorFileError
+
+            if not isinstance(exc, PriorFileError):
+                raise
             click.echo(f"elicit: {exc}", err=True)
             sys.exit(2)
         except click.ClickException as exc:
@@ -43,10 +45,8 @@ class _Group(click.Group):
 
 
 def _echo_warnings(caught) -> None:
-    from elicit.spec import ElicitationWarning
-
     for w in caught:
-        if issubclass(w.category, ElicitationWarning):
+        if w.category.__name__ == "ElicitationWarning":  # by name: keeps --help free of scipy
             click.echo(f"warning: {w.message}", err=True)
 
 

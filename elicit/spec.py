@@ -16,8 +16,9 @@ any other key is an error.
     an inverse-gamma prior on the variance, see :mod:`elicit.convert`), or ``shape``, ``scale``
     (that inverse gamma given directly: ``scipy.stats.invgamma(shape, scale=scale)``).
 ``[pool]`` (how several entries for one coefficient are combined, see :mod:`elicit.pool`)
-    ``method = "linear" | "log"`` (default ``"linear"``); ``family`` and ``df`` of the pooled
-    prior (default: the family the entries share; required when they differ).
+    ``method = "linear" | "log"`` (default ``"linear"``); ``family`` and ``df`` of pooled
+    priors (default: the family the entries share; required when they differ). A column with
+    a single entry keeps its own family.
 ``[[coefficient]]`` (one per statement; several for one column are pooled)
     ``name`` (required: column name, or ``"intercept"``); ``level`` (a categorical level: the
     prior is on its difference from the reference level, column ``name[level]``);
@@ -702,7 +703,8 @@ def _parse_coefficients(
         first = group["readers"][0]
         if len(statements) > 1 and "flat" in families and families != {"flat"}:
             raise first.error("family", f"cannot pool a flat entry for {column} with others")
-        family = pool_family or (families.pop() if len(families) == 1 else None)
+        shared = families.pop() if len(families) == 1 else None
+        family = (pool_family or shared) if len(statements) > 1 else shared
         if family is None:
             raise first.error(
                 "family", f"entries for {column} differ in family: set family in [pool]"

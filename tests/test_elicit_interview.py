@@ -1,0 +1,142 @@
+"""The interview, driven as a subprocess with scripted stdin: killed midway, then resumed."""
+
+import os
+import signal
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+from elicit.interview import Interview, Term
+from elicit.spec import parse_priors, read_prior_file
+
+ROOT = Path(__file__).resolve().parents[1]
+# Invented data for the test.
+DATA = "x1,x2,y\n0.1,1,2.0\n0.4,2,3.1\n0.9,1,4.2\n1.3,3,5.9\n1.8,2,6.1\n2.2,4,8.3\n"
+
+# family, per, low, high, mass, expert, rationale, accept
+X1 = ["normal", "1", "1", "4", "0.9", "analyst A", "steady rise in the invented pilot runs", "a"]
+# an invalid answer first (low above high), then revised after seeing the feedback
+X2_BAD = ["laplace", "1", "2", "-2", "0.8", "", ""]
+X2 = ["laplace", "2", "-1", "1", "0.8", "analyst B", "", "r",
+      "laplace", "2", "-1", "1.5", "0.8", "analyst B", "no clear direction", "a"]  # fmt: skip
+NOISE = ["0.3", "1.5", "0.9", "a"]
+
+
+def command(tmp_path):
+    return [sys.executable, "-m", "elicit.cli", "interview", "--data", str(tmp_path / "d.csv"),
+            "--response", "y", "--out", str(tmp_path / "p.toml")]  # fmt: skip
+
+
+def lines(answers):
+    return "".join(a + "\n" for a in answers)
+
+
+def expected_doc():
+    return {
+        "study": {"response": "y"},
+        "noise": {"low": 0.3, "high": 1.5, "mass": 0.9},
+        "coefficient": [
+            {"name": "x1", "family": "normal", "low": 1.0, "high": 4.0, "mass": 0.9,
+             "expert": "analyst A", "rationale": "steady rise in the invented pilot runs"},
+            {"name": "x2", "family": "laplace", "low": -1.0, "high": 1.5, "mass": 0.8, "per": 2.0,
+             "expert": "analyst B", "rationale": "no clear direction"},
+        ],
+    }  # fmt: skip
+
+
+def wait_for(predicate, what, limit=60.0):
+    # a guard against hanging, not a timing check
+    deadline = time.monotonic() + limit
+    while time.monotonic() < deadline:
+        if predicate():
+            return
+        time.sleep(0.05)
+    raise AssertionError(f"gave up waiting for {what}")
+
+
+def answered(path, column):
+    try:
+        return path.exists() and read_prior_file(path).get(column) is not None
+    except Exception:
+        return False
+
+
+def test_kill_midway_then_resume(tmp_path):
+    (tmp_path / "d.csv").write_text(DATA)
+    out = tmp_path / "p.toml"
+    env = dict(os.environ, PYTHONPATH=str(ROOT))
+    with open(tmp_path / "log1.txt", "w") as log:
+        proc = subprocess.Popen(command(tmp_path), stdin=subprocess.PIPE, stdout=log,
+                                stderr=subprocess.STDOUT, cwd=ROOT, env=env, text=True)  # fmt: skip
+        proc.stdin.write(lines(X1))
+        proc.stdin.flush()
+        wait_for(lambda: answered(out, "x1"), "x1 to be saved")
+        # half of x2's answers, then the process is killed at the next prompt
+        proc.stdin.write(lines(X2[:3]))
+        proc.stdin.flush()
+        time.sleep(0.5)
+        proc.send_signal(signal.SIGKILL)
+        proc.wait()
+    saved = read_prior_file(out)
+    assert [c.column for c in saved.coefficients] == ["x1"]
+    assert saved.get("x1").statements[0].expert == "analyst A"
+    assert saved.noise is None
+    assert sorted(os.listdir(tmp_path)) == ["d.csv", "log1.txt", "p.toml"]  # no temp files
+
+    resumed = subprocess.run(command(tmp_path), input=lines(X2_BAD + X2 + NOISE), cwd=ROOT,
+                             env=env, text=True, capture_output=True)  # fmt: skip
+    assert resumed.returncode == 0, resumed.stderr
+    assert "already answered: x1" in resumed.stdout
+    assert "not accepted:" in resumed.stdout and "field 'high'" in resumed.stdout
+    assert "P(positive)" in resumed.stdout and "implied response" in resumed.stdout
+    final = read_prior_file(out)
+    assert final == parse_priors(expected_doc(), str(out))
+
+    # a third run has nothing left to ask
+    again = subprocess.run(command(tmp_path), input="", cwd=ROOT, env=env, text=True,
+                           capture_output=True)  # fmt: skip
+    assert again.returncode == 0 and "already answered: x1, x2" in again.stdout
+    assert read_prior_file(out) == final
+
+
+def test_input_ending_early_keeps_accepted_answers(tmp_path):
+    (tmp_path / "d.csv").write_text(DATA)
+    env = dict(os.environ, PYTHONPATH=str(ROOT))
+    run = subprocess.run(command(tmp_path), input=lines(X1 + X2[:4]), cwd=ROOT, env=env,
+                         text=True, capture_output=True)  # fmt: skip
+    assert run.returncode == 1
+    assert "run the same command to resume" in run.stderr
+    assert "Traceback" not in run.stderr
+    assert [c.column for c in read_prior_file(tmp_path / "p.toml").coefficients] == ["x1"]
+
+
+def test_interview_api_with_scripted_answers(tmp_path):
+    answers = iter(["student_t", "3", "10", "-5", "5", "0.95", "C", "why not", "a"])
+    said = []
+
+    def ask(prompt, type=None, default=None):
+        value = next(answers)
+        return type(value) if callable(type) and not hasattr(type, "choices") else value
+
+    session = Interview(tmp_path / "q.toml", "y", ask, said.append)
+    priors = session.run([Term("x1", units="kg")], noise=False)
+    c = priors.get("x1")
+    assert (c.family, c.df, c.statements[0].per) == ("student_t", 3.0, 10.0)
+    assert read_prior_file(tmp_path / "q.toml") == parse_priors(
+        {"study": {"response": "y"}, "coefficient": [
+            {"name": "x1", "family": "student_t", "df": 3.0, "per": 10.0, "low": -5.0,
+             "high": 5.0, "mass": 0.95, "expert": "C", "rationale": "why not"}]},
+        str(tmp_path / "q.toml"),
+    )  # fmt: skip
+    assert any("kg of x1" in s or "student_t" in s for s in said)
+
+
+def test_resume_refuses_a_file_for_another_response(tmp_path):
+    (tmp_path / "q.toml").write_text('[study]\nresponse = "other"\n')
+    from elicit.spec import PriorFileError
+
+    with pytest.raises(PriorFileError, match="field 'response'"):
+        Interview(tmp_path / "q.toml", "y", None, None)
