@@ -15,16 +15,27 @@ def demo_path(name: str) -> Path:
 
 
 def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
-    """Fit the demo study, save the fit under ``out`` and print the table."""
+    """The whole job on the demo study: prior file -> fit -> report, written into ``out``.
+
+    ``out/fit/`` holds the saved fit; ``out/report.html`` (self-contained), ``out/report.md``
+    with its PNG figures beside it, and ``out/tables/*.csv`` the report.
+    """
     from .api import fit
+    from .cli import provenance
     from .design import read_table
+    from .report import outputs_text, report_from_result, write_report
+    from .store import save_fit
 
     data, priors = demo_path("trial_mix.csv"), demo_path("priors.toml")
     out.mkdir(parents=True, exist_ok=True)
     echo("Demo study (INVENTED data and experts): trial mix programme, 18 batches.")
-    result = fit(read_table(data), priors=priors, source=data.name)
-    from .store import save_fit
-
+    result = fit(
+        read_table(data), priors=priors, source=data.name, provenance=provenance(str(data))
+    )
     save_fit(result, out / "fit")
     echo(result.text())
     echo(f"Saved the fit in {out / 'fit'}/")
+    report = report_from_result(result)
+    html, markdown, tables = out / "report.html", out / "report.md", out / "tables"
+    write_report(report, html, markdown, tables)
+    echo(outputs_text(report, html, markdown, tables))

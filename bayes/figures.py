@@ -35,6 +35,7 @@ PAGE_WIDTH = 6.5  # inches: a printed page's text width
 DPI = 150
 
 _STYLE = {
+    "text.parse_math": False,  # names and units are shown as written ('$' is not mathtext)
     "font.size": 9,
     "axes.titlesize": 9.5,
     "axes.labelsize": 9,

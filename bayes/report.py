@@ -353,7 +353,7 @@ def _lines(cell: Cell) -> tuple[str, ...]:
     return (cell,) if isinstance(cell, str) else tuple(cell)
 
 
-_NUMBER = re.compile(r"[<>]?[-+]?(\d[\d.]*(e[-+]?\d+)?|inf)")
+_NUMBER = re.compile(r"-|[<>]?[-+]?(\d[\d.]*(e[-+]?\d+)?|inf)")
 _MD_SPECIAL = re.compile(r"([\\`*\[\]|])")
 
 
@@ -921,7 +921,7 @@ def _comparison(ctx: _Context) -> Section:
 
 
 def _math(body: str) -> str:
-    return f'<math display="block" xmlns="http://www.w3.org/1998/Math/MathML">{body}</math>'
+    return f'<math display="block">{body}</math>'
 
 
 MODEL = Formula(

@@ -1,0 +1,350 @@
+"""The report: content, rounding, escaping, self-containment, atomic writes and the CLI."""
+
+from __future__ import annotations
+
+import csv
+import math
+import re
+import shutil
+
+import numpy as np
+import pandas as pd
+import pytest
+from click.testing import CliRunner
+from conftest import DEMO
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+import bayes
+from bayes.cli import main
+from bayes.report import (
+    build_report,
+    collinearity,
+    render_html,
+    render_markdown,
+    report_from_result,
+    write_report,
+)
+from bayes.store import save_fit
+from bayes.summary import fmt_by_sd
+from elicit.spec import parse_priors, read_prior_file
+
+NAMES = ["water_cement", "fly_ash", "curing_temp", "superplasticizer"]
+SECTION_ORDER = ["study", "data", "priors", "posterior", "figures", "sensitivity", "method",
+                 "cautions", "barg"]  # fmt: skip
+
+
+@pytest.fixture(scope="module")
+def demo_result():
+    frame = pd.read_csv(DEMO / "trial_mix.csv")
+    return bayes.fit(frame, "strength", NAMES, priors=read_prior_file(DEMO / "priors.toml"))
+
+
+@pytest.fixture(scope="module")
+def demo_fit_dir(demo_result, tmp_path_factory):
+    return save_fit(demo_result, tmp_path_factory.mktemp("fit") / "fit")
+
+
+@pytest.fixture(scope="module")
+def demo_report(demo_fit_dir):
+    return build_report(demo_fit_dir)
+
+
+# --------------------------------------------------------------------------- rounding
+
+
+def test_fmt_by_sd_examples():
+    # Hand-worked: sd 16.7 -> "17" (units digit) so the estimate keeps the units digit; sd 0.0855
+    # -> "0.086" (thousandths); sd 1234 -> "1200" (hundreds); 0.09996 rounds up to "0.10".
+    assert fmt_by_sd(-64.6439, 16.7) == "-65"
+    assert fmt_by_sd(0.286368, 0.0855) == "0.286"
+    assert fmt_by_sd(123456.0, 1234.0) == "123500"
+    assert fmt_by_sd(1.5, 0.09996) == "1.50"
+    assert fmt_by_sd(-0.0004, 0.3) == "0.00"
+    assert fmt_by_sd(2.5, None) == "2.5"
+    assert fmt_by_sd(2.5, math.inf) == "2.5"
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    x=st.floats(-1e6, 1e6, allow_nan=False),
+    sd=st.floats(1e-6, 1e6, allow_nan=False),
+)
+def test_fmt_by_sd_keeps_the_second_significant_digit_of_the_sd(x, sd):
+    # The place of the sd's second significant digit, read from Python's own rounding of the sd
+    # to two significant digits ("1.7e+01" -> tens' place 10**(1 - 1)); common practice, no source.
+    place = 10.0 ** (int(f"{sd:.1e}".split("e")[1]) - 1)
+    text = fmt_by_sd(x, sd)
+    shown = float(text)
+    if place < 1:
+        assert len(text.split(".")[1]) == round(-math.log10(place))
+    else:
+        assert "." not in text
+        assert shown / place == pytest.approx(round(shown / place), abs=1e-6)
+    assert abs(shown - x) <= 0.5 * place * (1 + 1e-9) + 1e-9 * abs(x)
+
+
+# --------------------------------------------------------------------------- numbers
+
+
+def test_collinearity_matches_numpy_and_statsmodels(demo_result):
+    # Source: numpy.corrcoef for correlations; statsmodels variance_inflation_factor (with a
+    # constant column) for VIFs.
+    from statsmodels.stats.outliers_influence import variance_inflation_factor
+
+    frame = pd.read_csv(DEMO / "trial_mix.csv")
+    X = frame[NAMES].to_numpy()
+    corr, vif = collinearity(demo_result.factor)
+    np.testing.assert_allclose(corr, np.corrcoef(X, rowvar=False), rtol=1e-10, atol=1e-12)
+    exog = np.column_stack([np.ones(len(X)), X])
+    expected = [variance_inflation_factor(exog, j + 1) for j in range(len(NAMES))]
+    np.testing.assert_allclose(vif, expected, rtol=1e-9)
+
+
+def test_least_squares_marks_and_standardized_forest_match_lstsq(demo_result):
+    # Source: numpy.linalg.lstsq on the raw design (marks) and on z-scored columns (the
+    # forest plot's standardized least-squares estimates).
+    from bayes.report import _Context, _forest_rows, _least_squares
+
+    frame = pd.read_csv(DEMO / "trial_mix.csv")
+    X = frame[NAMES].to_numpy()
+    y = frame["strength"].to_numpy()
+    coef, *_ = np.linalg.lstsq(np.column_stack([np.ones(len(y)), X]), y, rcond=None)
+    ls = _least_squares(demo_result)
+    np.testing.assert_allclose(ls.mean, coef, rtol=1e-9)
+    Z = (X - X.mean(0)) / X.std(0)
+    z_coef, *_ = np.linalg.lstsq(Z, (y - y.mean()) / y.std(), rcond=None)
+    ctx = _Context(demo_result, "MPa", {}, ls, None, None)
+    rows = _forest_rows(ctx)
+    np.testing.assert_allclose([r.least_squares.center for r in rows], z_coef, rtol=1e-9)
+    # A standardized interval is the natural interval times sd(x)/sd(y): the posterior mean row.
+    scale = X.std(0) / y.std()
+    means = np.array([r["mean"] for r in demo_result.rows[1:]])
+    np.testing.assert_allclose([r.posterior.center for r in rows], means * scale, rtol=1e-12)
+
+
+def test_posterior_csv_is_rounded_by_the_posterior_sd(demo_report, demo_result, tmp_path):
+    write_report(demo_report, csv_dir=tmp_path)
+    with open(tmp_path / "posterior.csv", newline="") as fh:
+        rows = list(csv.DictReader(fh))
+    assert [r["coefficient"] for r in rows] == ["intercept", *NAMES]
+    for row, exact in zip(rows, demo_result.rows, strict=True):
+        sd = exact["sd"]
+        for key, column in (("mean", "mean"), ("lower", "95% lower"), ("upper", "95% upper")):
+            text = row[column]
+            decimals = len(text.split(".")[1]) if "." in text else 0
+            unit = 10.0**-decimals
+            # common practice, no source: last digit at the sd's second significant digit
+            assert sd / 100 < unit <= sd / 10 * 1.01, (row["coefficient"], column, text, sd)
+            assert abs(float(text) - exact[key]) <= 0.5 * unit * (1 + 1e-9)
+
+
+def test_csv_headers_carry_units(demo_report, tmp_path):
+    write_report(demo_report, csv_dir=tmp_path)
+    data = (tmp_path / "data.csv").read_text().splitlines()
+    assert data[0].split(",")[:2] == ["predictor", "units"]
+    assert "water_cement,ratio," in (tmp_path / "data.csv").read_text()
+    post = (tmp_path / "posterior.csv").read_text()
+    assert "water_cement,MPa per ratio," in post
+    assert "fly_ash,MPa per share of binder," in post
+
+
+# --------------------------------------------------------------------------- content
+
+
+def test_sections_follow_the_issue_order(demo_report):
+    assert [s.key for s in demo_report.sections] == SECTION_ORDER
+    html = render_html(demo_report)
+    positions = [html.index(f'<section id="{key}">') for key in SECTION_ORDER]
+    assert positions == sorted(positions)
+
+
+def test_study_section_names_data_hash_and_provenance(tmp_path):
+    import hashlib
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    fit_dir = tmp_path / "fit"
+    bayes_cmd = str(Path(sys.executable).with_name("bayes"))
+    args = ["fit", str(DEMO / "trial_mix.csv"), "--priors", str(DEMO / "priors.toml"), "--save",
+            str(fit_dir)]  # fmt: skip
+    subprocess.run([bayes_cmd, *args], check=True, capture_output=True)
+    report = build_report(fit_dir, figures=False)
+    study = dict(report.sections[0].blocks[1].rows)
+    # Source: hashlib.sha256 of the data file.
+    digest = hashlib.sha256((DEMO / "trial_mix.csv").read_bytes()).hexdigest()
+    assert study["data SHA-256"] == digest
+    assert study["data file"] == "trial_mix.csv"
+    assert study["command line"] == " ".join(["bayes", *args])
+    assert "numpy" in study["software"]
+
+
+def test_figures_are_png_and_the_densities_mark_least_squares(demo_report, demo_result):
+    figures = {f.key: f for f in demo_report.figures}
+    assert set(figures) == {"densities", "forest", "residuals", "predictive"}
+    for f in figures.values():
+        assert f.png.startswith(b"\x89PNG\r\n\x1a\n")
+
+
+def test_no_sweep_or_comparison_says_so(demo_report):
+    sens = next(s for s in demo_report.sections if s.key == "sensitivity")
+    assert "No sensitivity sweep was saved" in sens.blocks[0].text
+    assert all(s.key != "comparison" for s in demo_report.sections)
+
+
+def test_pooled_coefficient_lists_both_experts(tmp_path):
+    frame = pd.read_csv(DEMO / "trial_mix.csv")
+    doc = {
+        "study": {"response_units": "MPa"},
+        "units": {"fly_ash": "share of binder"},
+        "coefficient": [
+            {"name": "fly_ash", "low": -4.0, "high": 0.5, "mass": 0.9, "per": 0.1,
+             "expert": "engineer B", "rationale": "slower early strength"},
+            {"name": "fly_ash", "low": -3.0, "high": 1.0, "mass": 0.8, "per": 0.1,
+             "expert": "engineer C", "rationale": "plant records"},
+        ],
+    }  # fmt: skip
+    result = bayes.fit(frame, "strength", NAMES, priors=parse_priors(doc, "pooled.toml"))
+    report = report_from_result(result, figures=False)
+    table = next(b for s in report.sections if s.key == "priors" for b in s.blocks
+                 if getattr(b, "key", "") == "priors")  # fmt: skip
+    row = next(r for r in table.rows if r[0] == "fly_ash")
+    cells = dict(zip(table.headers, row, strict=True))
+    assert cells["stated by"] == ("engineer B", "engineer C")
+    assert cells["mass"] == ("90%", "80%")
+    assert cells["pooled"].startswith("yes (linear pool of 2")
+    assert cells["stated range"][0] == "-4 to 0.5 MPa per 0.1 share of binder"
+
+
+def test_collinearity_note_appears_only_when_collinear():
+    rng = np.random.default_rng(1)
+    n = 30
+    a = rng.normal(size=n)
+    frame = pd.DataFrame({"a": a, "b": a + 0.01 * rng.normal(size=n), "c": rng.normal(size=n)})
+    frame["y"] = frame["a"] + frame["c"] + rng.normal(size=n)
+    doc = {"coefficient": [{"name": "a", "center": 1.0, "scale": 0.1}]}
+    report = report_from_result(bayes.fit(frame, "y", priors=parse_priors(doc)), figures=False)
+    data = next(s for s in report.sections if s.key == "data")
+    texts = " ".join(b.text for b in data.blocks if b.kind == "paragraph")
+    assert "a, b are strongly collinear" in texts
+    demo = report_from_result(bayes.fit(frame[["c", "y"]], "y"), figures=False)
+    demo_texts = " ".join(b.text for s in demo.sections if s.key == "data" for b in s.blocks
+                          if b.kind == "paragraph")  # fmt: skip
+    assert "No strong collinearity" in demo_texts
+
+
+# --------------------------------------------------------------------------- HTML and Markdown
+
+
+def test_html_is_self_contained(demo_report):
+    html = render_html(demo_report)
+    assert "http://" not in html and "https://" not in html
+    assert "<script" not in html and "<link" not in html and "@import" not in html
+    assert "url(" not in html
+    sources = re.findall(r'\bsrc="([^"]*)"', html)
+    assert len(sources) == len(demo_report.figures) == 4
+    assert all(s.startswith("data:image/png;base64,") for s in sources)
+    hrefs = re.findall(r'\bhref="([^"]*)"', html)
+    assert hrefs and all(h.startswith("#") for h in hrefs)
+
+
+def test_a_hostile_column_name_is_shown_as_text(tmp_path):
+    hostile = "<script>alert(1)</script>"
+    rng = np.random.default_rng(7)
+    frame = pd.DataFrame({hostile: rng.normal(size=20), "a$b$c": rng.normal(size=20)})
+    frame["y"] = 2 * frame[hostile] + rng.normal(size=20)
+    result = bayes.fit(frame, "y")
+    fit_dir = save_fit(result, tmp_path / "fit")
+    report = build_report(fit_dir)
+    html = render_html(report)
+    assert hostile not in html
+    assert "<script" not in html
+    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in html
+    md = render_markdown(report, {f.key: f"{f.key}.png" for f in report.figures})
+    assert hostile not in md and "<script" not in md
+    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in md
+    assert "a$b$c" in md
+
+
+def test_markdown_refers_to_pngs_written_beside_it(demo_report, tmp_path):
+    paths = write_report(demo_report, markdown=tmp_path / "out" / "report.md")
+    md = (tmp_path / "out" / "report.md").read_text()
+    links = re.findall(r"!\[[^\]]*\]\(([^)]+)\)", md)
+    assert len(links) == 4
+    for link in links:
+        assert "/" not in link and (tmp_path / "out" / link).read_bytes().startswith(b"\x89PNG")
+    assert set(paths) == {tmp_path / "out" / "report.md", *(tmp_path / "out" / x for x in links)}
+    # Every table is a pipe table whose rows have as many cells as its header.
+    for block in re.split(r"\n\n", md):
+        lines = [ln for ln in block.splitlines() if ln.startswith("|")]
+        if lines:
+            widths = {len(re.split(r"(?<!\\)\|", ln)) for ln in lines}
+            assert len(widths) == 1, block
+
+
+def test_an_existing_report_survives_a_failed_write(demo_report, tmp_path):
+    html = tmp_path / "report.html"
+    html.write_text("old report")
+    blocker = tmp_path / "tables"
+    blocker.write_text("a file where the CSV folder should go")
+    with pytest.raises(bayes.report.InputError):
+        write_report(demo_report, html=html, csv_dir=blocker)
+    assert html.read_text() == "old report"
+    write_report(demo_report, html=html)
+    assert html.read_text().startswith("<!DOCTYPE html>")
+    assert not [p for p in tmp_path.iterdir() if p.name.endswith(".tmp")]
+
+
+def test_report_of_a_fit_without_data_rows(demo_fit_dir, tmp_path):
+    folder = tmp_path / "fit"
+    shutil.copytree(demo_fit_dir, folder)
+    (folder / "data.csv").unlink()
+    report = build_report(folder)
+    assert {f.key for f in report.figures} == {"densities", "forest"}
+    text = " ".join(b.text for s in report.sections for b in s.blocks if b.kind == "paragraph")
+    assert "a streamed fit does not keep" in text
+
+
+# --------------------------------------------------------------------------- CLI
+
+
+def test_cli_report_writes_all_outputs(demo_fit_dir, tmp_path):
+    out = tmp_path / "r" / "report.html"
+    res = CliRunner().invoke(main, ["report", str(demo_fit_dir), "--out", str(out), "--markdown",
+                                    str(tmp_path / "r" / "report.md"), "--csv-dir",
+                                    str(tmp_path / "tables")])  # fmt: skip
+    assert res.exit_code == 0, res.output
+    assert f"Report: {out} (one self-contained file, 4 figures embedded)" in res.output
+    assert out.read_text().startswith("<!DOCTYPE html>")
+    assert (tmp_path / "r" / "report-densities.png").exists()
+    assert (tmp_path / "tables" / "posterior.csv").exists()
+
+
+def test_cli_report_bad_folder_is_one_line_exit_2(tmp_path):
+    res = CliRunner().invoke(main, ["report", str(tmp_path)])
+    assert res.exit_code == 2
+    lines = res.output.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("error: ") and str(tmp_path) in lines[0]
+
+
+def test_cli_report_unreadable_sweep_is_one_line_exit_2(demo_fit_dir, tmp_path):
+    folder = tmp_path / "fit"
+    shutil.copytree(demo_fit_dir, folder)
+    (folder / "sweep.json").write_text("{not json")
+    res = CliRunner().invoke(main, ["report", str(folder), "--out", str(tmp_path / "r.html")])
+    assert res.exit_code == 2
+    assert "sweep.json: not readable JSON" in res.output
+    assert not (tmp_path / "r.html").exists()
+
+
+def test_demo_writes_the_whole_job(tmp_path):
+    from bayes.demo import run_demo
+
+    lines: list[str] = []
+    run_demo(tmp_path / "demo", echo=lines.append)
+    out = tmp_path / "demo"
+    for name in ("report.html", "report.md", "fit/fit.json", "tables/posterior.csv"):
+        assert (out / name).exists(), name
+    assert any(line.startswith("Report: ") for line in lines)
+    assert len(list(out.glob("report-*.png"))) == 4
