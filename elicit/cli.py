@@ -162,6 +162,11 @@ def pool(priors: str, out: str, method: str | None, family: str | None, fmt: str
 @click.option("--response-units", help="Units of the response, e.g. MPa.")
 @click.option("--expert", help="Default expert name.")
 @click.option("--no-noise", is_flag=True, help="Do not ask about the noise.")
+@click.option(
+    "--conditional",
+    is_flag=True,
+    help="Ask the expected response at reference rows instead (conditional means).",
+)
 def interview(
     data: str,
     response: str,
@@ -169,6 +174,7 @@ def interview(
     response_units: str | None,
     expert: str | None,
     no_noise: bool,
+    conditional: bool,
 ):
     """Ask an expert about each predictor, with feedback; save after every answer; resume."""
     from elicit.interview import Interview, terms_from_data
@@ -188,7 +194,7 @@ def interview(
     session = Interview(Path(out), response, ask, click.echo, frame, response_units, expert)
     terms = terms_from_data(frame, response, session.priors.units)
     try:
-        session.run(terms, noise=not no_noise)
+        session.run(terms, noise=not no_noise, conditional=conditional)
     except click.Abort:
         click.echo(
             f"\nelicit: interview stopped; accepted answers are in {out}; "

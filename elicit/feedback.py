@@ -26,7 +26,7 @@ import numpy as np
 from scipy import stats
 
 from elicit import convert
-from elicit.spec import INTERCEPT, CoefficientPrior, NoisePrior, PriorSet
+from elicit.spec import INTERCEPT, CoefficientPrior, CorrelatedBlock, NoisePrior, PriorSet
 
 PROBS = (0.05, 0.25, 0.5, 0.75, 0.95)
 READ_FAMILIES = convert.SHAPED_FAMILIES
@@ -312,6 +312,7 @@ class Feedback:
     predictive: Predictive | str | None
     units: Mapping[str, str] = field(default_factory=dict)
     response_units: str | None = None
+    block: CorrelatedBlock | None = None
 
 
 def feedback(
@@ -353,7 +354,7 @@ def feedback(
     predictive = prior_predictive(priors, rows, means, y_mean, None) if rows else None
     return Feedback(
         coefficients, noise_feedback(priors.noise), noise_sd, predictive, priors.units,
-        priors.response_units,
+        priors.response_units, priors.block,
     )  # fmt: skip
 
 
@@ -396,6 +397,12 @@ def to_json(fb: Feedback) -> dict[str, Any]:
         "noise": fb.noise,
         "noise_sd": fb.noise_sd,
     }
+    if fb.block is not None:
+        out["correlated"] = {
+            "names": list(fb.block.names),
+            "mean": [float(v) for v in fb.block.mean],
+            "cov": [[float(v) for v in row] for row in fb.block.cov],
+        }
     p = fb.predictive
     if isinstance(p, Predictive):
         out["predictive"] = {
@@ -459,6 +466,23 @@ def format_coefficient(c: CoefficientFeedback, noise_sd: float | None = None) ->
     return lines
 
 
+def format_block(block: CorrelatedBlock) -> list[str]:
+    """Text lines describing a correlated (conditional-means) block: each coefficient's mean,
+    sd and 90% interval, and the correlations."""
+    sd = np.sqrt(np.diag(block.cov))
+    z = float(stats.norm.ppf(0.95))
+    lines = ["implied coefficient prior (correlated normal):"]
+    for name, m, s in zip(block.names, block.mean, sd, strict=True):
+        lines.append(
+            f"  {name}: mean {m:.4g}, sd {s:.4g}, 90% interval {m - z * s:.4g} .. {m + z * s:.4g}"
+        )
+    corr = block.cov / np.outer(sd, sd)
+    pairs = [f"{block.names[i]}~{block.names[j]} {corr[i, j]:+.2f}"
+             for i in range(len(sd)) for j in range(i + 1, len(sd))]  # fmt: skip
+    lines.append("  correlations: " + ", ".join(pairs))
+    return lines
+
+
 def format_predictive(p: Predictive | str, units: str | None = None) -> list[str]:
     """Text lines of the prior predictive feedback."""
     if isinstance(p, str):
@@ -482,6 +506,8 @@ def format_text(fb: Feedback) -> str:
     lines: list[str] = []
     for c in fb.coefficients:
         lines += format_coefficient(c, fb.noise_sd)
+    if fb.block is not None:
+        lines += format_block(fb.block)
     n = fb.noise
     if n["prior"] == "jeffreys":
         lines.append("noise: Jeffreys prior (no statement)")

@@ -22,7 +22,14 @@ from typing import Any
 import click
 
 from elicit import convert, feedback
-from elicit.spec import FAMILIES, PriorFileError, PriorSet, parse_priors, read_prior_file
+from elicit.spec import (
+    FAMILIES,
+    INTERCEPT,
+    PriorFileError,
+    PriorSet,
+    parse_priors,
+    read_prior_file,
+)
 from elicit.write import prior_doc, write_prior_file
 
 Ask = Callable[..., Any]
@@ -271,18 +278,76 @@ class Interview:
                 self.say(f"saved the noise range to {self.out}")
                 return
 
-    def run(self, terms: Sequence[Term], noise: bool = True) -> PriorSet:
-        """Ask every unanswered term, then the noise; return the saved priors."""
+    def run_conditional(self, terms: Sequence[Term]) -> None:
+        """Conditional-means questions: the expected response at k reference rows.
+
+        The rows are the data means, then each term's last reference value (its 90% quantile)
+        with the others at their means; k = len(terms) + 1 (the intercept). The block is one
+        answer: it is saved when all its rows are accepted together.
+        """
+        numeric = self.frame.select_dtypes("number")
+        means = {t.column: float(numeric[t.column].mean()) for t in terms}
+        rows = [("all predictors at their data means", dict(means))]
+        for t in terms:
+            label, value = t.reference[-1]
+            rows.append((f"{label}, the others at their means", means | {t.column: value}))
+        names = [INTERCEPT, *(t.column for t in terms)]
+        self.say(
+            f"\nConditional means: the expected {self.response} at {len(rows)} reference rows "
+            f"gives a correlated prior on {', '.join(names)}"
+        )
+        expert = _blank_to_none(self.ask("Expert", type=str, default=self.expert or ""))
+        last: list[dict[str, Any]] = [{} for _ in rows]
+        while True:
+            stated = []
+            for i, (label, values) in enumerate(rows):
+                self.say(f"row {i + 1}: {label}")
+                what = f"plausible expected {self.response}{self._units()} at row {i + 1}"
+                before = last[i]
+                row = {
+                    "at": values,
+                    "low": self.ask(f"Lowest {what}", type=float, default=before.get("low")),
+                    "high": self.ask(f"Highest {what}", type=float, default=before.get("high")),
+                    "mass": self.ask(
+                        "Probability that it lies in that range",
+                        type=float,
+                        default=before.get("mass", 0.9),
+                    ),
+                }
+                if expert:
+                    row["expert"] = expert
+                stated.append(row)
+            last = stated
+            try:
+                candidate = self._candidate("correlation", {"names": names, "row": stated})
+            except PriorFileError as exc:
+                self.say(f"not accepted: {exc}")
+                continue
+            self.say("\n".join(feedback.format_block(candidate.block)))
+            if self._accept():
+                self._save(candidate)
+                self.say(f"saved the conditional-means prior to {self.out}")
+                return
+
+    def run(self, terms: Sequence[Term], noise: bool = True, conditional: bool = False) -> PriorSet:
+        """Ask every unanswered term (or, with ``conditional``, the conditional-means rows for
+        all of them), then the noise; return the saved priors."""
         done = self.answered
         todo = [t for t in terms if t.column not in done]
         if done:
             skipped = ", ".join(t.column for t in terms if t.column in done)
             self.say(f"resuming {self.out}: already answered: {skipped or '-'}")
-        for i, term in enumerate(todo, len(terms) - len(todo) + 1):
-            self.run_term(term, i, len(terms))
+        if conditional and todo and self.priors.block is None:
+            self.run_conditional(todo)
+        elif not conditional:
+            for i, term in enumerate(todo, len(terms) - len(todo) + 1):
+                self.run_term(term, i, len(terms))
         if noise and self.priors.noise is None:
             self.run_noise()
         if not self.out.exists():
             self._save(self.priors)
-        self.say(f"\ndone: {self.out} holds {len(self.priors.coefficients)} coefficient prior(s)")
+        held = [c.column for c in self.priors.coefficients]
+        if self.priors.block is not None:
+            held.append("a correlated block on " + ", ".join(self.priors.block.names))
+        self.say(f"\ndone: {self.out} holds priors on {', '.join(held) or 'nothing'}")
         return self.priors

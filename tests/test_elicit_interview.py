@@ -140,3 +140,64 @@ def test_resume_refuses_a_file_for_another_response(tmp_path):
 
     with pytest.raises(PriorFileError, match="field 'response'"):
         Interview(tmp_path / "q.toml", "y", None, None)
+
+
+def scripted(answers):
+    it = iter(answers)
+
+    def ask(prompt, type=None, default=None):
+        value = next(it)
+        if value == "" and default is not None:
+            return default
+        return type(value) if type in (float, str) else value
+
+    return ask
+
+
+def test_conditional_interview_reproduces_the_stated_rows_and_fits(tmp_path):
+    import io
+
+    import numpy as np
+    import pandas as pd
+    from scipy import stats
+
+    from bayes.api import fit
+    from elicit.feedback import prior_predictive
+    from elicit.interview import terms_from_data
+
+    frame = pd.read_csv(io.StringIO(DATA))
+    # expert; rows (means, x1 high, x2 high): low, high, mass; accept; noise; accept
+    answers = [
+        "A",
+        "3",
+        "6",
+        "0.9",
+        "6",
+        "9",
+        "0.9",
+        "3",
+        "6",
+        "0.9",
+        "a",
+        "0.3",
+        "1.5",
+        "0.9",
+        "a",
+    ]
+    out = tmp_path / "c.toml"
+    session = Interview(out, "y", scripted(answers), lambda text: None, frame)
+    priors = session.run(terms_from_data(frame, "y"), conditional=True)
+    assert read_prior_file(out) == priors
+    block = priors.block
+    assert block.names == ("intercept", "x1", "x2") and len(block.rows) == 3
+    # the implied expected response at each stated row is the stated normal belief:
+    # mean = midpoint, sd = half-width / z(0.95) (Source: scipy.stats.norm ppf)
+    rows = [(f"row {i}", dict(r.at)) for i, r in enumerate(block.rows)]
+    implied = prior_predictive(priors, rows, draws=20_000)
+    for r, row in zip(block.rows, implied.rows, strict=True):
+        sd = (r.high - r.low) / 2 / stats.norm.ppf(0.95)
+        tol = 5 * np.sqrt(0.05 * 0.95 / 20_000) / stats.norm.pdf(1.6449) * sd  # 5 MC s.e.
+        assert row.low == pytest.approx(r.low, abs=tol)
+        assert row.high == pytest.approx(r.high, abs=tol)
+    result = fit(frame, response="y", priors=out)
+    assert result.priors.block == block
