@@ -204,7 +204,8 @@ def predict_command(fit_dir, newdata, level, fmt):
               help="Also write each table of the report as a CSV file in this folder.")  # fmt: skip
 def report_command(fit_dir, out, markdown, csv_dir):
     """Write the report of the fit saved in FIT_DIR (by bayes fit --save)."""
-    from .report import build_report, outputs_text, write_report
+    from .render import outputs_text, write_report
+    from .report import build_report
 
     report = build_report(fit_dir)
     write_report(report, out, markdown, csv_dir)

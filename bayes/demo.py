@@ -23,7 +23,8 @@ def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
     from .api import fit
     from .cli import provenance
     from .design import read_table
-    from .report import outputs_text, report_from_result, write_report
+    from .render import outputs_text, write_report
+    from .report import report_from_result
     from .store import save_fit
 
     data, priors = demo_path("trial_mix.csv"), demo_path("priors.toml")

@@ -1,11 +1,10 @@
-"""The report: its content assembled from a saved fit as plain objects, then written out.
+"""The report's content, assembled from a saved fit as plain objects.
 
 ``build_report(FIT_DIR)`` reads the fit folder (:func:`bayes.store.load_fit`, plus
 ``sweep.json`` and ``compare.json`` when ``bayes sweep --save`` / ``bayes compare --save`` left
-them there) and returns a :class:`Report`: sections made of paragraphs, bullet lists, tables
-(cells already rounded), figures (PNG bytes) and formulas. ``write_report`` renders it to one
-self-contained HTML file, to Markdown with PNG files beside it, and to CSV tables. Nothing is
-written until everything has been rendered, and each file is replaced atomically.
+them there) and returns a :class:`bayes.document.Report`: sections made of paragraphs, bullet
+lists, tables (cells already rounded), figures (PNG bytes) and formulas, in the order of a
+technical report. :mod:`bayes.render` writes it out.
 
 Posterior numbers are rounded by their posterior sd (:func:`bayes.summary.fmt_by_sd`): the
 sd to two significant digits, the estimate to the same decimal place.
@@ -13,118 +12,23 @@ sd to two significant digits, the estimate to the same decimal place.
 
 from __future__ import annotations
 
-import csv
-import io
 import json
 import math
-import os
 import re
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
-from typing import ClassVar
 
 import numpy as np
 
+from .document import Block, Bullets, Figure, Paragraph, Report, Section, Table
 from .errors import InputError
+from .formulas import MODEL, PENALTY, PRIORS
 from .result import CONDITION_WARNING, FitResult
 from .summary import fmt, fmt_by_sd
 
 VIF_WARNING = 10.0  # variance inflation factor above which collinearity is strong (common practice)
 DECISIVE_RATIO = 0.8  # posterior/prior sd ratio above which the prior, not the data, decides
 PREDICTIVE_ROWS = 2000  # the predictive check draws at most this many rows (seeded choice)
-
-Cell = str | tuple[str, ...]  # a tuple is several lines in one cell (e.g. two experts)
-
-
-@dataclass(frozen=True)
-class Paragraph:
-    """Plain text (escaped when rendered)."""
-
-    text: str
-    kind: ClassVar[str] = "paragraph"
-
-
-@dataclass(frozen=True)
-class Bullets:
-    """A bullet list of plain-text items."""
-
-    items: tuple[str, ...]
-    kind: ClassVar[str] = "bullets"
-
-
-@dataclass(frozen=True)
-class Table:
-    """A table with its cells already formatted as text.
-
-    Attributes
-    ----------
-    key : str
-        File stem of its CSV file (``<key>.csv``).
-    caption : str
-    headers : tuple of str
-        Column headings, with units where a column has one unit.
-    rows : tuple of tuple of Cell
-    """
-
-    key: str
-    caption: str
-    headers: tuple[str, ...]
-    rows: tuple[tuple[Cell, ...], ...]
-    kind: ClassVar[str] = "table"
-
-
-@dataclass(frozen=True)
-class Figure:
-    """A PNG figure with its caption (the caption is also the image's alternative text)."""
-
-    key: str
-    caption: str
-    png: bytes
-    kind: ClassVar[str] = "figure"
-
-
-@dataclass(frozen=True)
-class Formula:
-    """A displayed formula: plain text for Markdown, MathML for HTML.
-
-    ``mathml`` comes only from the constants of this module (never from user input): it is the
-    one piece of markup the HTML template inserts unescaped.
-    """
-
-    text: str
-    mathml: str
-    kind: ClassVar[str] = "formula"
-
-
-Block = Paragraph | Bullets | Table | Figure | Formula
-
-
-@dataclass(frozen=True)
-class Section:
-    """A numbered section (``numbered=False`` for an appendix)."""
-
-    key: str
-    title: str
-    blocks: tuple[Block, ...]
-    numbered: bool = True
-
-
-@dataclass(frozen=True)
-class Report:
-    """The whole report as plain objects."""
-
-    title: str
-    subtitle: str
-    sections: tuple[Section, ...]
-
-    @property
-    def tables(self) -> tuple[Table, ...]:
-        return tuple(b for s in self.sections for b in s.blocks if isinstance(b, Table))
-
-    @property
-    def figures(self) -> tuple[Figure, ...]:
-        return tuple(b for s in self.sections for b in s.blocks if isinstance(b, Figure))
 
 
 @dataclass(frozen=True)
@@ -208,90 +112,6 @@ def report_from_result(
     return Report(title, subtitle, tuple(s for s in sections if s is not None))
 
 
-def write_report(
-    report: Report,
-    html: str | Path | None = None,
-    markdown: str | Path | None = None,
-    csv_dir: str | Path | None = None,
-) -> list[Path]:
-    """Render ``report`` and write the requested outputs; return the paths written.
-
-    Everything is rendered in memory first; then each file is written to a temporary file in
-    its folder and renamed over the old one, so an existing report is replaced only by a
-    complete new one.
-
-    Parameters
-    ----------
-    html : path, optional
-        One self-contained HTML file (figures embedded as data URIs).
-    markdown : path, optional
-        Markdown file; its figures are written beside it as ``<stem>-<figure>.png``.
-    csv_dir : path, optional
-        Folder for one CSV file per table (created if missing).
-    """
-    files: dict[Path, bytes] = {}
-    if html is not None:
-        files[_output(html, ".html")] = render_html(report).encode("utf-8")
-    if markdown is not None:
-        md_path = _output(markdown, ".md")
-        names = {f.key: f"{md_path.stem}-{f.key}.png" for f in report.figures}
-        files[md_path] = render_markdown(report, names).encode("utf-8")
-        for fig in report.figures:
-            files[md_path.with_name(names[fig.key])] = fig.png
-    if csv_dir is not None:
-        folder = Path(csv_dir)
-        if folder.exists() and not folder.is_dir():
-            raise InputError(f"{folder}: exists and is not a folder (--csv-dir)")
-        for table in report.tables:
-            files[folder / f"{table.key}.csv"] = table_csv(table).encode("utf-8")
-    for path, content in files.items():
-        path.parent.mkdir(parents=True, exist_ok=True)
-        _atomic_write_bytes(path, content)
-    return list(files)
-
-
-def outputs_text(
-    report: Report,
-    html: str | Path | None = None,
-    markdown: str | Path | None = None,
-    csv_dir: str | Path | None = None,
-) -> str:
-    """Where :func:`write_report` put the report, in a few lines for the terminal."""
-    lines = []
-    n_fig = len(report.figures)
-    if html is not None:
-        lines.append(f"Report: {html} (one self-contained file, {n_fig} figures embedded)")
-    if markdown is not None:
-        lines.append(f"Markdown: {markdown} (+ {n_fig} PNG figures beside it)")
-    if csv_dir is not None:
-        lines.append(f"Tables: {len(report.tables)} CSV files in {Path(csv_dir)}/")
-    return "\n".join(lines)
-
-
-def _output(path: str | Path, suffix: str) -> Path:
-    path = Path(path)
-    if path.is_dir():
-        raise InputError(f"{path}: is a folder; give a file name such as report{suffix}")
-    return path
-
-
-def _atomic_write_bytes(path: Path, content: bytes) -> None:
-    """Write to a temporary file in the same folder, then rename over ``path``."""
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as handle:
-            handle.write(content)
-            handle.flush()
-            os.fsync(handle.fileno())
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-
-
 def _read_json(path: Path) -> dict | None:
     if not path.exists():
         return None
@@ -302,65 +122,6 @@ def _read_json(path: Path) -> dict | None:
     if not isinstance(doc, dict):
         raise InputError(f"{path}: expected one JSON object")
     return doc
-
-
-# --------------------------------------------------------------------------- rendering
-
-
-def _environment(autoescape: bool):
-    import jinja2
-
-    env = jinja2.Environment(
-        loader=jinja2.PackageLoader("bayes", "templates"),
-        autoescape=autoescape,
-        trim_blocks=True,
-        lstrip_blocks=True,
-        keep_trailing_newline=True,
-        undefined=jinja2.StrictUndefined,
-    )
-    env.filters["md"] = _md_escape
-    env.filters["cell_md"] = lambda c: "<br>".join(_md_escape(x) for x in _lines(c))
-    env.filters["lines"] = _lines
-    env.filters["regex_number"] = lambda text: bool(_NUMBER.fullmatch(text))
-    return env
-
-
-def render_html(report: Report) -> str:
-    """One self-contained HTML document (autoescaped; figures as base64 data URIs)."""
-    import base64
-
-    images = {f.key: base64.b64encode(f.png).decode("ascii") for f in report.figures}
-    return _environment(True).get_template("report.html.j2").render(report=report, images=images)
-
-
-def render_markdown(report: Report, figure_files: dict[str, str]) -> str:
-    """Markdown (pipe tables) referring to the PNG files named in ``figure_files``."""
-    template = _environment(False).get_template("report.md.j2")
-    return template.render(report=report, files=figure_files)
-
-
-def table_csv(table: Table) -> str:
-    """The table as CSV text (several lines in one cell joined by '; ')."""
-    buffer = io.StringIO()
-    writer = csv.writer(buffer, lineterminator="\n")
-    writer.writerow(table.headers)
-    for row in table.rows:
-        writer.writerow(["; ".join(_lines(c)) for c in row])
-    return buffer.getvalue()
-
-
-def _lines(cell: Cell) -> tuple[str, ...]:
-    return (cell,) if isinstance(cell, str) else tuple(cell)
-
-
-_NUMBER = re.compile(r"-|[<>]?[-+]?(\d[\d.]*(e[-+]?\d+)?|inf)")
-_MD_SPECIAL = re.compile(r"([\\`*\[\]|])")
-
-
-def _md_escape(text: str) -> str:
-    """Text safe inside Markdown: HTML entities for <, >, &; backslash before * [ ] | ` \\."""
-    text = str(text).replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
-    return _MD_SPECIAL.sub(r"\\\1", text).replace("\n", " ")
 
 
 # --------------------------------------------------------------------------- shared numbers
@@ -918,66 +679,6 @@ def _comparison(ctx: _Context) -> Section:
 
 
 # --------------------------------------------------------------------------- 7. method
-
-
-def _math(body: str) -> str:
-    return f'<math display="block">{body}</math>'
-
-
-MODEL = Formula(
-    "y_i = beta_0 + sum_{j=1..p} beta_j x_ij + e_i,   e_i ~ Normal(0, sigma^2) independent, "
-    "i = 1..n",
-    _math(
-        "<msub><mi>y</mi><mi>i</mi></msub><mo>=</mo><msub><mi>&#x3B2;</mi><mn>0</mn></msub>"
-        "<mo>+</mo><munderover><mo>&#x2211;</mo><mrow><mi>j</mi><mo>=</mo><mn>1</mn></mrow>"
-        "<mi>p</mi></munderover><msub><mi>&#x3B2;</mi><mi>j</mi></msub>"
-        "<msub><mi>x</mi><mrow><mi>i</mi><mi>j</mi></mrow></msub><mo>+</mo>"
-        "<msub><mi>&#x3B5;</mi><mi>i</mi></msub><mo>,</mo><mspace width='1em'/>"
-        "<msub><mi>&#x3B5;</mi><mi>i</mi></msub><mo>&#x223C;</mo><mi mathvariant='normal'>N</mi>"
-        "<mo>(</mo><mn>0</mn><mo>,</mo><msup><mi>&#x3C3;</mi><mn>2</mn></msup><mo>)</mo>"
-        "<mtext>&#xA0;independent</mtext>"
-    ),
-)
-PRIORS = Formula(
-    "beta_j ~ Normal(m_j, tau_j^2)  or  Laplace(m_j, b_j)  or  Student-t_nu(m_j, s_j)  or flat; "
-    "sigma known, or sigma^2 ~ InvGamma(a, c), or p(sigma^2) proportional to 1/sigma^2",
-    _math(
-        "<msub><mi>&#x3B2;</mi><mi>j</mi></msub><mo>&#x223C;</mo>"
-        "<mi mathvariant='normal'>N</mi><mo>(</mo><msub><mi>m</mi><mi>j</mi></msub><mo>,</mo>"
-        "<msubsup><mi>&#x3C4;</mi><mi>j</mi><mn>2</mn></msubsup><mo>)</mo>"
-        "<mtext>&#xA0;or&#xA0;</mtext><mi>Laplace</mi><mo>(</mo><msub><mi>m</mi><mi>j</mi></msub>"
-        "<mo>,</mo><msub><mi>b</mi><mi>j</mi></msub><mo>)</mo><mtext>&#xA0;or&#xA0;</mtext>"
-        "<msub><mi>t</mi><mi>&#x3BD;</mi></msub><mo>(</mo><msub><mi>m</mi><mi>j</mi></msub>"
-        "<mo>,</mo><msub><mi>s</mi><mi>j</mi></msub><mo>)</mo><mtext>&#xA0;or flat;</mtext>"
-        "<mspace width='1em'/><msup><mi>&#x3C3;</mi><mn>2</mn></msup><mo>&#x223C;</mo>"
-        "<mi>InvGamma</mi><mo>(</mo><mi>a</mi><mo>,</mo><mi>c</mi><mo>)</mo>"
-        "<mtext>&#xA0;or&#xA0;</mtext><mi>p</mi><mo>(</mo><msup><mi>&#x3C3;</mi><mn>2</mn></msup>"
-        "<mo>)</mo><mo>&#x221D;</mo><mn>1</mn><mo>/</mo><msup><mi>&#x3C3;</mi><mn>2</mn></msup>"
-    ),
-)
-PENALTY = Formula(
-    "mode given sigma = argmin over beta of  (1/2) sum_i (y_i - x_i'beta)^2 "
-    "+ (1/2) sum_{normal j} lambda_j (beta_j - m_j)^2 + sum_{Laplace j} lambda_j |beta_j - m_j|,"
-    "   lambda_j = sigma^2 / tau_j^2 (ridge),  lambda_j = sigma^2 / b_j (lasso)",
-    _math(
-        "<mover><mi>&#x3B2;</mi><mo>^</mo></mover><mo>=</mo><munder><mi>argmin</mi>"
-        "<mi>&#x3B2;</mi></munder><mfrac><mn>1</mn><mn>2</mn></mfrac><munder><mo>&#x2211;</mo>"
-        "<mi>i</mi></munder><msup><mrow><mo>(</mo><msub><mi>y</mi><mi>i</mi></msub><mo>&#x2212;</mo>"
-        "<msubsup><mi>x</mi><mi>i</mi><mo>&#x2032;</mo></msubsup><mi>&#x3B2;</mi><mo>)</mo></mrow>"
-        "<mn>2</mn></msup><mo>+</mo><mfrac><mn>1</mn><mn>2</mn></mfrac><munder><mo>&#x2211;</mo>"
-        "<mtext>normal</mtext></munder><msub><mi>&#x3BB;</mi><mi>j</mi></msub>"
-        "<msup><mrow><mo>(</mo><msub><mi>&#x3B2;</mi><mi>j</mi></msub><mo>&#x2212;</mo>"
-        "<msub><mi>m</mi><mi>j</mi></msub><mo>)</mo></mrow><mn>2</mn></msup><mo>+</mo>"
-        "<munder><mo>&#x2211;</mo><mtext>Laplace</mtext></munder><msub><mi>&#x3BB;</mi><mi>j</mi>"
-        "</msub><mrow><mo>|</mo><msub><mi>&#x3B2;</mi><mi>j</mi></msub><mo>&#x2212;</mo>"
-        "<msub><mi>m</mi><mi>j</mi></msub><mo>|</mo></mrow><mo>,</mo><mspace width='1em'/>"
-        "<msub><mi>&#x3BB;</mi><mi>j</mi></msub><mo>=</mo><msup><mi>&#x3C3;</mi><mn>2</mn></msup>"
-        "<mo>/</mo><msubsup><mi>&#x3C4;</mi><mi>j</mi><mn>2</mn></msubsup><mtext>&#xA0;(ridge),"
-        "&#xA0;</mtext><msub><mi>&#x3BB;</mi><mi>j</mi></msub><mo>=</mo>"
-        "<msup><mi>&#x3C3;</mi><mn>2</mn></msup><mo>/</mo><msub><mi>b</mi><mi>j</mi></msub>"
-        "<mtext>&#xA0;(lasso)</mtext>"
-    ),
-)
 
 
 def _method(ctx: _Context) -> Section:

@@ -17,14 +17,9 @@ from hypothesis import strategies as st
 
 import bayes
 from bayes.cli import main
-from bayes.report import (
-    build_report,
-    collinearity,
-    render_html,
-    render_markdown,
-    report_from_result,
-    write_report,
-)
+from bayes.errors import InputError
+from bayes.render import render_html, render_markdown, write_report
+from bayes.report import build_report, collinearity, report_from_result
 from bayes.store import save_fit
 from bayes.summary import fmt_by_sd
 from elicit.spec import parse_priors, read_prior_file
@@ -288,7 +283,7 @@ def test_an_existing_report_survives_a_failed_write(demo_report, tmp_path):
     html.write_text("old report")
     blocker = tmp_path / "tables"
     blocker.write_text("a file where the CSV folder should go")
-    with pytest.raises(bayes.report.InputError):
+    with pytest.raises(InputError):
         write_report(demo_report, html=html, csv_dir=blocker)
     assert html.read_text() == "old report"
     write_report(demo_report, html=html)
