@@ -64,6 +64,13 @@ def _read_data(path: str | None):
         raise BadInput(f"{path}: cannot read the data: {first}") from None
 
 
+def _out_path(out: str) -> Path:
+    path = Path(out)
+    if not path.parent.is_dir():
+        raise BadInput(f"{out}: folder {str(path.parent)!r} does not exist")
+    return path
+
+
 def _data_columns(frame) -> list[str]:
     """Design columns the data can supply: numeric columns and ``name[level]`` of the others."""
     columns = list(frame.columns)
@@ -100,13 +107,9 @@ def show(priors: str, noise_sd: float | None, data: str | None, response: str | 
             raise BadInput(f"{data}: no response column {response!r}")
     fb = feedback(prior_set, noise_sd, frame, response)
     if fmt == "json":
-        click.echo(json.dumps(to_json(fb), allow_nan=False, default=_json_number))
+        click.echo(json.dumps(to_json(fb), allow_nan=False))
     else:
         click.echo(format_text(fb), nl=False)
-
-
-def _json_number(value):
-    return float(value)
 
 
 @main.command()
@@ -127,7 +130,9 @@ def pool(priors: str, out: str, method: str | None, family: str | None, fmt: str
         table.update({k: v for k, v in (("method", method), ("family", family)) if v})
         doc = {**doc, "pool": table}
     prior_set = parse_priors(doc, priors)
-    write_prior_file(prior_set, out, header=f"Pooled by `elicit pool` from {Path(priors).name}.")
+    write_prior_file(
+        prior_set, _out_path(out), header=f"Pooled by `elicit pool` from {Path(priors).name}."
+    )
     rows = [
         {
             "name": c.column,
@@ -182,6 +187,7 @@ def interview(
     frame = _read_data(data)
     if response not in frame:
         raise BadInput(f"{data}: no response column {response!r}")
+    _out_path(out)
 
     echo = not sys.stdin.isatty()
 

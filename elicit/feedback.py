@@ -368,7 +368,7 @@ def to_json(fb: Feedback) -> dict[str, Any]:
                 "center": c.center,
                 "scale": c.scale,
                 "df": c.df,
-                "sd": c.sd,
+                "sd": c.sd if c.sd is None or np.isfinite(c.sd) else None,  # inf: no finite sd
                 "quantiles": c.quantiles,
                 "p_positive": c.p_positive,
                 "range": None

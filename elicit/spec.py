@@ -544,6 +544,20 @@ class _Reader:
             raise self.error("high", f"must be above low, got low={low:g}, high={high:g}")
         return low, high, self.mass()
 
+    def family_and_df(self) -> tuple[str, float | None]:
+        """``family`` (default "normal") and ``df`` (student_t only, default 5)."""
+        family = self.text("family") or "normal"
+        if family not in FAMILIES:
+            raise self.error(
+                "family", f"unknown family {family!r} (expected {', '.join(FAMILIES)})"
+            )
+        df = self.number("df", positive=True)
+        if df is not None and family != "student_t":
+            raise self.error("df", f"applies to student_t only, not {family}")
+        if family == "student_t" and df is None:
+            df = convert.DEFAULT_DF
+        return family, df
+
     def numbers(self, key: str, required: bool = False) -> list[float] | None:
         if key not in self.table:
             if required:
@@ -556,14 +570,7 @@ class _Reader:
 
 
 def _parse_statement(r: _Reader) -> Statement:
-    family = r.text("family") or "normal"
-    if family not in FAMILIES:
-        raise r.error("family", f"unknown family {family!r} (expected {', '.join(FAMILIES)})")
-    df = r.number("df", positive=True)
-    if df is not None and family != "student_t":
-        raise r.error("df", f"applies to student_t only, not {family}")
-    if family == "student_t" and df is None:
-        df = convert.DEFAULT_DF
+    family, df = r.family_and_df()
     weight = r.number("weight", positive=True)
     per = r.number("per", positive=True)
     modes = [
@@ -718,17 +725,10 @@ def _parse_coefficients(
 
 
 def _parse_record(r: _Reader, name: str, level: str | None) -> CoefficientPrior:
-    family = r.text("family") or "normal"
-    if family not in FAMILIES:
-        raise r.error("family", f"unknown family {family!r} (expected {', '.join(FAMILIES)})")
     for key in ("low", "high", "mass", "quantiles", "per", "expert", "rationale", "weight"):
         if r.has(key):
             raise r.error(key, "a pooled entry holds center/scale; statements go in its tables")
-    df = r.number("df", positive=True)
-    if df is not None and family != "student_t":
-        raise r.error("df", f"applies to student_t only, not {family}")
-    if family == "student_t" and df is None:
-        df = convert.DEFAULT_DF
+    family, df = r.family_and_df()
     if family == "flat":
         center, scale = 0.0, math.nan
         for key in ("center", "scale"):

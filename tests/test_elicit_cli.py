@@ -146,6 +146,7 @@ def test_bad_prior_file_one_line_exit_2(files, text, words):
         (["show", "{d}/priors.toml", "--noise-sd", "-1"], "--noise-sd"),
         (["show", "{d}/priors.toml", "--format", "xml"], "xml"),
         (["pool", "{d}/priors.toml"], "--out"),
+        (["pool", "{d}/priors.toml", "--out", "{d}/no/o.toml"], "does not exist"),
         (
             ["interview", "--data", "{d}/data.csv", "--response", "nope", "--out", "{d}/o.toml"],
             "nope",
@@ -190,3 +191,12 @@ def test_asymmetric_quantiles_warn_on_stderr(files):
     assert result.exit_code == 0
     assert "warning: " in result.stderr and "asymmetric" in result.stderr
     assert "coefficient 1 (x1): field 'quantiles'" in result.stderr
+
+
+def test_json_with_infinite_sd(files):
+    (files / "priors.toml").write_text(
+        '[[coefficient]]\nname = "x1"\nfamily = "student_t"\ndf = 2\ncenter = 0.0\nscale = 1.0\n'
+    )
+    result = run("show", files / "priors.toml", "--format", "json")
+    assert result.exit_code == 0, result.stderr
+    assert json.loads(result.stdout)["coefficients"][0]["sd"] is None
