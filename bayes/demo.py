@@ -15,16 +15,18 @@ def demo_path(name: str) -> Path:
 
 
 def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
-    """The whole job on the demo study: prior file -> fit -> report, written into ``out``.
+    """The whole job on the demo study: prior file -> fit -> sweep -> report, into ``out``.
 
-    ``out/fit/`` holds the saved fit; ``out/report.html`` (self-contained), ``out/report.md``
-    with its PNG figures beside it, and ``out/tables/*.csv`` the report.
+    ``out/fit/`` holds the saved fit and its sweep (``sweep.json``); ``out/report.html``
+    (self-contained), ``out/report.md`` with its PNG figures beside it, and ``out/tables/*.csv``
+    the report.
     """
     from .api import fit
     from .cli import provenance
     from .design import read_table
     from .render import outputs_text, write_report
     from .report import report_from_result
+    from .sensitivity import save_sweep, sweep
     from .store import save_fit
 
     data, priors = demo_path("trial_mix.csv"), demo_path("priors.toml")
@@ -36,7 +38,14 @@ def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
     save_fit(result, out / "fit")
     echo(result.text())
     echo(f"Saved the fit in {out / 'fit'}/")
-    report = report_from_result(result)
+    swept = sweep(result)
+    save_sweep(swept, out / "fit")
+    echo("")
+    echo("Sensitivity to the prior widths (the sweep's headline):")
+    for line in swept.headline:
+        echo(f"  {line}")
+    echo("")
+    report = report_from_result(result, swept.to_dict())
     html, markdown, tables = out / "report.html", out / "report.md", out / "tables"
     write_report(report, html, markdown, tables)
     echo(outputs_text(report, html, markdown, tables))

@@ -106,7 +106,8 @@ def _pyplot():
     return plt
 
 
-def _png(fig) -> bytes:
+def png_bytes(fig) -> bytes:
+    """The figure as PNG bytes at the report's resolution; the figure is closed."""
     buffer = io.BytesIO()
     # metadata={"Software": None} keeps the bytes free of version strings (same input, same PNG).
     fig.savefig(buffer, format="png", dpi=DPI, metadata={"Software": None})
@@ -166,7 +167,7 @@ def density_figure(panels: Sequence[DensityPanel]) -> bytes:
         handles, labels = _legend_entries(axes.flat)
         fig.legend(handles, labels, loc="outside lower center", ncols=min(4, len(labels)),
                    frameon=False)  # fmt: skip
-        return _png(fig)
+        return png_bytes(fig)
 
 
 def _legend_entries(axes) -> tuple[list, list[str]]:
@@ -234,7 +235,7 @@ def forest_figure(rows: Sequence[ForestRow], level: float) -> bytes:
         )
         handles, labels = _legend_entries([ax])
         fig.legend(handles, labels, loc="outside lower center", ncols=3, frameon=False)
-        return _png(fig)
+        return png_bytes(fig)
 
 
 def residual_figure(
@@ -270,7 +271,7 @@ def residual_figure(
         ax.set_ylabel(f"residual ({units})")
         fig.legend(*ax.get_legend_handles_labels(), loc="outside lower center", ncols=2,
                    frameon=False)  # fmt: skip
-        return _png(fig)
+        return png_bytes(fig)
 
 
 def predictive_figure(
@@ -315,64 +316,4 @@ def predictive_figure(
         ax.set_xlabel(f"predicted mean response ({units})")
         ax.set_ylabel(f"observed response ({units})")
         ax.legend(loc="upper left", frameon=False)
-        return _png(fig)
-
-
-def sweep_figure(sweep: dict, response_units: str, level: float) -> bytes:
-    """Posterior mean and interval of each coefficient against the prior-width factor.
-
-    Parameters
-    ----------
-    sweep : dict
-        The saved sweep: ``factors`` (the grid; None for the flat-prior limit) and
-        ``coefficients``, each with ``name`` and arrays ``mean``, ``lower``, ``upper`` aligned
-        with ``factors``; optional ``flip_factors`` (list of width factors where a conclusion
-        flips) per coefficient.
-    response_units : str
-        For the axis labels.
-    level : float
-        Credible level of the intervals.
-
-    Returns
-    -------
-    bytes
-        A PNG image.
-    """
-    plt = _pyplot()
-    factors = sweep["factors"]
-    finite = [i for i, f in enumerate(factors) if f is not None]
-    flat = [i for i, f in enumerate(factors) if f is None]
-    x = np.array([factors[i] for i in finite], float)
-    coefs = sweep["coefficients"]
-    cols = 2 if len(coefs) > 1 else 1
-    rows = math.ceil(len(coefs) / cols)
-    with plt.rc_context(_STYLE):
-        fig, axes = plt.subplots(rows, cols, figsize=(PAGE_WIDTH, 2.2 * rows + 0.5),
-                                 squeeze=False, layout="constrained")  # fmt: skip
-        for ax, c in zip(axes.flat, coefs, strict=False):
-            mean, lo, hi = (np.array([c[k][i] for i in finite], float)
-                            for k in ("mean", "lower", "upper"))  # fmt: skip
-            ax.fill_between(x, lo, hi, color=POSTERIOR, alpha=0.25, lw=0,
-                            label=f"{100 * level:g}% interval")  # fmt: skip
-            ax.plot(x, mean, color=POSTERIOR, lw=1.8, label="posterior mean")
-            if flat:
-                i = flat[0]
-                right = x.max() * 1.6
-                ax.errorbar([right], [c["mean"][i]], yerr=[[c["mean"][i] - c["lower"][i]],
-                            [c["upper"][i] - c["mean"][i]]], fmt="D", color=LEAST_SQUARES,
-                            ms=4, capsize=3, label="flat-prior limit")  # fmt: skip
-            ax.axvline(1.0, color=PRIOR, ls="--", lw=1.2, label="priors as stated")
-            for k, f in enumerate(c.get("flip_factors") or []):
-                ax.axvline(f, color=OKABE_ITO["purple"], ls=":", lw=1.6,
-                           label="conclusion flips" if k == 0 else None)  # fmt: skip
-            ax.axhline(0.0, color=OKABE_ITO["black"], lw=0.6)
-            ax.set_xscale("log")
-            ax.set_title(c["name"])
-            ax.set_xlabel("prior width factor (log scale)")
-            ax.set_ylabel(response_units if c["name"] == "intercept" else "coefficient")
-        for ax in list(axes.flat)[len(coefs) :]:
-            ax.set_axis_off()
-        handles, labels = _legend_entries(axes.flat)
-        fig.legend(handles, labels, loc="outside lower center", ncols=min(5, len(labels)),
-                   frameon=False)  # fmt: skip
-        return _png(fig)
+        return png_bytes(fig)

@@ -74,9 +74,10 @@ def build_report(fit_dir: str | Path, figures: bool = True) -> Report:
 
     folder = Path(fit_dir)
     result = load_fit(folder)
-    return report_from_result(
-        result, _read_json(folder / "sweep.json"), _read_json(folder / "compare.json"), figures
-    )
+    sweep = _read_json(folder / "sweep.json")
+    if sweep is not None:
+        _check_sweep(sweep, result, str(folder / "sweep.json"))
+    return report_from_result(result, sweep, _read_json(folder / "compare.json"), figures)
 
 
 def report_from_result(
@@ -515,8 +516,10 @@ def _figures(ctx: _Context) -> Section:
     sweep_png = _sweep_png(ctx)
     if sweep_png is not None:
         blocks.append(Figure("sweep", (
-            "Posterior mean and interval of each coefficient as the prior widths are multiplied "
-            "by a factor (1 = as stated); the flat-prior limit at the right; flip points marked."
+            "Width sweep: posterior mean and interval of each coefficient as the prior scales "
+            "are multiplied by a factor (1 = as stated, dashed line); the stated prior interval "
+            "at the left, the flat-prior limit at the right; dotted lines mark where a "
+            "conclusion flips."
         ), sweep_png))  # fmt: skip
     else:
         blocks.append(Paragraph(
@@ -628,33 +631,136 @@ def _residual_blocks(ctx: _Context) -> list[Block]:
 
 
 def _sweep_png(ctx: _Context) -> bytes | None:
-    """The width-sweep chart, drawn from the saved sweep (None when no sweep was saved)."""
+    """The width-sweep chart of the saved sweep (None when no sweep was saved)."""
     if ctx.sweep is None:
         return None
-    from .figures import sweep_figure
+    from .figures import png_bytes
+    from .sensitivity import plot_sweep
 
-    return sweep_figure(ctx.sweep, ctx.response_units, ctx.result.level)
+    return png_bytes(plot_sweep(ctx.sweep))
 
 
 # --------------------------------------------------------------------------- 6. sensitivity
 
 
+def _check_sweep(sweep: dict, result: FitResult, path: str) -> None:
+    """Stop when the saved sweep belongs to another model than the saved fit."""
+    names = [c.get("name") for c in sweep.get("coefficients", [])]
+    if sweep.get("response") != result.response or names != list(result.names):
+        raise InputError(
+            f"{path}: the saved sweep is for another model (response {sweep.get('response')!r}, "
+            f"coefficients {', '.join(map(str, names))}); run bayes sweep ... --save again"
+        )
+
+
 def _sensitivity(ctx: _Context) -> Section:
     sweep = ctx.sweep
+    title = "Sensitivity to the priors"
     if sweep is None:
-        return Section("sensitivity", "Sensitivity to the priors", (Paragraph(
+        return Section("sensitivity", title, (Paragraph(
             "No sensitivity sweep was saved with this fit, so this report cannot say how much "
             "the conclusions depend on the prior widths. Run bayes sweep DATA --priors FILE "
             "--save FIT_DIR and make the report again."
         ),))  # fmt: skip
-    blocks: list[Block] = []
-    headlines = sweep.get("headlines") or sweep.get("headline") or []
-    if isinstance(headlines, str):
-        headlines = [headlines]
-    if headlines:
-        blocks.append(Paragraph("What the sweep concludes:"))
-        blocks.append(Bullets(tuple(str(h) for h in headlines)))
-    return Section("sensitivity", "Sensitivity to the priors", tuple(blocks))
+    r = ctx.result
+    sd = {row["name"]: row["sd"] for row in r.rows}
+    factors = [f for f in sweep["factors"] if f is not None]
+    level = sweep.get("conclusion_level", 0.95)
+    blocks: list[Block] = [
+        Paragraph(
+            f"The sweep multiplied the scale of {sweep.get('selection', 'the priors')} by "
+            f"{len(factors)} factors from {_number(min(factors))} to {_number(max(factors))} "
+            f"(1 = as stated) and added the flat-prior limit ({sweep.get('detail', '')}). A "
+            f"conclusion holds when its posterior probability is at least {level:g}."
+        ),
+        Bullets(tuple(sweep.get("headline") or ("The sweep drew no conclusions.",))),
+    ]
+    rows = []
+    for c in sweep["coefficients"]:
+        for k in c.get("conclusions", []):
+            rows.append((k["statement"], _prob(k["at_stated"]), k["status"],
+                         _factor(k.get("narrower_flip")), _factor(k.get("wider_flip")),
+                         _prob(k.get("flat_probability"))))  # fmt: skip
+    if rows:
+        blocks.append(Table("conclusions", "Conclusions along the width sweep",
+                            ("conclusion", "P at stated priors", "status",
+                             "flips when narrower by factor", "flips when wider by factor",
+                             "P with flat priors"), tuple(rows)))  # fmt: skip
+    influence = tuple(
+        (c["name"], fmt(c.get("variance_ratio"), 2), fmt(c.get("prior_share"), 2))
+        for c in sweep["coefficients"] if c.get("variance_ratio") is not None
+    )  # fmt: skip
+    if influence:
+        blocks.append(Table("influence", "How much the data dominate the priors (at the stated "
+                            "priors)", ("coefficient", "posterior / prior variance",
+                                        "prior's share of the posterior precision"),
+                            influence))  # fmt: skip
+    conflict = sweep.get("conflict") or {}
+    if conflict:
+        joint = conflict.get("joint", {}).get("sentence", "")
+        blocks.append(Paragraph(
+            f"{joint} Method: {conflict.get('method', '')}; a coefficient is flagged when its "
+            f"tail probability is below {conflict.get('threshold', 0.05):g}."
+        ))  # fmt: skip
+        crow = tuple(
+            (x["name"], fmt(x.get("tail_probability"), 2), "yes" if x.get("flag") else "no")
+            for x in conflict.get("coefficients", [])
+        )
+        if crow:
+            blocks.append(
+                Table(
+                    "conflict",
+                    "Prior-data conflict per coefficient",
+                    ("coefficient", "tail probability", "conflict"),
+                    crow,
+                )
+            )
+    power = sweep.get("power_scaling") or {}
+    if power:
+        blocks.append(Paragraph(
+            f"Power-scaling sensitivity: {power.get('measure', '')}, from "
+            f"{power.get('method', '')}; a value at or above {power.get('threshold', 0.05):g} "
+            "flags sensitivity. Sensitive to both prior and likelihood suggests prior-data "
+            "conflict; to the prior only, a weak likelihood (the prior decides)."
+        ))  # fmt: skip
+        prow = tuple(
+            (x["name"], f"{x['prior']:.3f}", f"{x['likelihood']:.3f}", x.get("diagnosis") or "none")
+            for x in power.get("coefficients", [])
+        )
+        blocks.append(
+            Table(
+                "power_scaling",
+                "Power-scaling sensitivity",
+                ("coefficient", "prior", "likelihood", "diagnosis"),
+                prow,
+            )
+        )
+    swap = sweep.get("family_swap")
+    if swap:
+        fams = swap["families"]
+        lvl = f"{100 * sweep.get('level', r.level):g}%"
+        srow = []
+        for c in swap["coefficients"]:
+            s = sd.get(c["name"])
+            srow.append((c["name"], _units(ctx, c["name"]), *(
+                f"{fmt_by_sd(c[f]['mean'], s)} ({fmt_by_sd(c[f]['lower'], s)} to "
+                f"{fmt_by_sd(c[f]['upper'], s)})" for f in fams)))  # fmt: skip
+        how = "; ".join(f"{f}: {m}" for f, m in swap.get("method", {}).items())
+        blocks.append(Paragraph(
+            "Family swap: the same stated ranges read as each family; posterior mean and, in "
+            f"parentheses, the {lvl} interval. Computed by {how}."
+        ))  # fmt: skip
+        blocks.append(Table("family_swap", "Family swap", ("coefficient", "units", *fams),
+                            tuple(srow)))  # fmt: skip
+    if sweep.get("notes"):
+        blocks.append(Bullets(tuple(sweep["notes"])))
+    return Section("sensitivity", title, tuple(blocks))
+
+
+def _factor(f: float | None) -> str:
+    if f is None:
+        return "-"
+    return _number(1 / f) if f < 1 else _number(f)
 
 
 # --------------------------------------------------------------------------- comparison

@@ -229,6 +229,45 @@ def test_collinearity_note_appears_only_when_collinear():
     assert "No strong collinearity" in demo_texts
 
 
+def _sweep_dir(demo_result, demo_fit_dir, tmp_path):
+    from bayes.sensitivity import save_sweep, sweep
+
+    folder = tmp_path / "fit"
+    shutil.copytree(demo_fit_dir, folder)
+    swept = sweep(demo_result, family_swap=False)
+    save_sweep(swept, folder)
+    return folder, swept
+
+
+def test_report_with_a_saved_sweep(demo_result, demo_fit_dir, tmp_path):
+    folder, swept = _sweep_dir(demo_result, demo_fit_dir, tmp_path)
+    report = build_report(folder)
+    assert "sweep" in {f.key for f in report.figures}
+    sens = next(s for s in report.sections if s.key == "sensitivity")
+    tables = {b.key: b for b in sens.blocks if b.kind == "table"}
+    assert set(tables) == {"conclusions", "influence", "conflict", "power_scaling"}
+    bullets = next(b for b in sens.blocks if b.kind == "bullets")
+    assert bullets.items == tuple(swept.headline)
+    statements = [row[0] for row in tables["conclusions"].rows]
+    assert "fly_ash lowers strength" in statements
+    html = render_html(report)
+    assert html.count('<img src="data:image/png;base64,') == 5
+
+
+def test_a_sweep_of_another_model_is_rejected(demo_fit_dir, tmp_path):
+    from bayes.sensitivity import save_sweep, sweep
+
+    folder = tmp_path / "fit"
+    shutil.copytree(demo_fit_dir, folder)
+    frame = pd.read_csv(DEMO / "trial_mix.csv")
+    other = bayes.fit(frame, "strength", NAMES[:3], priors=read_prior_file(DEMO / "priors.toml"))
+    save_sweep(sweep(other, family_swap=False), folder)
+    res = CliRunner().invoke(main, ["report", str(folder), "--out", str(tmp_path / "r.html")])
+    assert res.exit_code == 2
+    assert "the saved sweep is for another model" in res.output
+    assert not (tmp_path / "r.html").exists()
+
+
 # --------------------------------------------------------------------------- HTML and Markdown
 
 
@@ -341,5 +380,7 @@ def test_demo_writes_the_whole_job(tmp_path):
     out = tmp_path / "demo"
     for name in ("report.html", "report.md", "fit/fit.json", "tables/posterior.csv"):
         assert (out / name).exists(), name
+    assert (out / "fit" / "sweep.json").exists()
     assert any(line.startswith("Report: ") for line in lines)
-    assert len(list(out.glob("report-*.png"))) == 4
+    assert any(line.startswith("  The conclusion that fly_ash lowers strength") for line in lines)
+    assert len(list(out.glob("report-*.png"))) == 5

@@ -134,7 +134,7 @@ def test_the_check_catches_a_broken_image_and_console_errors(chromium, tmp_path)
 
 def test_demo_report_renders_with_every_image_decoded(chromium, demo_report, tmp_path):
     html, n_figures = demo_report
-    assert n_figures == 4
+    assert n_figures == 5
     result, console = _check(chromium, html.read_text(), tmp_path)
     assert len(result["images"]) == n_figures
     for image in result["images"]:
