@@ -204,14 +204,16 @@ def table_header(path: Path) -> pd.DataFrame:
         raise unreadable(path, e) from None
 
 
-def _csv_chunks(
-    path: Path, columns: list[str] | None, chunk_rows: int
-) -> Iterator[tuple[pd.DataFrame, float]]:
-    """Chunks of a CSV file (index labels continue across chunks) and the fraction read."""
+def _csv_chunks(path: Path, chunk_rows: int) -> Iterator[tuple[pd.DataFrame, float]]:
+    """Chunks of a CSV file (index labels continue across chunks) and the fraction read.
+
+    Every column is parsed, as for an in-memory fit: with ``usecols`` pandas would
+    silently accept a row with too many fields (a sign of shifted values).
+    """
     with open(path, "rb") as fh:
         size = max(os.fstat(fh.fileno()).st_size, 1)
         try:
-            reader = pd.read_csv(fh, chunksize=chunk_rows, usecols=columns, **CSV_OPTIONS)
+            reader = pd.read_csv(fh, chunksize=chunk_rows, **CSV_OPTIONS)
         except READ_ERRORS as e:
             raise unreadable(path, e) from None
         with reader:
@@ -226,9 +228,9 @@ def _csv_chunks(
 
 
 def _parquet_chunks(
-    path: Path, columns: list[str] | None, chunk_rows: int
+    path: Path, columns: list[str], chunk_rows: int
 ) -> Iterator[tuple[pd.DataFrame, float]]:
-    """Record batches of a Parquet file as frames indexed by data-row number."""
+    """Record batches of the used columns of a Parquet file, indexed by data-row number."""
     import pyarrow.parquet as pq
 
     try:
@@ -302,10 +304,12 @@ def stream_factor(
     parquet = is_parquet(path)
     if predictors is not None or parquet:
         _, predictors = select_columns(header, response, predictors, source)
-    columns = None if predictors is None else [response, *predictors]
     if chunk_rows is None:
-        chunk_rows = default_chunk_rows(len(columns or header.columns))
-    chunks = (_parquet_chunks if parquet else _csv_chunks)(path, columns, chunk_rows)
+        chunk_rows = default_chunk_rows(len(header.columns))
+    if parquet:
+        chunks = _parquet_chunks(path, [response, *predictors], chunk_rows)
+    else:
+        chunks = _csv_chunks(path, chunk_rows)
     state, rows = None, 0
     # One core parses, the other factorises: BLAS threads would only oversubscribe the
     # cores, and OpenBLAS waking a second thread for every small leaf QR is very slow.
