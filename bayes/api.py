@@ -5,7 +5,7 @@ The CLI is a thin layer over these functions.
 
 from __future__ import annotations
 
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from pathlib import Path
 
 import pandas as pd
@@ -17,6 +17,7 @@ from .factor import factor_from_arrays
 from .problem import DataFactor
 from .result import FitResult, make_result
 from .scaled import scaled_prior
+from .terms import formula_response
 
 METHODS = ("auto", "exact", "sample")
 
@@ -47,6 +48,8 @@ def fit(
     progress: Callable[[int, int], None] | None = None,
     source: str = "data frame",
     provenance: dict | None = None,
+    formula: str | None = None,
+    reference: Mapping[str, str] | None = None,
 ) -> FitResult:
     """Fit the Bayesian linear model of ``response`` on ``predictors``.
 
@@ -66,6 +69,12 @@ def fit(
         "auto" is exact for flat/normal priors and sampling otherwise.
     chains, draws, warmup, seed : int
         Sampler settings (sampled fits only).
+    formula : str, optional
+        Model formula instead of ``response``/``predictors``:
+        ``"strength ~ water_cement + cement_type + fly_ash:curing_temp + I(water_cement**2)"``
+        (see :mod:`bayes.terms`). Text predictors are categorical either way.
+    reference : mapping of column -> level, optional
+        Reference level of each categorical predictor (default: the most frequent).
 
     Returns
     -------
@@ -75,10 +84,13 @@ def fit(
     if isinstance(data, Design):
         design = data
     else:
-        response = response or prior_set.response
-        if not response:
+        if formula_response(formula) is None:
+            response = response or prior_set.response
+        if not response and formula is None:
             raise InputError("no response column given (--response, or [study] response)")
-        design = build_design(data, response, predictors, drop_missing, source)
+        design = build_design(data, response, predictors, drop_missing, source, formula, reference)
+    if design.terms is not None:
+        design.terms.check_priors(prior_set)
     factor = factor_from_arrays(design.X, design.y, design.names)
     return fit_factor(
         factor, prior_set, design.response, level, method, chains, draws, warmup, seed,

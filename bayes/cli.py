@@ -46,6 +46,7 @@ def model_options(f):
             "(default: every numeric column but the response).",
         ),  # fmt: skip
         click.option("--priors", type=click.Path(dir_okay=False), help="Prior file (TOML)."),
+        term_options,
         click.option("--drop-missing", is_flag=True, help="Drop rows with missing values."),
         click.option(
             "--level",
@@ -63,6 +64,37 @@ def model_options(f):
         ),  # fmt: skip
     ]
     return functools.reduce(lambda g, opt: opt(g), reversed(options), f)
+
+
+def term_options(f):
+    """--formula and --reference: derived terms and categorical predictors (bayes.terms)."""
+    options = [
+        click.option(
+            "--formula",
+            help='Model formula instead of --response/--predictors, e.g. "strength ~ '
+            'water_cement + cement_type + fly_ash:curing_temp + I(water_cement**2)".',
+        ),  # fmt: skip
+        click.option(
+            "--reference",
+            "reference",
+            multiple=True,
+            metavar="COLUMN=LEVEL",
+            help="Reference level of a categorical predictor (repeatable; "
+            "default: its most frequent level).",
+        ),  # fmt: skip
+    ]
+    return functools.reduce(lambda g, opt: opt(g), reversed(options), f)
+
+
+def reference_levels(pairs) -> dict[str, str]:
+    """('cement_type=CEM-A', ...) -> {'cement_type': 'CEM-A'}."""
+    out = {}
+    for pair in pairs or ():
+        name, sep, level = pair.partition("=")
+        if not sep or not name.strip() or not level.strip():
+            raise click.BadParameter(f"'{pair}' is not COLUMN=LEVEL", param_hint="--reference")
+        out[name.strip()] = level.strip()
+    return out
 
 
 def sampler_options(f):
@@ -118,19 +150,31 @@ def split_columns(text: str | None) -> list[str] | None:
     return [c.strip() for c in text.split(",") if c.strip()]
 
 
+def design_from_options(data, response, predictors, prior_set, drop_missing, formula=None,
+                        reference=()):  # fmt: skip
+    """Read DATA and build the design the command line asks for (used by several commands)."""
+    from .design import build_design, read_table
+    from .terms import formula_response
+
+    if formula_response(formula) is None:
+        response = response or prior_set.response
+        if not response:
+            raise click.UsageError("give --response (or [study] response in the prior file)")
+    return build_design(
+        read_table(data), response, split_columns(predictors), drop_missing, Path(data).name,
+        formula, reference_levels(reference),
+    )  # fmt: skip
+
+
 def fit_from_options(data, response, predictors, priors, drop_missing, level, method="exact",
-                     chains=4, draws=2000, warmup=1000, seed=0, progress=None):  # fmt: skip
+                     chains=4, draws=2000, warmup=1000, seed=0, progress=None, formula=None,
+                     reference=()):  # fmt: skip
     """Read the files named on the command line and fit (used by several commands)."""
     from .api import fit, load_priors
-    from .design import build_design, read_table
 
     prior_set = load_priors(priors)
-    response = response or prior_set.response
-    if not response:
-        raise click.UsageError("give --response (or [study] response in the prior file)")
-    design = build_design(
-        read_table(data), response, split_columns(predictors), drop_missing, Path(data).name
-    )
+    design = design_from_options(data, response, predictors, prior_set, drop_missing, formula,
+                                 reference)  # fmt: skip
     return fit(
         design, priors=prior_set, level=level, method=method, chains=chains, draws=draws,
         warmup=warmup, seed=seed, progress=progress,
@@ -153,11 +197,12 @@ def emit(obj: dict, text: str, fmt: str) -> None:
               help="Store the fit in this folder for report, sweep and predict.")  # fmt: skip
 @click.option("--digits", type=click.IntRange(2, 15), default=7, show_default=True,
               help="Significant digits in the text table.")  # fmt: skip
-def fit_command(data, response, predictors, priors, drop_missing, level, fmt, method, chains,
-                draws, warmup, seed, save_dir, digits):  # fmt: skip
+def fit_command(data, response, predictors, priors, formula, reference, drop_missing, level, fmt,
+                method, chains, draws, warmup, seed, save_dir, digits):  # fmt: skip
     """Fit the model to DATA (CSV or Parquet) and print the posterior table."""
     result = fit_from_options(data, response, predictors, priors, drop_missing, level, method,
-                              chains, draws, warmup, seed)  # fmt: skip
+                              chains, draws, warmup, seed, formula=formula,
+                              reference=reference)  # fmt: skip
     if save_dir:
         from .store import save_fit
 
@@ -220,3 +265,40 @@ def demo_command(out):
     from .demo import run_demo
 
     run_demo(Path(out), echo=click.echo)
+
+
+@main.command("compare")
+@click.argument("data", type=click.Path(dir_okay=False))
+@click.option("--priors", "priors", multiple=True, required=True, type=click.Path(dir_okay=False),
+              help="A prior file (TOML); give two or more.")  # fmt: skip
+@click.option("--response", help="Response column (default: [study] response).")
+@click.option("--predictors", help="Comma-separated predictor columns.")
+@term_options
+@click.option("--drop-missing", is_flag=True, help="Drop rows with missing values.")
+@click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text",
+              show_default=True)  # fmt: skip
+@click.option("--save", "save_dir", type=click.Path(file_okay=False),
+              help="A saved fit folder: write compare.json there for the report.")  # fmt: skip
+@sampler_options
+def compare_command(data, priors, response, predictors, formula, reference, drop_missing, fmt,
+                    save_dir, method, chains, draws, warmup, seed):  # fmt: skip
+    """Compare prior files on DATA: evidence, Bayes factors, leave-one-out prediction."""
+    from .api import load_priors
+    from .compare import compare_priors
+
+    prior_sets = [load_priors(p) for p in priors]
+    design = design_from_options(data, response, predictors, prior_sets[0], drop_missing, formula,
+                                 reference)  # fmt: skip
+    sampled = method == "sample" or any(c.family in ("laplace", "student_t")
+                                        for ps in prior_sets for c in ps.coefficients)  # fmt: skip
+    comparison = compare_priors(
+        design, prior_sets, method, chains, draws, warmup, seed,
+        provenance=provenance(data, seed if sampled else None, design.dropped),
+    )  # fmt: skip
+    if save_dir:
+        from .compare import save_comparison
+
+        save_comparison(comparison, save_dir)
+    emit(comparison.to_dict(), comparison.text(), fmt)
+    if save_dir and fmt == "text":
+        click.echo(f"Saved the comparison in {Path(save_dir) / 'compare.json'}")

@@ -6,7 +6,7 @@ message naming the file, the row and the column.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -32,6 +32,9 @@ class Design:
         Where the data came from (file name or "data frame").
     dropped : int
         Rows dropped for missing values (``drop_missing=True``).
+    terms : bayes.terms.Terms, optional
+        The coding of categorical predictors and derived terms (formula or
+        text columns); None when the design columns are the data columns.
     """
 
     response: str
@@ -40,6 +43,7 @@ class Design:
     y: np.ndarray
     source: str = "data frame"
     dropped: int = 0
+    terms: object | None = None
 
     @property
     def n(self) -> int:
@@ -108,6 +112,8 @@ def build_design(
     predictors: Sequence[str] | None = None,
     drop_missing: bool = False,
     source: str = "data frame",
+    formula: str | None = None,
+    reference: Mapping[str, str] | None = None,
 ) -> Design:
     """Validate a data frame and extract the design.
 
@@ -123,17 +129,41 @@ def build_design(
         Drop rows with a missing value in the used columns (otherwise an error).
     source : str
         Name used in error messages (the file name).
+    formula : str, optional
+        A model formula (``"y ~ a + b + a:b"``, see :mod:`bayes.terms`) instead of
+        ``response``/``predictors``.
+    reference : mapping of column -> level, optional
+        Reference levels of categorical predictors (default: the most frequent).
 
     Returns
     -------
     Design
+        Text predictors become categorical (treatment coding, see :mod:`bayes.terms`).
     """
+    if formula is not None:
+        from .terms import split_formula
+
+        response, formula, predictors = split_formula(formula, response, predictors)
     frame, predictors = select_columns(frame, response, predictors, source)
-    values, dropped = checked_values(frame[[response, *predictors]], source, drop_missing)
+    sub = frame[[response, *predictors]]
+    from .terms import is_text
+
+    text = [c for c in predictors if is_text(sub[c])]
+    values, dropped = checked_values(sub, source, drop_missing, text)
     y = values[response]
-    X = np.column_stack([values[c] for c in predictors]) if predictors else np.empty((len(y), 0))
-    check_distinct(X, y, predictors, response, source)
-    return Design(response, tuple(predictors), X, y, source, dropped)
+    terms = None
+    if formula is None and not text and not reference:
+        names = predictors
+        X = np.column_stack([values[c] for c in names]) if names else np.empty((len(y), 0))
+    else:
+        from .terms import make_terms
+
+        kept = sub.notna().all(axis=1).to_numpy() if dropped else np.ones(len(sub), bool)
+        rows = np.array([_file_row(sub, i) for i in np.flatnonzero(kept)])
+        terms = make_terms(values, response, predictors, formula, reference, rows, source)
+        names, X = list(terms.columns), terms.evaluate(values, rows, source)
+    check_distinct(X, y, names, response, source)
+    return Design(response, tuple(names), X, y, source, dropped, terms)
 
 
 def select_columns(
@@ -170,12 +200,13 @@ def select_columns(
 
 
 def checked_values(
-    sub: pd.DataFrame, source: str, drop_missing: bool = False
+    sub: pd.DataFrame, source: str, drop_missing: bool = False, text: Sequence[str] = ()
 ) -> tuple[dict[str, np.ndarray], int]:
     """Missing-value, numeric and finiteness checks on the used columns of a block of rows.
 
     Works on a whole table or on one chunk of a streamed file: row numbers in the
     errors come from ``sub``'s index labels (row label i is file line i + 2).
+    Columns named in ``text`` (categorical labels) are returned as arrays of str.
 
     Returns
     -------
@@ -197,13 +228,14 @@ def checked_values(
         keep = ~missing.any(axis=1)
         dropped = int((~keep).sum())
         sub = sub.loc[keep]
-    values = {c: _numeric(sub, c, source) for c in used}
+    labels = {c: np.array([str(v) for v in sub[c]], dtype=object) for c in text}
+    values = {c: _numeric(sub, c, source) for c in used if c not in labels}
     for c, v in values.items():
         if not np.all(np.isfinite(v)):
             i = int(np.flatnonzero(~np.isfinite(v))[0])
             row = _file_row(sub, i)
             raise InputError(f"{source}: column '{c}' has a non-finite value at row {row}")
-    return values, dropped
+    return {c: labels[c] if c in labels else values[c] for c in used}, dropped
 
 
 def check_distinct(

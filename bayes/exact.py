@@ -93,10 +93,11 @@ def check_identified(factor: DataFactor, prior: ScaledPrior) -> None:
         )
 
 
-def _log_noise_prior(prior: ScaledPrior, s2: float) -> float:
+def _log_noise_prior(prior: ScaledPrior, s2):
+    """log density of the noise prior at sigma^2 = s2 (float or ndarray); Jeffreys: -log s2."""
     if prior.noise.jeffreys:
         return -np.log(s2)
-    return float(stats.invgamma.logpdf(s2, prior.noise.shape, scale=prior.noise.scale))
+    return stats.invgamma.logpdf(s2, prior.noise.shape, scale=prior.noise.scale)
 
 
 def _natural(factor: DataFactor, means: np.ndarray, covs: np.ndarray):
@@ -156,14 +157,8 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> Posterior:
             "joint mode of (beta, sigma^2)", float(np.sqrt(s2_mode)), df=float(df),
         )  # fmt: skip
 
-    def log_density_u(u: float) -> float:
-        """log p(log sigma | y) up to a constant."""
-        s2 = np.exp(2 * u)
-        sol = _solve(D, d, W, w, np.exp(u))
-        return _log_noise_prior(prior, s2) + np.log(s2) - n * u - sol.quad / 2 - sol.logdet
-
-    u0 = np.log(np.sqrt(max(factor.R[-1, -1] ** 2, 1e-300 + factor.tss * 1e-12) / n))
-    nodes, gl_weights, logf = _quadrature(log_density_u, u0)
+    quad = noise_quadrature(factor, prior)
+    nodes, gl_weights, logf = quad.nodes, quad.weights, quad.log_density
     sols = [_solve(D, d, W, w, np.exp(u)) for u in nodes]
     weights = gl_weights * np.exp(logf - logf.max())
     weights /= weights.sum()
@@ -181,6 +176,50 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> Posterior:
         weights, np.exp(nodes), means, covs, mode[0], "joint mode of (beta, sigma)",
         float(np.exp(u_mode)),
     )  # fmt: skip
+
+
+@dataclass(frozen=True)
+class NoiseQuadrature:
+    """Gauss-Legendre quadrature in ``u = log sigma`` of the noise's unnormalised posterior.
+
+    ``log_density`` holds, at each node,
+    ``f(u) = log p(sigma^2) + log sigma^2 - n u - S(sigma) / 2 - log det R(sigma)``, where
+    ``R(sigma)`` is the triangular factor of the stacked rows ``[D / sigma; W]`` (data
+    rows and prior root precision of the scaled problem) and ``S(sigma)`` the minimum
+    over gamma of ``||D gamma - d||^2 / sigma^2 + ||W (gamma - mean)||^2``.
+    (``log sigma^2`` is the Jacobian of sigma^2 -> u up to the constant log 2.)
+
+    Attributes
+    ----------
+    nodes, weights, log_density : ndarray, shape (QUADRATURE_NODES,)
+    """
+
+    nodes: np.ndarray
+    weights: np.ndarray
+    log_density: np.ndarray
+
+    @property
+    def log_norm(self) -> float:
+        """log of the integral of exp(f) over u: the normalising constant."""
+        top = float(self.log_density.max())
+        return top + float(np.log(np.sum(self.weights * np.exp(self.log_density - top))))
+
+
+def noise_quadrature(factor: DataFactor, prior: ScaledPrior) -> NoiseQuadrature:
+    """The quadrature over log sigma for Gaussian/flat priors and an unknown noise sd."""
+    D, d = _data_rows(factor)
+    W = prior.root_precision
+    w = W @ prior.mean
+    n = factor.n
+
+    def log_density_u(u: float) -> float:
+        """log p(log sigma | y) up to a constant."""
+        s2 = np.exp(2 * u)
+        sol = _solve(D, d, W, w, np.exp(u))
+        return _log_noise_prior(prior, s2) + np.log(s2) - n * u - sol.quad / 2 - sol.logdet
+
+    u0 = np.log(np.sqrt(max(factor.R[-1, -1] ** 2, 1e-300 + factor.tss * 1e-12) / n))
+    return NoiseQuadrature(*_quadrature(log_density_u, u0))
 
 
 def _joint_mode(D, d, W, w, noise, n: int, u0: float) -> float:

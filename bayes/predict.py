@@ -18,7 +18,9 @@ def predict(
     ----------
     result : FitResult
     frame : DataFrame
-        Holds the fit's predictor columns (natural units).
+        Holds the fit's predictor columns (natural units); with categorical
+        predictors or derived terms, the data columns they are made from
+        (coded as in the fit: a level the fit has not seen is an error).
     level : float
         Level of both intervals.
 
@@ -31,7 +33,11 @@ def predict(
         all in response units.
     """
     names = result.factor.names
-    X = predictor_matrix(frame, names, source)
+    if result.terms is not None:
+        X = result.terms.matrix(frame, source)
+        names = result.terms.variables
+    else:
+        X = predictor_matrix(frame, names, source)
     out = []
     for x in X:
         a = np.concatenate([[1.0], x])

@@ -38,6 +38,9 @@ class FitResult:
         The in-memory data (absent for streamed fits).
     provenance : dict
         Data file, its SHA-256, command line, date, versions, seed.
+    terms : bayes.terms.Terms, optional
+        Coding of categorical predictors and derived terms (applied to new rows
+        by ``bayes predict``); None when the design columns are data columns.
     """
 
     response: str
@@ -51,6 +54,7 @@ class FitResult:
     notes: tuple[str, ...]
     data: Design | None = None
     provenance: dict = field(default_factory=dict)
+    terms: object | None = None
 
     @property
     def names(self) -> tuple[str, ...]:
@@ -179,7 +183,11 @@ def make_result(
         )
     if data is not None and data.dropped:
         all_notes.append(f"{data.dropped} row(s) with missing values dropped.")
+    terms = getattr(data, "terms", None)
+    if terms is not None:
+        all_notes.extend(terms.notes)
     return FitResult(
         response, factor, priors, posterior, level, tuple(rows), diag,
         tuple(penalty_rows(priors, sigma, basis)), tuple(all_notes), data, provenance or {},
+        terms,
     )  # fmt: skip

@@ -3,6 +3,8 @@
 A fit folder holds ``fit.json`` (the JSON of ``bayes fit --format json``),
 ``posterior.npz`` (data factor and posterior arrays), ``priors.toml`` (the
 prior file as given) and, for in-memory fits, ``data.csv`` (the rows used).
+A model with categorical predictors or derived terms adds ``terms.json`` (its
+coding, see :class:`bayes.terms.Terms`), which ``bayes predict`` applies to new rows.
 Sampled fits add ``posterior.nc``, an arviz InferenceData file. The folder is
 written beside its final place and swapped in only when complete.
 """
@@ -67,6 +69,8 @@ def save_fit(result: FitResult, folder: str | Path, extra: dict[str, bytes] | No
         (tmp / "priors.toml").write_text(text)
         if result.data is not None:
             result.data.frame().to_csv(tmp / "data.csv", index=False)
+        if result.terms is not None:
+            (tmp / "terms.json").write_text(json.dumps(result.terms.to_dict(), indent=2) + "\n")
         for name, content in (extra or {}).items():
             (tmp / name).write_bytes(content)
         _swap(tmp, folder)
@@ -126,6 +130,11 @@ def load_fit(folder: str | Path) -> FitResult:
     priors = (
         parse_priors(tomllib.loads(text), str(folder / "priors.toml")) if text else flat_priors()
     )
+    terms = None
+    if (folder / "terms.json").exists():
+        from .terms import Terms
+
+        terms = Terms.from_dict(json.loads((folder / "terms.json").read_text()))
     data = None
     if (folder / "data.csv").exists():
         frame = pd.read_csv(folder / "data.csv")
@@ -133,10 +142,10 @@ def load_fit(folder: str | Path) -> FitResult:
         data = Design(
             doc["response"], names, frame[list(names)].to_numpy(float),
             frame[doc["response"]].to_numpy(float), doc["provenance"].get("data", "data"),
-            int(doc["provenance"].get("dropped", 0)),
+            int(doc["provenance"].get("dropped", 0)), terms,
         )  # fmt: skip
     return FitResult(
         doc["response"], factor, priors, post, doc["level"], tuple(doc["coefficients"]),
         doc["diagnostics"], tuple(doc["penalties"]), tuple(doc["notes"]), data,
-        doc["provenance"],
+        doc["provenance"], terms,
     )  # fmt: skip
