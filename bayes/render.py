@@ -147,7 +147,7 @@ def _lines(cell: Cell) -> tuple[str, ...]:
     return (cell,) if isinstance(cell, str) else tuple(cell)
 
 
-_NUMBER = re.compile(r"-|[<>]?[-+]?(\d[\d.]*(e[-+]?\d+)?|inf)")
+_NUMBER = re.compile(r"-|[<>]?[-+]?(\d[\d.]*(e[-+]?\d+)?|inf)( ± [\d.e+-]+)?")
 _MD_SPECIAL = re.compile(r"([\\`*\[\]|])")
 
 

@@ -77,7 +77,13 @@ def build_report(fit_dir: str | Path, figures: bool = True) -> Report:
     sweep = _read_json(folder / "sweep.json")
     if sweep is not None:
         _check_sweep(sweep, result, str(folder / "sweep.json"))
-    return report_from_result(result, sweep, _read_json(folder / "compare.json"), figures)
+    compare = _read_json(folder / "compare.json")
+    if compare is not None and compare.get("response") != result.response:
+        raise InputError(
+            f"{folder / 'compare.json'}: the saved comparison is for response "
+            f"{compare.get('response')!r}, the fit for {result.response!r}"
+        )
+    return report_from_result(result, sweep, compare, figures)
 
 
 def report_from_result(
@@ -606,7 +612,7 @@ def _residual_blocks(ctx: _Context) -> list[Block]:
     sigma = r.posterior.sigma_quantile(0.5)
     units = ctx.response_units
     blocks: list[Block] = [Figure("residuals", (
-        "Residuals against fitted values at the posterior mean, with lines at +/- 2 noise sds "
+        "Residuals against fitted values at the posterior mean, with lines at ±2 noise sds "
         f"({fmt(sigma, 3)} {units}, posterior median). A pattern (curve, funnel) would say the "
         "linear model with constant noise does not describe the data."
     ), F.residual_figure(fitted, y - fitted, sigma, units))]  # fmt: skip
@@ -768,20 +774,60 @@ def _factor(f: float | None) -> str:
 
 def _comparison(ctx: _Context) -> Section:
     doc = ctx.compare or {}
-    sets = doc.get("sets") or []
     rows = []
-    for s in sets:
-        rows.append((str(s.get("path", "-")), fmt(s.get("log_marginal_likelihood"), 5)))
+    for x in doc.get("sets", []):
+        lml, mc = x.get("log_marginal_likelihood"), x.get("log_marginal_likelihood_mc_se")
+        log_b = x.get("log_bayes_factor_vs_best")
+        elpd, elpd_se = x.get("elpd_loo"), x.get("elpd_loo_se")
+        diff, diff_se = x.get("elpd_diff_vs_best"), x.get("elpd_diff_se")
+        rows.append((
+            Path(str(x.get("path", "-"))).name,
+            x.get("title") or "-",
+            _plus_minus(lml, mc if mc else None),
+            "-" if log_b is None else f"{-2 * log_b + 0.0:.2f}",
+            _prob(x.get("posterior_probability")),
+            _plus_minus(elpd, elpd_se),
+            _plus_minus(diff, diff_se),
+            fmt(x.get("pareto_k_max"), 2),
+        ))  # fmt: skip
     blocks: list[Block] = [
-        Paragraph("The prior sets compared by the evidence the data give for each."),
+        Paragraph(
+            f"Prior sets compared on the same {doc.get('n', ctx.result.factor.n)} observations: "
+            "by the evidence (log marginal likelihood; 2 ln B of the best set against each and the "
+            "posterior probability of each set under equal prior odds) and by leave-one-out "
+            "prediction (expected log predictive density, elpd, with its standard error)."
+        ),
         Table(
             "comparison",
             "Comparison of prior sets",
-            ("prior file", "log marginal likelihood"),
+            (
+                "prior file",
+                "title",
+                "log marginal likelihood",
+                "2 ln B, best set against this",
+                "P(set | data)",
+                "elpd (LOO)",
+                "elpd difference vs best",
+                "largest Pareto k",
+            ),
             tuple(rows),
         ),  # fmt: skip
     ]
+    if doc.get("readings"):
+        blocks.append(Bullets(tuple(doc["readings"])))
+    if doc.get("cautions"):
+        blocks.append(Paragraph("What these numbers do not say:"))
+        blocks.append(Bullets(tuple(doc["cautions"])))
     return Section("comparison", "Comparison of prior sets", tuple(blocks))
+
+
+def _plus_minus(x: float | None, se: float | None) -> str:
+    """A value with its standard error, the value rounded by the error."""
+    if x is None:
+        return "-"
+    if se is None or not se > 0:
+        return f"{x:.2f}"
+    return f"{fmt_by_sd(x, se)} ± {fmt(se, 2)}"
 
 
 # --------------------------------------------------------------------------- 7. method

@@ -268,6 +268,24 @@ def test_a_sweep_of_another_model_is_rejected(demo_fit_dir, tmp_path):
     assert not (tmp_path / "r.html").exists()
 
 
+def test_report_with_a_saved_comparison(demo_fit_dir, tmp_path):
+    folder = tmp_path / "fit"
+    shutil.copytree(demo_fit_dir, folder)
+    args = ["compare", str(DEMO / "trial_mix.csv"), "--predictors", ",".join(NAMES), "--priors",
+            str(DEMO / "priors.toml"), "--priors", str(DEMO / "priors_optimistic.toml"),
+            "--save", str(folder)]  # fmt: skip
+    res = CliRunner().invoke(main, args)
+    assert res.exit_code == 0, res.output
+    report = build_report(folder, figures=False)
+    keys = [s.key for s in report.sections]
+    assert keys.index("sensitivity") < keys.index("comparison") < keys.index("method")
+    section = report.sections[keys.index("comparison")]
+    table = next(b for b in section.blocks if b.kind == "table")
+    assert [row[0] for row in table.rows] == ["priors.toml", "priors_optimistic.toml"]
+    probabilities = [float(row[4].lstrip("<>")) for row in table.rows]
+    assert sum(probabilities) == pytest.approx(1.0, abs=2e-3)  # rounded to 3 decimals each
+
+
 # --------------------------------------------------------------------------- HTML and Markdown
 
 
