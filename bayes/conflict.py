@@ -54,7 +54,7 @@ SENSITIVITY_CUTOFF = 0.05  # Kallioinen et al. (2024): the published cut-off
 # the sample size the paper's examples use (4 chains of 1000 draws).
 REFERENCE_DRAWS = 4000
 _GRID = 2049  # points of the integration grid for exact posteriors
-_NOISE_NODES = 64  # Gauss-Legendre nodes over the noise distribution given the residuals
+_NOISE_NODES = 96  # Gauss-Legendre nodes over the noise distribution given the residuals
 
 
 def _fmt(x: float) -> str:
@@ -73,10 +73,14 @@ def _noise_nodes(path: WidthPath) -> tuple[np.ndarray, np.ndarray] | None:
     scale = noise.scale + path.resid2 / 2
     if not (shape > 0 and scale > 0):
         return None
+    # Gauss-Legendre in log sigma^2 over all but 1e-15 of each tail, where the density
+    # is smooth (on the probability scale the quantile function has log singularities).
+    dist = stats.invgamma(shape, scale=scale)
+    lo, hi = np.log(dist.ppf(1e-15)), np.log(dist.isf(1e-15))
     x, w = np.polynomial.legendre.leggauss(_NOISE_NODES)
-    prob = (x + 1) / 2
-    s2 = stats.invgamma.ppf(prob, shape, scale=scale)
-    return np.sqrt(s2), w / w.sum()
+    v = lo + (hi - lo) * (x + 1) / 2
+    w = w * dist.pdf(np.exp(v)) * np.exp(v)
+    return np.exp(v / 2), w / w.sum()
 
 
 def prior_data_conflict(path: WidthPath, priors) -> dict:

@@ -412,7 +412,8 @@ def flat_limit(priors, columns=None, expert=None):
     coefficients keeps, on the others, the limit of its density: the Gaussian with
     the conditional covariance given the widened ones. When one expert's statements
     are widened, a log-pooled coefficient tends to the log pool of the other
-    experts' statements; a linear pool widens without bound and becomes flat.
+    experts' statements (exactly so for normal pools); a linear pool widens without bound
+    and becomes flat.
     """
     from dataclasses import replace
 
@@ -433,8 +434,13 @@ def flat_limit(priors, columns=None, expert=None):
         if not mine:
             coefs.append(c)
         elif c.pool == "log" and others:
+            # The log pool raises each density to its normalised weight; the widened
+            # statements' factors tend to constants, the others keep their exponents
+            # w_i / sum(all w): the pool of the others with precision times sum(w_others) /
+            # sum(all w) (exact for normal pools).
             pooled = pool(others, "log", c.family, c.df)
-            coefs.append(replace(c, center=pooled.center, scale=pooled.scale,
+            share = sum(s.weight for s in others) / sum(s.weight for s in c.statements)
+            coefs.append(replace(c, center=pooled.center, scale=pooled.scale / math.sqrt(share),
                                  pool_misfit=pooled.misfit))  # fmt: skip
         else:
             coefs.append(replace(c, family="flat", center=0.0, scale=math.nan, df=None))
@@ -819,41 +825,22 @@ def _family_swap(factor, priors, level, chains, draws, warmup, seed) -> dict | N
 # --------------------------------------------------------------------------- files
 
 
-def sweep_data(
-    data,
-    response: str | None,
-    predictors,
-    priors,
-    drop_missing: bool = False,
-    **options,
-) -> SweepResult:
-    """Read a data file and a prior file and :func:`sweep` (the ``bayes sweep`` command).
+def sweep_design(design, priors, **options) -> SweepResult:
+    """:func:`sweep` for a validated :class:`bayes.design.Design` (what ``bayes sweep`` runs).
 
     Parameters
     ----------
-    data : path
-        CSV or Parquet file.
-    response : str, optional
-        Default the prior file's ``[study] response``.
-    predictors : list of str, optional
-    priors : path or PriorSet
-    drop_missing : bool
+    design : Design
+    priors : PriorSet or path
     **options
         Passed to :func:`sweep`.
     """
-    from .api import load_priors
-    from .design import build_design, read_table
     from .factor import factor_from_arrays
 
     if priors is None:
         raise InputError("bayes sweep needs --priors: there is nothing to widen without them")
-    prior_set = load_priors(priors)
-    response = response or prior_set.response
-    if not response:
-        raise InputError("no response column given (--response, or [study] response)")
-    design = build_design(read_table(data), response, predictors, drop_missing, Path(data).name)
     factor = factor_from_arrays(design.X, design.y, design.names)
-    return sweep(factor, prior_set, design.response, **options)
+    return sweep(factor, priors, design.response, **options)
 
 
 def save_sweep(result: SweepResult, folder) -> Path:

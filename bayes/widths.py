@@ -317,8 +317,8 @@ class CoefficientMixtures:
         if np.isfinite(self.df):
             factor = np.sqrt(self.df / (self.df - 2)) if self.df > 2 else np.inf
             return self.scales[:, 0] * factor
-        second = (self.scales**2 + self.locs**2) @ self.weights
-        return np.sqrt(np.maximum(second - self.mean**2, 0.0))
+        dev = self.locs - self.mean[:, None]  # about the mean: no cancellation
+        return np.sqrt((self.scales**2 + dev**2) @ self.weights)
 
     def _z(self, x: np.ndarray) -> tuple[np.ndarray, tuple[int, ...]]:
         x = np.asarray(x, dtype=float)
