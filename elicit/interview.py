@@ -185,15 +185,7 @@ class Interview:
                 default=last.get("per", 1.0),
             )
             what = f"change in {self.response} per {per:g}{units} of {term.column}"
-            entry["low"] = self.ask(f"Lowest plausible {what}", type=float, default=last.get("low"))
-            entry["high"] = self.ask(
-                f"Highest plausible {what}", type=float, default=last.get("high")
-            )
-            entry["mass"] = self.ask(
-                "Probability that the effect lies in that range",
-                type=float,
-                default=last.get("mass", 0.9),
-            )
+            entry.update(self._ask_range(what, "the effect", last))
             if per != 1.0:
                 entry["per"] = per
         expert = _blank_to_none(
@@ -222,61 +214,71 @@ class Interview:
         implied = feedback.prior_predictive(priors, rows, means, y_mean)
         self.say("\n".join(feedback.format_predictive(implied, priors.response_units)))
 
-    def _accept(self) -> bool:
-        choice = self.ask("Accept (a) or revise (r)?", type=click.Choice(["a", "r"]), default="a")
-        return choice == "a"
+    def _ask_range(self, what: str, subject: str, last: Mapping[str, Any]) -> dict[str, float]:
+        """Lowest and highest plausible ``what``, and the probability of that range."""
+        return {
+            "low": self.ask(f"Lowest plausible {what}", type=float, default=last.get("low")),
+            "high": self.ask(f"Highest plausible {what}", type=float, default=last.get("high")),
+            "mass": self.ask(
+                f"Probability that {subject} lies in that range",
+                type=float,
+                default=last.get("mass", 0.9),
+            ),
+        }
+
+    def _until_accepted(
+        self,
+        key: str,
+        answer: Callable[[Any], Any],
+        show: Callable[[PriorSet], None],
+        saved: str,
+    ) -> None:
+        """Ask (``answer(previous)``), validate, show, and repeat until accepted; then save."""
+        last = None
+        while True:
+            value = last = answer(last)
+            try:
+                candidate = self._candidate(key, value)
+            except PriorFileError as exc:
+                self.say(f"not accepted: {exc}")
+                continue
+            show(candidate)
+            choice = self.ask(
+                "Accept (a) or revise (r)?", type=click.Choice(["a", "r"]), default="a"
+            )
+            if choice == "a":
+                self._save(candidate)
+                self.say(f"saved {saved} to {self.out}")
+                return
 
     def run_term(self, term: Term, index: int, total: int) -> None:
         """Ask about one term until an answer is valid and accepted; then save."""
         head = f"\n[{index}/{total}] {term.column}"
         self.say(head + (f" ({term.units})" if term.units else "") + (f"; {term.describe}"
                  if term.describe else ""))  # fmt: skip
-        last: dict[str, Any] = {}
-        while True:
-            entry = self.ask_term(term, last)
-            last = entry
-            try:
-                candidate = self._candidate("coefficient", entry)
-            except PriorFileError as exc:
-                self.say(f"not accepted: {exc}")
-                continue
-            self._show_term(candidate, term)
-            if self._accept():
-                self._save(candidate)
-                self.say(f"saved {term.column} to {self.out}")
-                return
+        self._until_accepted(
+            "coefficient",
+            lambda last: self.ask_term(term, last or {}),
+            lambda priors: self._show_term(priors, term),
+            term.column,
+        )
 
     def run_noise(self) -> None:
         """Ask the range of the residual sd until valid and accepted; then save."""
         self.say(f"\nNoise: the scatter of {self.response} around its expected value")
-        last: dict[str, Any] = {}
-        while True:
-            what = f"residual standard deviation of {self.response}{self._units()}"
-            entry = {
-                "low": self.ask(f"Lowest plausible {what}", type=float, default=last.get("low")),
-                "high": self.ask(f"Highest plausible {what}", type=float, default=last.get("high")),
-                "mass": self.ask(
-                    "Probability that it lies in that range",
-                    type=float,
-                    default=last.get("mass", 0.9),
-                ),
-            }
-            last = entry
-            try:
-                candidate = self._candidate("noise", entry)
-            except PriorFileError as exc:
-                self.say(f"not accepted: {exc}")
-                continue
-            noise = feedback.noise_feedback(candidate.noise)
+        what = f"residual standard deviation of {self.response}{self._units()}"
+
+        def show(priors: PriorSet) -> None:
+            noise = feedback.noise_feedback(priors.noise)
             q = noise["quantiles"]
             self.say(
                 f"noise sd: median {noise['median']:.4g}, 90% interval {q['0.05']:.4g} .. "
                 f"{q['0.95']:.4g} (inverse gamma on the variance, shape {noise['shape']:.4g})"
             )
-            if self._accept():
-                self._save(candidate)
-                self.say(f"saved the noise range to {self.out}")
-                return
+
+        self._until_accepted(
+            "noise", lambda last: self._ask_range(what, "it", last or {}), show, "the noise range"
+        )
 
     def run_conditional(self, terms: Sequence[Term]) -> None:
         """Conditional-means questions: the expected response at k reference rows.
@@ -297,37 +299,25 @@ class Interview:
             f"gives a correlated prior on {', '.join(names)}"
         )
         expert = _blank_to_none(self.ask("Expert", type=str, default=self.expert or ""))
-        last: list[dict[str, Any]] = [{} for _ in rows]
-        while True:
+
+        def answer(last: dict[str, Any] | None) -> dict[str, Any]:
             stated = []
             for i, (label, values) in enumerate(rows):
                 self.say(f"row {i + 1}: {label}")
-                what = f"plausible expected {self.response}{self._units()} at row {i + 1}"
-                before = last[i]
-                row = {
-                    "at": values,
-                    "low": self.ask(f"Lowest {what}", type=float, default=before.get("low")),
-                    "high": self.ask(f"Highest {what}", type=float, default=before.get("high")),
-                    "mass": self.ask(
-                        "Probability that it lies in that range",
-                        type=float,
-                        default=before.get("mass", 0.9),
-                    ),
-                }
+                what = f"expected {self.response}{self._units()} at row {i + 1}"
+                before = last["row"][i] if last else {}
+                row = {"at": values, **self._ask_range(what, "it", before)}
                 if expert:
                     row["expert"] = expert
                 stated.append(row)
-            last = stated
-            try:
-                candidate = self._candidate("correlation", {"names": names, "row": stated})
-            except PriorFileError as exc:
-                self.say(f"not accepted: {exc}")
-                continue
-            self.say("\n".join(feedback.format_block(candidate.block)))
-            if self._accept():
-                self._save(candidate)
-                self.say(f"saved the conditional-means prior to {self.out}")
-                return
+            return {"names": names, "row": stated}
+
+        self._until_accepted(
+            "correlation",
+            answer,
+            lambda priors: self.say("\n".join(feedback.format_block(priors.block))),
+            "the conditional-means prior",
+        )
 
     def run(self, terms: Sequence[Term], noise: bool = True, conditional: bool = False) -> PriorSet:
         """Ask every unanswered term (or, with ``conditional``, the conditional-means rows for
