@@ -143,7 +143,8 @@ def build_design(
     if formula is not None:
         from .terms import split_formula
 
-        response, formula, predictors = split_formula(formula, response, predictors)
+        columns = [str(c) for c in frame.columns]
+        response, formula, predictors = split_formula(formula, response, predictors, columns)
     frame, predictors = select_columns(frame, response, predictors, source)
     sub = frame[[response, *predictors]]
     from .terms import is_text

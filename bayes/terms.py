@@ -36,6 +36,7 @@ from .design import _file_row, checked_values
 from .errors import InputError
 
 _TREATMENT = re.compile(r"\[T\.")  # formulaic writes a treatment-coded level as name[T.level]
+_NAME = re.compile(r"`([^`]+)`|([A-Za-z_][A-Za-z0-9_]*)")
 _C_CALL = re.compile(r"^C\(\s*(`[^`]+`|[A-Za-z_][A-Za-z0-9_.]*)\s*\)$")
 
 
@@ -296,7 +297,10 @@ def formula_response(formula: str | None) -> str | None:
 
 
 def split_formula(
-    formula: str, response: str | None, predictors: Sequence[str] | None
+    formula: str,
+    response: str | None,
+    predictors: Sequence[str] | None,
+    columns: Sequence[str] = (),
 ) -> tuple[str, str, list[str]]:
     """Read a model formula: its response, right-hand side and the data columns it uses.
 
@@ -308,6 +312,9 @@ def split_formula(
         Must agree with the formula's left-hand side when both are given.
     predictors : sequence of str, optional
         Must be None: a formula replaces the predictor list.
+    columns : sequence of str
+        The data's columns: any of them named in the formula is a variable (formulaic
+        does not list the variables inside every transform).
 
     Returns
     -------
@@ -316,6 +323,7 @@ def split_formula(
     """
     from formulaic import Formula
     from formulaic.errors import FormulaicError
+    from formulaic.formula import SimpleFormula
 
     if predictors is not None:
         raise InputError("give either --formula or --predictors, not both")
@@ -325,10 +333,10 @@ def split_formula(
         lhs_text, rhs = "", text
     try:
         parsed = Formula(rhs)
-        lhs = Formula(lhs_text).root if lhs_text.strip() else None
+        lhs = Formula(lhs_text) if lhs_text.strip() else None
     except (FormulaicError, SyntaxError, ValueError) as e:
         raise InputError(f"--formula: cannot read '{formula}': {_first_line(e)}") from None
-    if not all(hasattr(parsed, a) for a in ("root", "required_variables")) or "|" in rhs:
+    if not isinstance(parsed, SimpleFormula) or not isinstance(lhs, SimpleFormula | None):
         raise InputError(f"--formula: '{formula}' must have one right-hand side")
     if lhs is not None:
         names = [str(t) for t in lhs if str(t) != "1"]
@@ -342,12 +350,13 @@ def split_formula(
         response = lhs_name
     if not response:
         raise InputError("no response column given (--formula 'y ~ ...', --response, or [study])")
-    if not any(str(t) == "1" for t in parsed.root):
+    if not any(str(t) == "1" for t in parsed):
         raise InputError(
             f"--formula: '{formula}' removes the intercept: the model always has one "
             "(its prior is flat unless the prior file gives one)"
         )
-    return response, rhs, sorted(str(v) for v in parsed.required_variables)
+    named = {m.group(1) or m.group(2) for m in _NAME.finditer(rhs)} & set(columns)
+    return response, rhs, sorted({str(v) for v in parsed.required_variables} | named)
 
 
 def make_terms(
@@ -525,7 +534,7 @@ def _term_key(name: str) -> frozenset | None:
     from formulaic.errors import FormulaicError
 
     try:
-        terms = [t for t in Formula(name).root if str(t) != "1"]
+        terms = [t for t in Formula(name) if str(t) != "1"]
     except (FormulaicError, SyntaxError, ValueError):
         return None
     if len(terms) != 1:
