@@ -135,6 +135,9 @@ class Interview:
             self.doc = {"study": study}
         self.priors = parse_priors(self.doc, str(self.out))
         self.response = response
+        if self.expert is None:  # on resume, the last expert named is the default
+            named = [s.expert for c in self.priors.coefficients for s in c.statements if s.expert]
+            self.expert = named[-1] if named else None
 
     # -------------------------------------------------------------- state
     @property
@@ -159,7 +162,7 @@ class Interview:
 
     def _units(self) -> str:
         u = self.priors.response_units
-        return f" {u}" if u else ""
+        return f" (in {u})" if u else ""
 
     # -------------------------------------------------------------- questions
     def ask_term(self, term: Term, last: Mapping[str, Any]) -> dict[str, Any]:
