@@ -38,14 +38,34 @@ def predict(
         names = result.terms.variables
     else:
         X = predictor_matrix(frame, names, source)
+    table = design_intervals(result.posterior, X, level)
+    return pd.concat([frame[list(names)].reset_index(drop=True), table], axis=1)
+
+
+def design_intervals(posterior, X: np.ndarray, level: float = 0.95) -> pd.DataFrame:
+    """Mean response and intervals at rows of design columns (as the fit coded them).
+
+    Parameters
+    ----------
+    posterior : bayes.posterior.Posterior
+    X : ndarray, shape (m, p)
+        Design columns in natural units, without the intercept.
+    level : float
+        Level of both intervals.
+
+    Returns
+    -------
+    DataFrame
+        Columns ``mean``, ``lower``, ``upper``, ``pred_lower``, ``pred_upper`` (see
+        :func:`predict`), one row per row of ``X``.
+    """
     out = []
     for x in X:
         a = np.concatenate([[1.0], x])
-        mean_dist = result.posterior.marginal(a)
-        pred_dist = result.posterior.marginal(a, noise=True)
+        mean_dist = posterior.marginal(a)
+        pred_dist = posterior.marginal(a, noise=True)
         lo, hi = mean_dist.interval(level)
         plo, phi = pred_dist.interval(level)
         out.append({"mean": mean_dist.mean, "lower": lo, "upper": hi,
                     "pred_lower": plo, "pred_upper": phi})  # fmt: skip
-    table = pd.DataFrame(out)
-    return pd.concat([frame[list(names)].reset_index(drop=True), table], axis=1)
+    return pd.DataFrame(out, columns=["mean", "lower", "upper", "pred_lower", "pred_upper"])

@@ -148,15 +148,29 @@ def _least_squares(result: FitResult):
         return None
 
 
+_LEVEL = re.compile(r".+\[.*\]", re.S)  # a categorical level's indicator column
+
+
 def _units(ctx: _Context, name: str) -> str:
-    """Units of a coefficient: response units per unit of its predictor."""
-    if name == "intercept":
-        return ctx.response_units
-    level = re.fullmatch(r"(.+)\[(.+)\]", name)
-    if level and level.group(1) not in ctx.units:
-        return f"{ctx.response_units} (difference from the reference level)"
-    unit = ctx.units.get(name, f"unit of {name}")
-    return f"{ctx.response_units} per {unit}"
+    """Units of a coefficient: response units per unit of its predictor (or term)."""
+    from .terms import split_term, term_units
+
+    units = term_units(name, ctx.units, ctx.response_units)
+    if name != "intercept" and all(_LEVEL.fullmatch(part) for part in split_term(name)):
+        units += " (difference from the reference level)"
+    return units
+
+
+def _predictor_units(ctx: _Context, name: str) -> str:
+    """Units of a design column: its predictor's, a product for an interaction, '-' unknown."""
+    from .terms import split_term
+
+    parts = [part for part in split_term(name) if not _LEVEL.fullmatch(part)]
+    if not parts:
+        return "indicator (0/1)"
+    if not all(part in ctx.units for part in parts):
+        return "-"
+    return " × ".join(ctx.units[part] for part in parts)
 
 
 def _prior_dist(priors, name: str):
@@ -217,7 +231,7 @@ def _study(ctx: _Context) -> Section:
         ("date of the fit", prov.get("date", not_recorded)),
         ("command line", prov.get("command", not_recorded)),
         ("software", ", ".join(f"{k} {v}" for k, v in versions.items()) or not_recorded),
-        ("random seed", str(seed) if seed is not None else "none (exact computation)"),
+        ("random seed", _seed_text(seed, r.posterior.method)),
         ("computation", f"{r.posterior.method}: {r.posterior.detail}"),
         ("credible level", ctx.level_text),
     ]
@@ -231,6 +245,12 @@ def _study(ctx: _Context) -> Section:
         Table("study", "The study and where the numbers came from", ("item", "value"),
               tuple(rows)),
     ))  # fmt: skip
+
+
+def _seed_text(seed, method: str) -> str:
+    if method == "exact":
+        return "not used (exact computation)"
+    return str(seed) if seed is not None else "not recorded"
 
 
 def _title(r: FitResult) -> str:
@@ -276,7 +296,7 @@ def _data(ctx: _Context) -> Section:
     X = r.data.X if r.data is not None else None
     rows = []
     for j, name in enumerate(names):
-        unit = ctx.units.get(name, "-")
+        unit = _predictor_units(ctx, name)
         lo = _number(X[:, j].min()) if X is not None else "-"
         hi = _number(X[:, j].max()) if X is not None else "-"
         rows.append((name, unit, _number(f.x_mean[j]), _number(sd[j]), lo, hi, fmt(vif[j], 3)))
@@ -360,7 +380,8 @@ def _priors(ctx: _Context) -> Section:
     rows = []
     for name in r.names:
         cp = priors.get(name) if priors is not None else None
-        unit = ctx.units.get(name, f"unit of {name}")
+        unit = _predictor_units(ctx, name)
+        unit = f"unit of {name}" if unit == "-" else unit
         if cp is None or cp.family == "flat":
             in_block = block is not None and name in block.names
             family = "normal (correlated block)" if in_block else "flat"
@@ -448,7 +469,7 @@ def _posterior(ctx: _Context) -> Section:
         sd = row["sd"]
         cells = [row["name"], _units(ctx, row["name"])]
         cells += [fmt_by_sd(row[k], sd) for k in ("mean", "mode")]
-        cells += [fmt(sd, 2)]
+        cells += [fmt_by_sd(sd, sd)]
         cells += [fmt_by_sd(row[k], sd) for k in ("lower", "upper")]
         cells += [_prob(row["p_positive"]), fmt(row["sd_ratio"], 2)]
         for c in extra:
@@ -598,7 +619,7 @@ def _forest_rows(ctx: _Context):
 
 def _residual_blocks(ctx: _Context) -> list[Block]:
     from . import figures as F
-    from .predict import predict
+    from .predict import design_intervals
 
     r = ctx.result
     if r.data is None:
@@ -621,7 +642,7 @@ def _residual_blocks(ctx: _Context) -> list[Block]:
     if len(rows) > PREDICTIVE_ROWS:
         rows = np.sort(np.random.default_rng(0).choice(rows, PREDICTIVE_ROWS, replace=False))
         note = f" (a random {PREDICTIVE_ROWS} of the {len(y)} rows)"
-    table = predict(r, r.data.frame().iloc[rows], r.level, source="the fitted data")
+    table = design_intervals(r.posterior, X[rows], r.level)
     obs = y[rows]
     lo, hi = table["pred_lower"].to_numpy(), table["pred_upper"].to_numpy()
     outside = int(np.sum((obs < lo) | (obs > hi)))

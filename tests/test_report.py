@@ -286,6 +286,40 @@ def test_report_with_a_saved_comparison(demo_fit_dir, tmp_path):
     assert sum(probabilities) == pytest.approx(1.0, abs=2e-3)  # rounded to 3 decimals each
 
 
+def test_report_of_a_formula_fit_with_a_categorical_predictor(tmp_path):
+    frame = pd.read_csv(DEMO / "trial_mix.csv")
+    frame["cement_type"] = (["CEM-A", "CEM-B", "CEM-A", "CEM-C"] * 5)[: len(frame)]
+    data = tmp_path / "cat.csv"
+    frame.to_csv(data, index=False)
+    formula = "strength ~ water_cement + fly_ash + curing_temp + cement_type + fly_ash:curing_temp"
+    res = CliRunner().invoke(
+        main,
+        [
+            "fit",
+            str(data),
+            "--formula",
+            formula,
+            "--priors",
+            str(DEMO / "priors.toml"),
+            "--save",
+            str(tmp_path / "fit"),
+        ],
+    )
+    assert res.exit_code == 0, res.output
+    report = build_report(tmp_path / "fit")
+    assert {f.key for f in report.figures} == {"densities", "forest", "residuals", "predictive"}
+    post = next(b for s in report.sections if s.key == "posterior" for b in s.blocks
+                if b.kind == "table")  # fmt: skip
+    units = {row[0]: row[1] for row in post.rows}
+    assert units["cement_type[CEM-B]"] == "MPa (difference from the reference level)"
+    assert units["fly_ash:curing_temp"] == "MPa per share of binder per degC"
+    data_table = next(b for s in report.sections if s.key == "data" for b in s.blocks
+                      if b.kind == "table" and b.key == "data")  # fmt: skip
+    predictor_units = {row[0]: row[1] for row in data_table.rows}
+    assert predictor_units["fly_ash:curing_temp"] == "share of binder × degC"
+    assert predictor_units["cement_type[CEM-C]"] == "indicator (0/1)"
+
+
 # --------------------------------------------------------------------------- HTML and Markdown
 
 
