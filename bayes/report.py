@@ -928,8 +928,9 @@ def _cautions(ctx: _Context) -> Section:
 # --------------------------------------------------------------------------- appendix
 
 # Kruschke (2021), "Bayesian analysis reporting guidelines", Nature Human Behaviour 5, 1282-1291,
-# Table 1. The preamble and steps 1-2 were checked against the published table; the items of
-# steps 3-6 are from memory.
+# Table 1. The preamble and steps 1A-2D were checked against a copy of the published table; the
+# three items of step 3 against a published walk-through of the guidelines; steps 4-6 (decisions,
+# sensitivity analysis, reproducibility) and their items are from memory.
 BARG_ITEMS = (
     ("Preamble A", "Why Bayesian", "method"),
     ("Preamble B", "Goals of the analysis", "study"),
@@ -976,11 +977,20 @@ BARG_ITEMS = (
         "Decision rule or utilities",
         "not used: cautions (decisions follow codes and professional review)",
     ),
-    ("5A", "Sensitivity analysis of the priors", "sensitivity, figures (width sweep)"),
+    (
+        "5A",
+        "Sensitivity analysis: broad priors, results unchanged by other reasonable priors",
+        "sensitivity (flat-prior limit, family swap), figures (width sweep)",
+    ),
     (
         "5B",
+        "Sensitivity analysis: informed priors, results under differently informed priors",
+        "sensitivity (width sweep, flip points, prior-data conflict, power scaling)",
+    ),
+    (
+        "5C",
         "Sensitivity of Bayes factors to the priors, if used",
-        "comparison of prior sets (when saved)",
+        "comparison of prior sets (when saved; its cautions)",
     ),
     ("6A", "Reproducibility: the computer code", "study (command line, software versions)"),
     (
