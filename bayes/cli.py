@@ -6,6 +6,7 @@ inside the commands so that ``bayes --help`` starts instantly.
 
 from __future__ import annotations
 
+import contextlib
 import functools
 import json
 import sys
@@ -182,6 +183,56 @@ def fit_from_options(data, response, predictors, priors, drop_missing, level, me
     )  # fmt: skip
 
 
+def streamed_fit_from_options(data, response, predictors, priors, formula, reference,
+                              drop_missing, level, fmt, method, chains, draws, warmup, seed,
+                              chunk_rows, engine, scheduler):  # fmt: skip
+    """Fit from a data factor read in chunks (bayes.stream) or by dask (bayes.distributed)."""
+    from .api import fit_factor, load_priors
+    from .errors import InputError
+
+    if formula or reference:
+        raise InputError("--formula and --reference are not available for streamed fits")
+    prior_set = load_priors(priors)
+    response = response or prior_set.response
+    if not response:
+        raise click.UsageError("give --response (or [study] response in the prior file)")
+    with rows_progress(fmt) as progress:
+        if engine == "dask":
+            from .distributed import dask_factor
+
+            streamed = dask_factor(data, response, split_columns(predictors), drop_missing,
+                                   chunk_rows, scheduler, progress)  # fmt: skip
+        else:
+            from .stream import stream_factor
+
+            streamed = stream_factor(data, response, split_columns(predictors), drop_missing,
+                                     chunk_rows, progress)  # fmt: skip
+    return fit_factor(
+        streamed.factor, prior_set, response, level, method, chains, draws, warmup, seed,
+        provenance=provenance(data, seed if method != "exact" else None, streamed.dropped),
+    )  # fmt: skip
+
+
+@contextlib.contextmanager
+def rows_progress(fmt: str):
+    """A progress callable(rows, fraction read) for streamed reads: a bar with rows per
+    second on a terminal's stderr, else None."""
+    if fmt == "json" or not sys.stderr.isatty():
+        yield None
+        return
+    import time
+
+    start = time.perf_counter()
+    with click.progressbar(length=1000, label="reading", file=sys.stderr,
+                           item_show_func=lambda text: text) as bar:  # fmt: skip
+
+        def update(rows: int, fraction: float) -> None:
+            rate = rows / max(time.perf_counter() - start, 1e-9)
+            bar.update(round(1000 * fraction) - bar.pos, f"{rows:,} rows, {rate:,.0f} rows/s")
+
+        yield update
+
+
 def emit(obj: dict, text: str, fmt: str) -> None:
     """Print one JSON object or the text form."""
     if fmt == "json":
@@ -197,12 +248,36 @@ def emit(obj: dict, text: str, fmt: str) -> None:
               help="Store the fit in this folder for report, sweep and predict.")  # fmt: skip
 @click.option("--digits", type=click.IntRange(2, 15), default=7, show_default=True,
               help="Significant digits in the text table.")  # fmt: skip
+@click.option("--stream/--no-stream", default=None,
+              help="Read DATA in chunks, in constant memory "
+              "(default: files over 100 MB).")  # fmt: skip
+@click.option("--chunk-rows", type=click.IntRange(1), metavar="N",
+              help="Rows per chunk (implies --stream; "
+              "default: about 16 MiB of values).")  # fmt: skip
+@click.option("--engine", type=click.Choice(["memory", "dask"]), default="memory",
+              show_default=True,
+              help="dask: compute the data factor on a dask cluster (always streams).")  # fmt: skip
+@click.option("--scheduler", metavar="ADDRESS",
+              help="dask scheduler, e.g. tcp://host:8786 (default: a local cluster).")  # fmt: skip
 def fit_command(data, response, predictors, priors, formula, reference, drop_missing, level, fmt,
-                method, chains, draws, warmup, seed, save_dir, digits):  # fmt: skip
+                method, chains, draws, warmup, seed, save_dir, digits, stream, chunk_rows, engine,
+                scheduler):  # fmt: skip
     """Fit the model to DATA (CSV or Parquet) and print the posterior table."""
-    result = fit_from_options(data, response, predictors, priors, drop_missing, level, method,
-                              chains, draws, warmup, seed, formula=formula,
-                              reference=reference)  # fmt: skip
+    from .errors import InputError
+    from .stream import should_stream
+
+    if scheduler and engine != "dask":
+        raise InputError("--scheduler is for --engine dask")
+    if chunk_rows is not None and stream is None:
+        stream = True  # --chunk-rows implies --stream
+    if engine == "dask" or should_stream(data, stream):
+        result = streamed_fit_from_options(data, response, predictors, priors, formula, reference,
+                                           drop_missing, level, fmt, method, chains, draws,
+                                           warmup, seed, chunk_rows, engine, scheduler)  # fmt: skip
+    else:
+        result = fit_from_options(data, response, predictors, priors, drop_missing, level, method,
+                                  chains, draws, warmup, seed, formula=formula,
+                                  reference=reference)  # fmt: skip
     if save_dir:
         from .store import save_fit
 

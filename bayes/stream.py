@@ -224,7 +224,8 @@ def _csv_chunks(path: Path, chunk_rows: int) -> Iterator[tuple[pd.DataFrame, flo
                     return
                 except READ_ERRORS as e:
                     raise unreadable(path, e) from None
-                yield frame, min(fh.tell() / size, 1.0)
+                if len(frame):  # a header-only file gives one empty chunk
+                    yield frame, min(fh.tell() / size, 1.0)
 
 
 def _parquet_chunks(
