@@ -45,8 +45,8 @@ from .stream import (
     to_factor,
 )
 
-# LocalCluster settings when no --scheduler is given (dask's defaults, quiet, no dashboard).
-LOCAL_CLUSTER = {"silence_logs": logging.ERROR, "dashboard_address": None}
+# LocalCluster settings without --scheduler: dask's defaults, quiet, HTTP on a free port.
+LOCAL_CLUSTER = {"silence_logs": logging.ERROR, "dashboard_address": ":0"}
 CONNECT_TIMEOUT = 10.0  # seconds to wait for a --scheduler
 
 
