@@ -22,7 +22,7 @@ def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
     the report.
     """
     from .api import fit
-    from .cli import provenance
+    from .cli import fit_command, provenance
     from .design import read_table
     from .render import outputs_text, write_report
     from .report import report_from_result
@@ -32,9 +32,11 @@ def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
     data, priors = demo_path("trial_mix.csv"), demo_path("priors.toml")
     out.mkdir(parents=True, exist_ok=True)
     echo("Demo study (INVENTED data and experts): trial mix programme, 18 batches.")
-    result = fit(
-        read_table(data), priors=priors, source=data.name, provenance=provenance(str(data))
-    )
+    # The sampler settings of `bayes fit` itself, so that the demo prints what the command would.
+    settings = {p.name: p.default for p in fit_command.params
+                if p.name in ("chains", "draws", "warmup", "seed")}  # fmt: skip
+    result = fit(read_table(data), priors=priors, source=data.name, **settings,
+                 provenance=provenance(str(data), settings["seed"]))  # fmt: skip
     save_fit(result, out / "fit")
     echo(result.text())
     echo(f"Saved the fit in {out / 'fit'}/")
