@@ -16,7 +16,7 @@ import numpy as np
 
 from .problem import DataFactor
 
-_BLOCK = 1024  # rows per leaf of the tall-skinny QR below (a leaf of <= 128 columns fits cache)
+_BLOCK = 1024  # rows per leaf of the tall-skinny QR below (used for up to 256 columns)
 
 
 @functools.cache
@@ -45,7 +45,7 @@ def _triangular(M: np.ndarray) -> np.ndarray:
     a long matrix, which streams it from memory once per column).
     """
     k = M.shape[1]
-    while M.shape[0] > 2 * _BLOCK and 8 * k <= _BLOCK:
+    while M.shape[0] > 2 * _BLOCK and 4 * k <= _BLOCK:
         m = M.shape[0] // _BLOCK * _BLOCK
         with _one_blas_thread():
             leaves = np.linalg.qr(np.ascontiguousarray(M[:m]).reshape(-1, _BLOCK, k), mode="r")
