@@ -377,3 +377,60 @@ def compare_command(data, priors, response, predictors, formula, reference, drop
     emit(comparison.to_dict(), comparison.text(), fmt)
     if save_dir and fmt == "text":
         click.echo(f"Saved the comparison in {Path(save_dir) / 'compare.json'}")
+
+
+@main.command("sweep")
+@model_options
+@click.option("--coefficient", "coefficients", multiple=True, metavar="NAME",
+              help="Widen only this coefficient's prior (repeatable; default: every "
+              "informative prior).")  # fmt: skip
+@click.option("--expert", metavar="NAME",
+              help="Widen only this expert's statements (pooled again).")  # fmt: skip
+@click.option("--threshold", "thresholds", multiple=True, metavar="EXPR",
+              help="A conclusion to follow, e.g. 'water_cement<-40' (repeatable).")  # fmt: skip
+@click.option("--factors", "n_factors", type=int, default=30, show_default=True,
+              help="Log-spaced width factors (1, as stated, is added).")  # fmt: skip
+@click.option("--min-factor", type=float, default=0.125, show_default=True)
+@click.option("--max-factor", type=float, default=8.0, show_default=True)
+@click.option("--conclusion-level", type=float, default=0.95, show_default=True,
+              help="Posterior probability at which a conclusion holds.")  # fmt: skip
+@click.option("--family-swap/--no-family-swap", default=True, show_default=True,
+              help="Also read the ranges as normal, Laplace and Student-t.")  # fmt: skip
+@click.option("--chains", type=click.IntRange(1), default=4, show_default=True,
+              help="Sampler chains (Laplace/Student-t priors and the family swap).")  # fmt: skip
+@click.option("--draws", type=click.IntRange(10), default=1000, show_default=True)
+@click.option("--warmup", type=click.IntRange(0), default=500, show_default=True)
+@click.option("--seed", type=int, default=20261201, show_default=True)
+@click.option("--save", "save_dir", type=click.Path(file_okay=False),
+              help="Write FIT_DIR/sweep.json (read by bayes report).")  # fmt: skip
+@click.option("--plot", "plot_file", type=click.Path(dir_okay=False),
+              help="Write the sweep chart (PNG, SVG or PDF).")  # fmt: skip
+def sweep_command(data, response, predictors, priors, formula, reference, drop_missing, level,
+                  fmt, coefficients, expert, thresholds, n_factors, min_factor, max_factor,
+                  conclusion_level, family_swap, chains, draws, warmup, seed, save_dir,
+                  plot_file):  # fmt: skip
+    """Sensitivity of the posterior to the prior widths: sweep, flips, conflict checks."""
+    from .api import load_priors
+    from .errors import InputError
+    from .sensitivity import default_factors, save_sweep, sweep_design
+
+    if priors is None:
+        raise InputError("bayes sweep needs --priors: there is nothing to widen without them")
+    prior_set = load_priors(priors)
+    design = design_from_options(data, response, predictors, prior_set, drop_missing, formula,
+                                 reference)  # fmt: skip
+    result = sweep_design(
+        design, prior_set, factors=default_factors(n_factors, min_factor, max_factor),
+        columns=list(coefficients) or None, expert=expert, thresholds=thresholds, level=level,
+        conclusion_level=conclusion_level, family_swap=family_swap, chains=chains, draws=draws,
+        warmup=warmup, seed=seed,
+    )  # fmt: skip
+    if save_dir:
+        save_sweep(result, save_dir)
+    if plot_file:
+        from .sweep_plot import plot_sweep
+
+        plot_sweep(result, plot_file)
+    emit(result.to_dict(), result.text(), fmt)
+    if fmt == "text" and save_dir:
+        click.echo(f"Saved the sweep in {Path(save_dir) / 'sweep.json'}")

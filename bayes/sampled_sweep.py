@@ -8,7 +8,9 @@ geometric midpoints. At any other factor the draws of the nearest sampled factor
 (in log factor) are importance-weighted by the ratio of the two prior densities,
 so means, intervals and conclusion probabilities are smooth functions of the
 factor between sampled points, which lets flip points be found by root finding.
-Values whose effective sample size falls below :data:`MIN_ESS` are left out.
+Values whose importance weights leave fewer than :data:`MIN_ESS` effective draws
+are left out; the sampler's own effective sample size (arviz, smallest over the
+coefficients) is reported per sampled factor.
 """
 
 from __future__ import annotations
@@ -132,11 +134,17 @@ class SampledEngine:
         targets[np.argmin(np.abs(targets))] = 0.0
         self.sampled = np.unique([grid[np.argmin(np.abs(lg - t))] for t in targets])
         self.runs = {}
-        for fs in self.sampled:
-            from .gibbs import sample
+        chain_ess = []
+        import arviz
 
+        from .gibbs import sample
+
+        for fs in self.sampled:
             out = sample(factor, self.prior_at(fs), chains=chains, draws=draws, warmup=warmup,
                          seed=seed)  # fmt: skip
+            nat_chains = to_natural(factor, out.gamma)
+            ess = [float(arviz.ess(nat_chains[:, :, j])) for j in range(k)]
+            chain_ess.append(min(ess) if chains > 1 or draws > 3 else float("nan"))
             gamma = out.gamma.reshape(-1, k)
             self.runs[float(fs)] = (gamma, out.sigma.reshape(-1), to_natural(factor, gamma),
                                     log_prior_density(self.prior_at(fs), gamma))  # fmt: skip
@@ -159,7 +167,8 @@ class SampledEngine:
             f"sampled sweep: values whose importance weights leave fewer than {MIN_ESS:g} "
             "effective draws are not reported; flip points carry Monte Carlo error."
         ]
-        self.extra = {"sampled_factors": [float(f) for f in self.sampled]}
+        self.extra = {"sampled_factors": [float(f) for f in self.sampled],
+                      "sampler_ess": chain_ess}  # fmt: skip
 
     def prior_at(self, f: float) -> ScaledPrior:
         f = float(f)

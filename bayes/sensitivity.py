@@ -637,26 +637,28 @@ def _sentence(c: Conclusion, level: float, factors: np.ndarray) -> str:
     )
 
 
-def _conclusions(engine, mixes, flat_mix, names, response, thresholds, factors, level):
-    targets = []
+def _conclusions(engine, mixes, flat_mix, p_positive, names, response, thresholds, factors,
+                 level):  # fmt: skip
+    """Sign conclusions for every slope, then the thresholds; ``p_positive`` is (F + 1, k)."""
     i1 = int(np.flatnonzero(factors == 1.0)[0])
+    targets = []
     for j, name in enumerate(names):
         if name == "intercept":
             continue
-        pos = float(mixes[i1].sf(np.zeros(len(names)))[j])
-        if pos >= 0.5:
-            targets.append((j, "sign", ">", 0.0, f"{name} raises {response}"))
+        if p_positive[i1, j] >= 0.5:
+            targets.append((j, "sign", ">", 0.0, f"{name} raises {response}", p_positive[:, j]))
         else:
-            targets.append((j, "sign", "<", 0.0, f"{name} lowers {response}"))
+            targets.append((j, "sign", "<", 0.0, f"{name} lowers {response}",
+                            1.0 - p_positive[:, j]))  # fmt: skip
     for t in thresholds:
-        targets.append((names.index(t.name), "threshold", t.op, t.value, t.text))
+        j = names.index(t.name)
+        probs = [math.nan if m is None else _prob(m, j, t.op, t.value) for m in [*mixes, flat_mix]]
+        targets.append((j, "threshold", t.op, t.value, t.text, np.array(probs)))
     out = []
-    for j, kind, op, value, statement in targets:
-        probs = np.array([_prob(m, j, op, value) for m in mixes])
-        flat = _prob(flat_mix, j, op, value) if flat_mix is not None else math.nan
-        narrower, wider = _follow(engine, factors, probs, j, op, value, level)
-        c = Conclusion(names[j], kind, op, value, statement, np.append(probs, flat),
-                       float(probs[i1]), narrower, wider, "")  # fmt: skip
+    for j, kind, op, value, statement, probs in targets:
+        narrower, wider = _follow(engine, factors, probs[:-1], j, op, value, level)
+        c = Conclusion(names[j], kind, op, value, statement, probs, float(probs[i1]), narrower,
+                       wider, "")  # fmt: skip
         out.append(Conclusion(**{**c.__dict__, "sentence": _sentence(c, level, factors)}))
     return out
 
@@ -747,6 +749,12 @@ def sweep(
 
         engine = SampledEngine(factor, priors, columns, expert, grid, chains, draws, warmup, seed)
     mixes = [engine.at(float(f)) for f in grid]
+    extra = dict(getattr(engine, "extra", {}))
+    if engine.method == "sampled":
+        from .sampled_sweep import MIN_ESS
+
+        extra["ess"] = [m.ess for m in mixes]
+        mixes = [m if m.ess >= MIN_ESS else None for m in mixes]
     flat_mix, flat_note = engine.flat()
     notes = [] if flat_note is None else [flat_note]
     notes += getattr(engine, "notes", [])
@@ -755,28 +763,34 @@ def sweep(
     ratios, shares = engine.dominance(names, priors)
     modes = getattr(engine, "modes", None)
     every = [*mixes, flat_mix]
+    nan = np.full(len(names), np.nan)
+    table = {  # statistic -> (F + 1, k): each computed once per factor for every coefficient
+        key: np.array([nan if m is None else fn(m) for m in every])
+        for key, fn in (
+            ("mean", lambda m: m.mean),
+            ("sd", lambda m: m.sd),
+            ("lower", lambda m: m.quantile(a)),
+            ("upper", lambda m: m.quantile(1 - a)),
+            ("p_positive", lambda m: m.sf(np.zeros(len(names)))),
+        )
+    }
     for j, name in enumerate(names):
-
-        def col(fn, j=j):
-            return np.array([np.nan if m is None else fn(m)[j] for m in every])
-
         rows.append(CoefficientSweep(
             name, prior_text(priors.get(name)) if name not in _block(priors) else "correlated",
-            name in swept, col(lambda m: m.mean), col(lambda m: m.sd),
-            col(lambda m: m.quantile(a)), col(lambda m: m.quantile(1 - a)),
-            col(lambda m: m.sf(np.zeros(len(names)))),
+            name in swept, *(table[key][:, j] for key in ("mean", "sd", "lower", "upper",
+                                                          "p_positive")),
             None if modes is None else modes[:, j], ratios[j], shares[j],
             _prior_interval(priors, name, level),
         ))  # fmt: skip
-    conclusions = _conclusions(engine, mixes, flat_mix, names, response, thresholds, grid,
-                               conclusion_level)  # fmt: skip
+    conclusions = _conclusions(engine, mixes, flat_mix, table["p_positive"], names, response,
+                               thresholds, grid, conclusion_level)  # fmt: skip
     conflict, power = engine.checks(priors)
     swap = _family_swap(factor, priors, level, chains, draws, warmup, seed) if family_swap else None
     units = {"response": priors.response_units, **dict(priors.units)}
     return SweepResult(
         response, units, grid, level, conclusion_level, engine.method, engine.detail, selection,
         tuple(rows), tuple(conclusions), tuple(c.sentence for c in conclusions), conflict, power,
-        swap, tuple(notes), getattr(engine, "extra", {}),
+        swap, tuple(notes), extra,
     )  # fmt: skip
 
 
