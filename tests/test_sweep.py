@@ -371,3 +371,38 @@ def test_family_swap_normal_reading_equals_the_stated_fit(demo_factor, demo_prio
         if c.name == "water_cement":
             assert row["laplace"]["prior"].startswith("laplace(")
             assert row["student_t"]["prior"].startswith("student_t(")
+
+
+def test_dominance_measures(demo_factor, demo_priors):
+    # One predictor, known noise: the normal-normal update (common practice, no source):
+    # posterior precision = 1/tau^2 + Sxx/sigma^2, and both measures equal the prior's share.
+    rng = np.random.default_rng(3)
+    x = rng.uniform(0, 4, 12)
+    y = 1 + 0.5 * x + rng.standard_normal(12)
+    factor = factor_from_arrays(x[:, None], y, ["x"])
+    priors = parse_priors(
+        {"noise": {"sd": 1.0}, "coefficient": [{"name": "x", "center": 0.0, "scale": 0.3}]}
+    )
+    c = sweep(factor, priors, factors=[0.5, 2.0], family_swap=False).coefficients[1]
+    sxx = float(np.sum((x - x.mean()) ** 2))
+    share = (1 / 0.3**2) / (1 / 0.3**2 + sxx)
+    assert c.variance_ratio == pytest.approx(share, rel=1e-12)
+    assert c.prior_share == pytest.approx(share, rel=1e-12)
+    # Several predictors: the prior share is the derivative of the posterior mean with respect
+    # to the prior centre; with known noise the mean is linear in the centre.
+    priors = with_noise(demo_priors, "known")
+    result = sweep(demo_factor, priors, factors=[0.5, 2.0], family_swap=False)
+    base = refit(demo_factor, priors).mean
+    for j, c in enumerate(result.coefficients):
+        cp = priors.get(c.name)
+        if cp is None:
+            assert c.prior_share is None and c.variance_ratio is None
+            continue
+        moved = dataclasses.replace(
+            priors,
+            coefficients=tuple(dataclasses.replace(k, center=k.center + cp.scale)
+                               if k is cp else k for k in priors.coefficients),
+        )  # fmt: skip
+        slope = (refit(demo_factor, moved).mean[j] - base[j]) / cp.scale
+        assert c.prior_share == pytest.approx(slope, rel=1e-9)
+        assert 0 < c.variance_ratio < 1
