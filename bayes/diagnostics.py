@@ -1,0 +1,145 @@
+"""Convergence diagnostics and the labelled draws container, both from arviz.
+
+arviz is imported inside the functions so that the command line starts fast.
+"""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+R_HAT_MAX = 1.01  # split R-hat above this: chains disagree (Vehtari et al., 2021)
+ESS_MIN = 400  # bulk or tail effective sample size below this: too few (Vehtari et al., 2021)
+
+
+def _arviz():
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", FutureWarning)  # arviz announces its refactor on import
+        import arviz
+
+    return arviz
+
+
+@dataclass(frozen=True)
+class DrawSummary:
+    """Per-quantity convergence diagnostics.
+
+    Attributes
+    ----------
+    names : tuple of str, length k
+        The coefficients, then "sigma" when the noise was sampled.
+    r_hat : ndarray, shape (k,)
+        Rank-normalised split R-hat.
+    ess_bulk, ess_tail : ndarray, shape (k,)
+        Bulk and tail effective sample sizes (draws).
+    """
+
+    names: tuple[str, ...]
+    r_hat: np.ndarray
+    ess_bulk: np.ndarray
+    ess_tail: np.ndarray
+
+    def warnings(self) -> list[str]:
+        """One sentence per quantity with R-hat > 1.01 or bulk/tail ESS < 400."""
+        out = []
+        for name, r, eb, et in zip(
+            self.names, self.r_hat, self.ess_bulk, self.ess_tail, strict=True
+        ):
+            if r > R_HAT_MAX:
+                out.append(f"{name}: R-hat {r:.3f} > {R_HAT_MAX} (chains disagree; draw more)")
+            if min(eb, et) < ESS_MIN:
+                out.append(
+                    f"{name}: effective sample size {min(eb, et):.0f} < {ESS_MIN} "
+                    "(bulk/tail; draw more)"
+                )
+        return out
+
+
+def _dataset(arviz, gamma: np.ndarray, sigma: np.ndarray | None, names: Sequence[str]):
+    data = {"beta": np.asarray(gamma, dtype=float)}
+    if sigma is not None:
+        data["sigma"] = np.asarray(sigma, dtype=float)
+    return arviz.convert_to_dataset(
+        data, coords={"coefficient": list(names)}, dims={"beta": ["coefficient"]}
+    )
+
+
+def summarize_draws(
+    gamma_natural: np.ndarray, sigma: np.ndarray, names: Sequence[str]
+) -> DrawSummary:
+    """R-hat and bulk/tail effective sample sizes per coefficient (and sigma), from arviz.
+
+    Parameters
+    ----------
+    gamma_natural : ndarray, shape (chains, draws, k)
+        Coefficient draws in natural units, intercept first.
+    sigma : ndarray, shape (chains, draws)
+        Noise sd draws; left out of the summary when constant (known noise).
+    names : sequence of str, length k
+        Coefficient names ("intercept" first).
+
+    Returns
+    -------
+    DrawSummary
+    """
+    az = _arviz()
+    sampled = bool(np.ptp(sigma) > 0)
+    ds = _dataset(az, gamma_natural, sigma if sampled else None, names)
+    r_hat = az.rhat(ds)
+    bulk = az.ess(ds, method="bulk")
+    tail = az.ess(ds, method="tail")
+
+    def column(res) -> np.ndarray:
+        parts = [res["beta"].values]
+        if sampled:
+            parts.append(np.atleast_1d(res["sigma"].values))
+        return np.concatenate(parts)
+
+    labels = (*names, "sigma") if sampled else tuple(names)
+    return DrawSummary(labels, column(r_hat), column(bulk), column(tail))
+
+
+def to_inference_data(
+    gamma_natural: np.ndarray,
+    sigma: np.ndarray,
+    names: Sequence[str],
+    prior_gamma: np.ndarray | None = None,
+    prior_sigma: np.ndarray | None = None,
+    observed: np.ndarray | None = None,
+):
+    """Posterior (and prior, observed) draws as an arviz InferenceData.
+
+    The coefficients are the variable ``beta`` with dimensions
+    ``(chain, draw, coefficient)``, the coefficient coordinate holding the
+    column names ("intercept" first); the noise sd is the variable ``sigma``.
+    Save with ``.to_netcdf(path)``.
+
+    Parameters
+    ----------
+    gamma_natural : ndarray, shape (chains, draws, k)
+        Posterior coefficient draws in natural units.
+    sigma : ndarray, shape (chains, draws)
+    names : sequence of str, length k
+    prior_gamma, prior_sigma : ndarray, optional
+        Prior draws, same shapes (nan where the prior is flat).
+    observed : ndarray, shape (n,), optional
+        The response, stored as ``y`` in the observed_data group.
+
+    Returns
+    -------
+    arviz.InferenceData
+    """
+    az = _arviz()
+    groups = {"posterior": {"beta": np.asarray(gamma_natural), "sigma": np.asarray(sigma)}}
+    if prior_gamma is not None:
+        groups["prior"] = {"beta": np.asarray(prior_gamma)}
+        if prior_sigma is not None:
+            groups["prior"]["sigma"] = np.asarray(prior_sigma)
+    dims = {"beta": ["coefficient"]}
+    if observed is not None:
+        groups["observed_data"] = {"y": np.asarray(observed, dtype=float)}
+        dims["y"] = ["observation"]
+    return az.from_dict(**groups, coords={"coefficient": list(names)}, dims=dims)
