@@ -26,7 +26,7 @@ from __future__ import annotations
 import json
 import math
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
@@ -36,6 +36,7 @@ from .conflict import power_scaling_exact, prior_data_conflict
 from .errors import InputError
 from .exact import exact_posterior
 from .problem import DataFactor
+from .result import FitResult
 from .scaled import scaled_prior
 from .summary import prior_text
 from .sweep_plot import plot_sweep  # noqa: F401  (public: bayes.sensitivity.plot_sweep)
@@ -415,8 +416,6 @@ def flat_limit(priors, columns=None, expert=None):
     experts' statements (exactly so for normal pools); a linear pool widens without bound
     and becomes flat.
     """
-    from dataclasses import replace
-
     from elicit.pool import pool
     from elicit.spec import CorrelatedBlock
 
@@ -659,7 +658,7 @@ def _conclusions(engine, mixes, flat_mix, p_positive, names, response, threshold
         narrower, wider = _follow(engine, factors, probs[:-1], j, op, value, level)
         c = Conclusion(names[j], kind, op, value, statement, probs, float(probs[i1]), narrower,
                        wider, "")  # fmt: skip
-        out.append(Conclusion(**{**c.__dict__, "sentence": _sentence(c, level, factors)}))
+        out.append(replace(c, sentence=_sentence(c, level, factors)))
     return out
 
 
@@ -667,7 +666,7 @@ def _conclusions(engine, mixes, flat_mix, p_positive, names, response, threshold
 
 
 def sweep(
-    fit,
+    fit: FitResult | DataFactor,
     priors=None,
     response: str | None = None,
     *,

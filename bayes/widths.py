@@ -227,6 +227,11 @@ class WidthPath:
 
     def log_density(self, u: float, lam: float, alpha: float = 1.0) -> float:
         """log p(log sigma = u | y) up to a constant, the likelihood raised to ``alpha``."""
+        with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+            # far out in the quadrature's search the value is -inf or nan: it is never chosen
+            return self._log_density(u, lam, alpha)
+
+    def _log_density(self, u: float, lam: float, alpha: float) -> float:
         s2 = np.exp(2 * u)
         se2 = s2 / alpha  # the Gaussian part of likelihood**alpha is that at sigma / sqrt(alpha)
         ss = self.s**2
