@@ -42,6 +42,12 @@ class DrawSummary:
     ess_bulk: np.ndarray
     ess_tail: np.ndarray
 
+    def __getitem__(self, key: str) -> np.ndarray:
+        """``summary["r_hat"]`` etc.: the same arrays by name."""
+        if key not in ("r_hat", "ess_bulk", "ess_tail"):
+            raise KeyError(key)
+        return getattr(self, key)
+
     def warnings(self) -> list[str]:
         """One sentence per quantity with R-hat > 1.01 or bulk/tail ESS < 400."""
         out = []
