@@ -359,8 +359,10 @@ def compare_command(data, priors, response, predictors, formula, reference, drop
                     save_dir, method, chains, draws, warmup, seed):  # fmt: skip
     """Compare prior files on DATA: evidence, Bayes factors, leave-one-out prediction."""
     from .api import load_priors
-    from .compare import compare_priors
+    from .compare import compare_path, compare_priors
 
+    if save_dir:
+        compare_path(save_dir)  # a bad folder fails before the work
     prior_sets = [load_priors(p) for p in priors]
     design = design_from_options(data, response, predictors, prior_sets[0], drop_missing, formula,
                                  reference)  # fmt: skip
