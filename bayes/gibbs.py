@@ -39,6 +39,10 @@ from scipy import linalg
 from .likelihood import check_prior, data_rows, residual_ss
 from .problem import DataFactor, ScaledPrior
 
+_geqrf, _geqrf_lwork, _trtrs = linalg.get_lapack_funcs(
+    ("geqrf", "geqrf_lwork", "trtrs"), (np.empty((1, 1)),)
+)
+
 
 @dataclass(frozen=True)
 class Draws:
@@ -100,6 +104,7 @@ class _Model:
     template: np.ndarray  # stacked rows [A, b; P, P mu; mixing rows], (rows, k + 1)
     n_data: int  # number of data rows at the top of the template
     prior_prec: np.ndarray  # (k,) diagonal prior precision of the Gaussian part (bcm route)
+    lwork: int  # LAPACK workspace for the QR of the template
 
 
 def _model(factor: DataFactor, prior: ScaledPrior) -> _Model:
@@ -124,21 +129,35 @@ def _model(factor: DataFactor, prior: ScaledPrior) -> _Model:
     else:
         route = "stacked"
     loc = np.where(fam == "flat", 0.0, prior.mean)
-    return _Model(factor, prior, k, loc, lap, stu, mix, route, template, A.shape[0], np.diag(gram))
+    lwork = int(_geqrf_lwork(*template.shape)[0])
+    return _Model(
+        factor, prior, k, loc, lap, stu, mix, route, template, A.shape[0], np.diag(gram), lwork
+    )
+
+
+def _solve_stacked(S: np.ndarray, k: int, z: np.ndarray, lwork: int) -> np.ndarray:
+    """``T^-1 (Q' t + z)`` for ``[M, t] = Q [T, Q't]``: the mean plus ``T^-1 z``.
+
+    ``S = [M, t]`` (Fortran order, overwritten) has k + 1 columns; z is (k,) or
+    (k, draws). LAPACK is called directly: this runs once per sweep.
+    """
+    qr, _, _, info = _geqrf(S, lwork=lwork, overwrite_a=True)
+    rhs = qr[:k, k, None] + (z if z.ndim == 2 else z[:, None])
+    x, info = _trtrs(qr[:k, :k], rhs, overwrite_b=True)
+    if info != 0:
+        raise FloatingPointError("singular conditional precision: the posterior is improper")
+    return x if z.ndim == 2 else x[:, 0]
 
 
 def _draw_stacked(model: _Model, rng, sigma: float, prec: np.ndarray) -> np.ndarray:
     """gamma | sigma, mixing precisions: QR of the stacked rows, one triangular solve."""
-    S = model.template.copy()
+    S = model.template.copy(order="F")
     S[: model.n_data] /= sigma
     root = np.sqrt(prec)
     rows = S.shape[0] - len(model.mix) + np.arange(len(model.mix))
     S[rows, model.mix] = root
     S[rows, -1] = root * model.loc[model.mix]
-    (R,) = linalg.qr(S, mode="r", overwrite_a=True, check_finite=False)
-    k = model.k
-    z = rng.standard_normal(k)
-    return linalg.solve_triangular(R[:k, :k], R[:k, k] + z, check_finite=False)
+    return _solve_stacked(S, model.k, rng.standard_normal(model.k), model.lwork)
 
 
 def _draw_bcm(
@@ -179,13 +198,16 @@ def _draw_gamma_bcm(model: _Model, rng, sigma: float, prec: np.ndarray) -> np.nd
 def _draw_mixing(model: _Model, rng, gamma: np.ndarray) -> np.ndarray:
     """Precisions 1 / tau_j^2 of the Laplace then Student-t coordinates, given gamma."""
     prior = model.prior
-    b = prior.scale[model.lap]
-    d_lap = np.maximum(np.abs(gamma[model.lap] - model.loc[model.lap]), 1e-100 * b)
-    lap = inverse_gaussian(rng, 1.0 / (b * d_lap), 1.0 / b**2)
-    df, s = prior.df[model.stu], prior.scale[model.stu]
-    d_stu = gamma[model.stu] - model.loc[model.stu]
-    stu = rng.gamma((df + 1) / 2) / ((df * s**2 + d_stu**2) / 2)
-    return np.concatenate([lap, stu])
+    parts = []
+    if len(model.lap):
+        b = prior.scale[model.lap]
+        d = np.maximum(np.abs(gamma[model.lap] - model.loc[model.lap]), 1e-100 * b)
+        parts.append(inverse_gaussian(rng, 1.0 / (b * d), 1.0 / b**2))
+    if len(model.stu):
+        df, s = prior.df[model.stu], prior.scale[model.stu]
+        d = gamma[model.stu] - model.loc[model.stu]
+        parts.append(rng.gamma((df + 1) / 2) / ((df * s**2 + d**2) / 2))
+    return np.concatenate(parts) if parts else np.empty(0)
 
 
 def _initial_mixing(model: _Model, rng) -> np.ndarray:
@@ -203,12 +225,10 @@ def _run_chain(model: _Model, rng, draws: int, warmup: int, tick: Callable[[int]
     gamma_out = np.empty((draws, model.k))
     sigma_out = np.empty(draws)
     if model.route == "fixed":
-        S = model.template.copy()
+        S = model.template.copy(order="F")
         S[: model.n_data] /= noise.sd
-        (R,) = linalg.qr(S, mode="r", overwrite_a=True, check_finite=False)
-        k = model.k
-        z = rng.standard_normal((k, draws))
-        gamma_out[:] = linalg.solve_triangular(R[:k, :k], R[:k, k, None] + z).T
+        z = rng.standard_normal((model.k, draws))
+        gamma_out[:] = _solve_stacked(S, model.k, z, model.lwork).T
         sigma_out[:] = noise.sd
         tick(warmup + draws)
         return gamma_out, sigma_out
