@@ -146,18 +146,24 @@ def density_figure(panels: Sequence[DensityPanel]) -> bytes:
             else:
                 ax.text(0.02, 0.95, "flat prior", transform=ax.transAxes, va="top",
                         color=PRIOR, fontsize=8)  # fmt: skip
+            # One bar per statement under the axis; with several experts each bar is named
+            # (text above its left end, inside the panel) and the bars are spaced for it.
+            named = len(panel.stated) > 1
+            step = (0.14 if named else 0.06) * top
             for i, (label, low, high) in enumerate(panel.stated):
-                y = -0.06 * top * (i + 1)
+                y = -step * (i + 1) + (0.04 * top if named else 0.0)
                 ax.plot([low, high], [y, y], color=STATED, lw=3.5, solid_capstyle="butt",
                         label="stated range" if i == 0 else None)  # fmt: skip
-                if label and len(panel.stated) > 1:
-                    ax.annotate(label, (high, y), xytext=(3, 0), textcoords="offset points",
-                                va="center", fontsize=7, color=STATED)  # fmt: skip
+                if named and label:
+                    ax.annotate(label, (max(low, panel.x[0]), y), xytext=(0, 2.5),
+                                textcoords="offset points", ha="left", va="bottom",
+                                fontsize=6.5, color=STATED, annotation_clip=True)  # fmt: skip
             if panel.least_squares is not None:
                 ax.axvline(panel.least_squares, color=LEAST_SQUARES, ls=":", lw=1.6,
                            label="least squares (flat prior)")  # fmt: skip
-            bottom = -0.06 * top * (len(panel.stated) + 1) if panel.stated else 0.0
+            bottom = -step * (len(panel.stated) + 0.6) if panel.stated else 0.0
             ax.set_ylim(bottom, top * 1.08)
+            ax.set_yticks([t for t in ax.get_yticks() if 0 <= t <= top * 1.08])
             ax.set_xlim(panel.x[0], panel.x[-1])
             ax.set_title(panel.name)
             ax.set_xlabel(panel.units)
