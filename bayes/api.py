@@ -131,4 +131,11 @@ def fit_factor(
     if method == "exact":
         posterior = exact_posterior(factor, scaled)
         return make_result(response, factor, priors, posterior, level, data, provenance)
-    raise InputError("sampling (--method sample) is not available in this build")
+    from .sampled import sampled_posterior
+
+    posterior, columns, notes, inference = sampled_posterior(
+        factor, scaled, chains, draws, warmup, seed, progress
+    )
+    return make_result(
+        response, factor, priors, posterior, level, data, provenance, notes, columns, inference
+    )

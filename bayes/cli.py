@@ -207,10 +207,12 @@ def streamed_fit_from_options(data, response, predictors, priors, formula, refer
 
             streamed = stream_factor(data, response, split_columns(predictors), drop_missing,
                                      chunk_rows, progress)  # fmt: skip
-    return fit_factor(
-        streamed.factor, prior_set, response, level, method, chains, draws, warmup, seed,
-        provenance=provenance(data, seed if method != "exact" else None, streamed.dropped),
-    )  # fmt: skip
+    with progress_bar(fmt, "sampling") as progress:
+        return fit_factor(
+            streamed.factor, prior_set, response, level, method, chains, draws, warmup, seed,
+            progress, provenance=provenance(data, seed if method != "exact" else None,
+                                            streamed.dropped),
+        )  # fmt: skip
 
 
 @contextlib.contextmanager
@@ -229,6 +231,21 @@ def rows_progress(fmt: str):
         def update(rows: int, fraction: float) -> None:
             rate = rows / max(time.perf_counter() - start, 1e-9)
             bar.update(round(1000 * fraction) - bar.pos, f"{rows:,} rows, {rate:,.0f} rows/s")
+
+        yield update
+
+
+@contextlib.contextmanager
+def progress_bar(fmt: str, label: str):
+    """A progress callable(done, total) drawing a bar on a terminal's stderr, else None."""
+    if fmt == "json" or not sys.stderr.isatty():
+        yield None
+        return
+    with click.progressbar(length=1, label=label, file=sys.stderr) as bar:
+
+        def update(done: int, total: int) -> None:
+            bar.length = total
+            bar.update(done - bar.pos)
 
         yield update
 
@@ -275,9 +292,10 @@ def fit_command(data, response, predictors, priors, formula, reference, drop_mis
                                            drop_missing, level, fmt, method, chains, draws,
                                            warmup, seed, chunk_rows, engine, scheduler)  # fmt: skip
     else:
-        result = fit_from_options(data, response, predictors, priors, drop_missing, level, method,
-                                  chains, draws, warmup, seed, formula=formula,
-                                  reference=reference)  # fmt: skip
+        with progress_bar(fmt, "sampling") as progress:
+            result = fit_from_options(data, response, predictors, priors, drop_missing, level,
+                                      method, chains, draws, warmup, seed, progress,
+                                      formula=formula, reference=reference)  # fmt: skip
     if save_dir:
         from .store import save_fit
 

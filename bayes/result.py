@@ -54,6 +54,7 @@ class FitResult:
     notes: tuple[str, ...]
     data: Design | None = None
     provenance: dict = field(default_factory=dict)
+    inference: object = None
     terms: object | None = None
 
     @property
@@ -153,6 +154,7 @@ def make_result(
     provenance: dict | None = None,
     notes: tuple[str, ...] = (),
     extra_columns: dict[str, list] | None = None,
+    inference: object = None,
 ) -> FitResult:
     """Compute the summaries of a posterior once and freeze them in a :class:`FitResult`.
 
@@ -189,5 +191,5 @@ def make_result(
     return FitResult(
         response, factor, priors, posterior, level, tuple(rows), diag,
         tuple(penalty_rows(priors, sigma, basis)), tuple(all_notes), data, provenance or {},
-        terms,
+        terms=terms, inference=inference,
     )  # fmt: skip

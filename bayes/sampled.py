@@ -25,7 +25,7 @@ def sampled_posterior(
     warmup: int = 1000,
     seed: int = 0,
     progress: Callable[[int, int], None] | None = None,
-) -> tuple[Posterior, dict[str, list], tuple[str, ...]]:
+) -> tuple[Posterior, dict[str, list], tuple[str, ...], object]:
     """Sample the posterior and compute its mode and convergence diagnostics.
 
     Returns
@@ -36,8 +36,10 @@ def sampled_posterior(
         Per-coefficient ``r_hat``, ``ess_bulk``, ``ess_tail`` for the table.
     notes : tuple of str
         Convergence warnings and the number of coefficients at their prior location.
+    inference : arviz.InferenceData
+        Posterior and prior draws, coordinates named after the columns.
     """
-    from .diagnostics import summarize_draws
+    from .diagnostics import summarize_draws, to_inference_data
     from .gibbs import sample
     from .modes import MODE_KIND, posterior_mode
 
@@ -90,4 +92,7 @@ def sampled_posterior(
             f"{mode.n_at_center} of {n_lap} Laplace-prior coefficients have their mode "
             "exactly at the prior location (the lasso's zeros)."
         )
-    return post, columns, tuple(notes)
+    inference = to_inference_data(
+        nat, d.sigma, names, to_natural(factor, d.prior_gamma), d.prior_sigma
+    )
+    return post, columns, tuple(notes), inference

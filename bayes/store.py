@@ -27,13 +27,11 @@ from .result import FitResult
 FILES = ("fit.json", "posterior.npz", "priors.toml")
 
 
-def save_fit(result: FitResult, folder: str | Path, extra: dict[str, bytes] | None = None) -> Path:
+def save_fit(result: FitResult, folder: str | Path) -> Path:
     """Write ``result`` into ``folder`` atomically (replacing an earlier fit there).
 
-    Parameters
-    ----------
-    extra : dict of file name -> bytes, optional
-        Further files to store (e.g. the InferenceData netCDF of a sampled fit).
+    Sampled fits also get ``posterior.nc``: their arviz InferenceData (posterior and
+    prior groups, coordinates named after the columns).
     """
     folder = Path(folder)
     if folder.exists() and not (folder / "fit.json").exists() and any(folder.iterdir()):
@@ -71,8 +69,8 @@ def save_fit(result: FitResult, folder: str | Path, extra: dict[str, bytes] | No
             result.data.frame().to_csv(tmp / "data.csv", index=False)
         if result.terms is not None:
             (tmp / "terms.json").write_text(json.dumps(result.terms.to_dict(), indent=2) + "\n")
-        for name, content in (extra or {}).items():
-            (tmp / name).write_bytes(content)
+        if result.inference is not None:
+            result.inference.to_netcdf(str(tmp / "posterior.nc"), engine="h5netcdf")
         _swap(tmp, folder)
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
