@@ -220,7 +220,8 @@ def _rows(names, prior: np.ndarray, likelihood: np.ndarray, method: str) -> dict
         if p >= c and lik >= c:
             diagnosis = "prior-data conflict"
             sentence = (f"{name}: sensitive to both the prior ({p:.3f}) and the likelihood "
-                        f"({lik:.3f}): a sign of prior-data conflict.")  # fmt: skip
+                        f"({lik:.3f}): both shape it; possible prior-data conflict (see the "
+                        "conflict check).")  # fmt: skip
         elif p >= c:
             diagnosis = "weak likelihood"
             sentence = (f"{name}: sensitive to the prior ({p:.3f}) but not the likelihood "

@@ -89,8 +89,9 @@ def test_means_and_probabilities_agree_with_numerical_integration(case):
         # Monte Carlo error: the sampler's effective draws (arviz ESS) at the nearest sampled
         # factor, times the share the importance weights keep (Kish ESS / draws).
         eff = chain_ess[np.argmin(np.abs(np.log(sampled / f)))] * ess[i] / n_draws
-        assert abs(slope.mean[i] - mean) < 4 * sd / math.sqrt(eff), f
-        assert abs(slope.p_positive[i] - p) < 4 * math.sqrt(max(p * (1 - p), 1e-4) / eff), f
+        # 5 standard errors: about 26 checks together still fail by chance < 1e-4 of the time.
+        assert abs(slope.mean[i] - mean) < 5 * sd / math.sqrt(eff), f
+        assert abs(slope.p_positive[i] - p) < 5 * math.sqrt(max(p * (1 - p), 1e-4) / eff), f
         checked += 1
     assert checked >= 10 and result.method == "sampled"
     assert set(result.extra["sampled_factors"]) <= set(result.factors)
