@@ -39,7 +39,8 @@ import numpy as np
 from scipy import linalg, special, stats
 
 from .errors import InputError
-from .exact import _data_rows, _log_noise_prior, _solve, check_identified, noise_quadrature
+from .exact import _log_noise_prior, _solve, noise_quadrature
+from .likelihood import check_identified, data_rows
 from .posterior import Posterior
 from .problem import DataFactor, ScaledPrior, natural_transform
 
@@ -147,7 +148,7 @@ def log_marginal_likelihood(factor: DataFactor, prior: ScaledPrior) -> Evidence:
     check_identified(factor, prior)
     n, k = factor.n, factor.p + 1
     base = _gaussian_part(factor, prior) + (k - n) / 2 * LOG_2PI
-    D, d = _data_rows(factor)
+    D, d = data_rows(factor)
     W = prior.root_precision
     w = W @ prior.mean
     noise = prior.noise

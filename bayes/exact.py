@@ -22,7 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import linalg, optimize, stats
 
-from .errors import InputError
+from .likelihood import check_identified, data_rows
 from .posterior import Posterior
 from .problem import DataFactor, ScaledPrior, natural_transform
 
@@ -40,16 +40,6 @@ class _Solve:
     logdet: float  # log det of the posterior precision / 2
 
 
-def _data_rows(factor: DataFactor) -> tuple[np.ndarray, np.ndarray]:
-    """Rows D, d with ||D gamma - d||^2 = ||yc - alpha - Xs theta||^2."""
-    p, m = factor.p, factor.R.shape[0]
-    D = np.zeros((m + 1, p + 1))
-    D[0, 0] = np.sqrt(factor.n)
-    D[1:, 1:] = factor.R[:, :p]
-    d = np.concatenate([[0.0], factor.R[:, p]])
-    return D, d
-
-
 def _solve(D: np.ndarray, d: np.ndarray, W: np.ndarray, w: np.ndarray, sigma: float) -> _Solve:
     M = np.vstack([D / sigma, W])
     z = np.concatenate([d / sigma, w])
@@ -59,38 +49,6 @@ def _solve(D: np.ndarray, d: np.ndarray, W: np.ndarray, w: np.ndarray, sigma: fl
     Rinv = linalg.solve_triangular(Rp, np.eye(Rp.shape[0]))
     logdet = float(np.sum(np.log(np.abs(np.diag(Rp)))))
     return _Solve(mean, Rinv @ Rinv.T, float(resid @ resid), logdet)
-
-
-def check_identified(factor: DataFactor, prior: ScaledPrior) -> None:
-    """Stop with a clear error when a flat prior leaves a direction unidentified.
-
-    Raises
-    ------
-    InputError
-        Naming the aliased columns, or when n is too small for the flat coefficients.
-    """
-    D, _ = _data_rows(factor)
-    M = np.vstack([D, prior.root_precision])
-    _, s, Vt = np.linalg.svd(M, full_matrices=True)
-    s_full = np.zeros(M.shape[1])
-    s_full[: len(s)] = s
-    null = Vt[s_full <= s_full.max() * 1e-10]
-    if len(null):
-        weight = np.sqrt(np.sum(null**2, axis=0))
-        names = ("intercept", *factor.names)
-        aliased = [names[j] for j in np.flatnonzero(weight > 1e-6)]
-        raise InputError(
-            "the data cannot separate the columns "
-            + ", ".join(aliased)
-            + " (aliased) and at least one of them has a flat prior: give them proper priors "
-            "or drop one"
-        )
-    n_flat = sum(f == "flat" for f in prior.family)
-    if not prior.noise.known and factor.n <= n_flat:
-        raise InputError(
-            f"n = {factor.n} rows cannot estimate {n_flat} coefficients with flat priors and "
-            "an unknown noise level: give priors or more data"
-        )
 
 
 def _log_noise_prior(prior: ScaledPrior, s2):
@@ -125,7 +83,7 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> Posterior:
         raise ValueError("exact_posterior handles flat and normal priors only")
     check_identified(factor, prior)
     names = ("intercept", *factor.names)
-    D, d = _data_rows(factor)
+    D, d = data_rows(factor)
     W = prior.root_precision
     w = W @ prior.mean
     noise = prior.noise
@@ -207,7 +165,7 @@ class NoiseQuadrature:
 
 def noise_quadrature(factor: DataFactor, prior: ScaledPrior) -> NoiseQuadrature:
     """The quadrature over log sigma for Gaussian/flat priors and an unknown noise sd."""
-    D, d = _data_rows(factor)
+    D, d = data_rows(factor)
     W = prior.root_precision
     w = W @ prior.mean
     n = factor.n

@@ -15,7 +15,6 @@ import dataclasses
 import numpy as np
 
 from .errors import InputError
-from .exact import check_identified
 from .problem import DataFactor, ScaledPrior
 
 FAMILIES = ("flat", "normal", "laplace", "student_t")
@@ -41,6 +40,38 @@ def data_rows(factor: DataFactor) -> tuple[np.ndarray, np.ndarray]:
     A[0, 0] = np.sqrt(factor.n)
     A[1:, 1:] = factor.R11
     return A, np.concatenate([[0.0], factor.r12])
+
+
+def check_identified(factor: DataFactor, prior: ScaledPrior) -> None:
+    """Stop with a clear error when a flat prior leaves a direction unidentified.
+
+    Raises
+    ------
+    InputError
+        Naming the aliased columns, or when n is too small for the flat coefficients.
+    """
+    D, _ = data_rows(factor)
+    M = np.vstack([D, prior.root_precision])
+    _, s, Vt = np.linalg.svd(M, full_matrices=True)
+    s_full = np.zeros(M.shape[1])
+    s_full[: len(s)] = s
+    null = Vt[s_full <= s_full.max() * 1e-10]
+    if len(null):
+        weight = np.sqrt(np.sum(null**2, axis=0))
+        names = ("intercept", *factor.names)
+        aliased = [names[j] for j in np.flatnonzero(weight > 1e-6)]
+        raise InputError(
+            "the data cannot separate the columns "
+            + ", ".join(aliased)
+            + " (aliased) and at least one of them has a flat prior: give them proper priors "
+            "or drop one"
+        )
+    n_flat = sum(f == "flat" for f in prior.family)
+    if not prior.noise.known and factor.n <= n_flat:
+        raise InputError(
+            f"n = {factor.n} rows cannot estimate {n_flat} coefficients with flat priors and "
+            "an unknown noise level: give priors or more data"
+        )
 
 
 def residual_ss(factor: DataFactor, gamma: np.ndarray) -> np.ndarray:

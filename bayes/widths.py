@@ -41,8 +41,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import linalg, special, stats
 
-from .exact import _quadrature, check_identified
-from .likelihood import coefficient_names, data_rows
+from .exact import _quadrature
+from .likelihood import check_identified, coefficient_names, data_rows
 from .posterior import Posterior
 from .problem import DataFactor, ScaledPrior, natural_transform
 
