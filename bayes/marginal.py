@@ -49,8 +49,9 @@ class Marginal:
             if self.df <= 2:
                 return np.inf
             return float(self.scales[0] * np.sqrt(self.df / (self.df - 2)))
-        second = np.dot(self.weights, self.scales**2 + self.locs**2)
-        return float(np.sqrt(max(second - self.mean**2, 0.0)))
+        # about the mean, so a narrow posterior far from zero keeps its digits
+        var = np.dot(self.weights, self.scales**2 + (self.locs - self.mean) ** 2)
+        return float(np.sqrt(var))
 
     def cdf(self, x: float) -> float:
         """P(X <= x)."""

@@ -116,10 +116,10 @@ class Posterior:
             return np.cov(self.flat_draws, rowvar=False)
         if np.isfinite(self.df):
             return self.covs[0] * self.df / (self.df - 2) if self.df > 2 else self.covs[0] * np.inf
-        m = self.mean
-        second = np.einsum("k,kij->ij", self.weights, self.covs)
-        second += np.einsum("k,ki,kj->ij", self.weights, self.means, self.means)
-        return second - np.outer(m, m)
+        dev = self.means - self.mean  # about the mean: no cancellation
+        return np.einsum("k,kij->ij", self.weights, self.covs) + np.einsum(
+            "k,ki,kj->ij", self.weights, dev, dev
+        )
 
     def sigma_quantile(self, q: float) -> float:
         """Quantile of the posterior of the noise sd (the value itself when known)."""

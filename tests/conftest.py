@@ -42,3 +42,12 @@ def pontius() -> pd.DataFrame:
 @pytest.fixture(scope="session")
 def demo_frame() -> pd.DataFrame:
     return pd.read_csv(DEMO / "trial_mix.csv")
+
+
+@pytest.fixture(autouse=True, scope="session")
+def _one_blas_thread():
+    """Small dense problems run faster and steadier with one BLAS thread on a shared 2-core box."""
+    from threadpoolctl import threadpool_limits
+
+    with threadpool_limits(limits=1, user_api="blas"):
+        yield
