@@ -145,5 +145,5 @@ def load_fit(folder: str | Path) -> FitResult:
     return FitResult(
         doc["response"], factor, priors, post, doc["level"], tuple(doc["coefficients"]),
         doc["diagnostics"], tuple(doc["penalties"]), tuple(doc["notes"]), data,
-        doc["provenance"], terms,
+        doc["provenance"], terms=terms,
     )  # fmt: skip

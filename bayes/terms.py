@@ -604,6 +604,63 @@ def term_units(term_name: str, units_mapping: Mapping[str, str], response_units:
     return out
 
 
+def predictor_units(term_name: str, units_mapping: Mapping[str, str]) -> str | None:
+    """Units of a design column itself (the predictor side), or None (none, or not given).
+
+    ``"fly_ash:curing_temp"`` -> ``"share of binder x degC"``; a level's indicator
+    (``"cement_type[CEM-B]"``) has no unit, so it gives None.
+    """
+    parts = [p for p in split_term(term_name) if not re.fullmatch(r".+\[.*\]", p, flags=re.S)]
+    found = [_factor_units(p, units_mapping) for p in parts]
+    if not parts or any(u.startswith("unit of ") for u in found):
+        return None
+    return " x ".join(found)
+
+
+def interview_terms(design, units_mapping: Mapping[str, str] | None = None) -> list:
+    """The interview's questions (``elicit.interview.Term``) for every column of a design.
+
+    A level is asked as its difference from the reference level (reference rows: the
+    indicator at 0 and at 1); a numeric or derived column with its units, data range
+    and 10% / 90% quantiles.
+
+    Parameters
+    ----------
+    design : bayes.design.Design
+    units_mapping : mapping of predictor -> unit, optional
+
+    Returns
+    -------
+    list of elicit.interview.Term
+    """
+    from elicit.interview import Term
+
+    units = dict(units_mapping or {})
+    terms = design.terms
+    out = []
+    for j, column in enumerate(design.names):
+        x = design.X[:, j]
+        parts = split_term(column)
+        level = _level_of(terms, column) if terms is not None and len(parts) == 1 else None
+        if level is not None:
+            cat, name = level
+            describe = (
+                f"{terms.describe(column, design.response)}; {int(x.sum())} of {design.n} rows"
+            )
+            rows = ((f"{cat.name} = {cat.reference} (reference level)", 0.0),
+                    (f"{cat.name} = {name}", 1.0))  # fmt: skip
+            out.append(Term(cat.term, name, None, describe, rows))
+            continue
+        lo, hi = (float(v) for v in np.quantile(x, [0.1, 0.9]))
+        describe = f"data: {x.min():.4g} to {x.max():.4g}, mean {x.mean():.4g}"
+        if terms is not None and (len(parts) > 1 or column not in terms.variables):
+            describe = f"{terms.describe(column, design.response)}; {describe}"
+        rows = ((f"{column} = {lo:.4g} (10% quantile)", lo),
+                (f"{column} = {hi:.4g} (90% quantile)", hi))  # fmt: skip
+        out.append(Term(column, None, predictor_units(column, units), describe, rows))
+    return out
+
+
 def _factor_units(expr: str, units: Mapping[str, str]) -> str:
     if expr in units:
         return units[expr]

@@ -172,6 +172,12 @@ def pool(priors: str, out: str, method: str | None, family: str | None, fmt: str
     is_flag=True,
     help="Ask the expected response at reference rows instead (conditional means).",
 )
+@click.option(
+    "--formula",
+    help="Model formula (as for bayes fit): ask about each categorical level and derived term.",
+)
+@click.option("--reference", multiple=True, metavar="COLUMN=LEVEL",
+              help="Reference level of a categorical predictor (repeatable).")  # fmt: skip
 def interview(
     data: str,
     response: str,
@@ -180,6 +186,8 @@ def interview(
     expert: str | None,
     no_noise: bool,
     conditional: bool,
+    formula: str | None = None,
+    reference: tuple[str, ...] = (),
 ):
     """Ask an expert about each predictor, with feedback; save after every answer; resume."""
     from elicit.interview import Interview, terms_from_data
@@ -197,8 +205,26 @@ def interview(
             click.echo(answer)
         return answer
 
+    design = None
+    if formula or reference:  # the design's columns: levels and derived terms (bayes.terms)
+        from bayes.cli import reference_levels
+        from bayes.design import build_design
+        from bayes.errors import InputError
+        from bayes.terms import formula_response, interview_terms
+
+        if formula_response(formula) not in (None, response):
+            raise BadInput(f"--formula: its response differs from --response {response!r}")
+        try:
+            design = build_design(frame, response, None, False, Path(data).name, formula,
+                                  reference_levels(reference))  # fmt: skip
+        except InputError as exc:
+            raise BadInput(str(exc)) from None
+        frame = design.frame()
     session = Interview(Path(out), response, ask, click.echo, frame, response_units, expert)
-    terms = terms_from_data(frame, response, session.priors.units)
+    if design is not None:
+        terms = interview_terms(design, session.priors.units)
+    else:
+        terms = terms_from_data(frame, response, session.priors.units)
     try:
         session.run(terms, noise=not no_noise, conditional=conditional)
     except click.Abort:

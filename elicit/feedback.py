@@ -360,10 +360,13 @@ def feedback(
 
 def to_json(fb: Feedback) -> dict[str, Any]:
     """The feedback as one JSON-ready object (``"coefficients"``, ``"noise"``, ...)."""
+    from bayes.terms import term_units
+
     out: dict[str, Any] = {
         "coefficients": [
             {
                 "name": c.name,
+                "units": term_units(c.name, fb.units, fb.response_units),
                 "family": c.family,
                 "center": c.center,
                 "scale": c.scale,
@@ -503,9 +506,13 @@ def format_predictive(p: Predictive | str, units: str | None = None) -> list[str
 
 def format_text(fb: Feedback) -> str:
     """The feedback as plain text for the terminal."""
+    from bayes.terms import term_units
+
     lines: list[str] = []
     for c in fb.coefficients:
-        lines += format_coefficient(c, fb.noise_sd)
+        block = format_coefficient(c, fb.noise_sd)
+        block.insert(1, f"  units: {term_units(c.name, fb.units, fb.response_units)}")
+        lines += block
     if fb.block is not None:
         lines += format_block(fb.block)
     n = fb.noise

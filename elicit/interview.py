@@ -45,7 +45,8 @@ class Term:
     name : str
         Name in the prior file (the data column).
     level : str or None
-        Categorical level (not asked yet; kept for the prior file's ``level`` key).
+        Categorical level: the question is about its difference from the reference level
+        (written as the prior file's ``level`` key); see ``bayes.terms.interview_terms``.
     units : str or None
         Units of the predictor, shown in the questions.
     describe : str
@@ -181,7 +182,10 @@ class Interview:
             entry["df"] = self.ask(
                 "Degrees of freedom", type=float, default=last.get("df", convert.DEFAULT_DF)
             )
-        if family != "flat":
+        if family != "flat" and term.level is not None:
+            what = f"difference in {self.response} for {term.column} against the reference level"
+            entry.update(self._ask_range(what, "the difference", last))
+        elif family != "flat":
             per = self.ask(
                 f"The range is for a change of how many {term.units or 'units'} of {term.column}",
                 type=float,

@@ -333,3 +333,64 @@ def test_demo_prior_names_match_the_printed_names(demo_frame):
         result = bayes.fit(demo_frame, priors=DEMO / name)
         for cp in result.priors.coefficients:
             assert cp.column in result.names
+
+
+def test_interview_asks_each_level_against_the_reference_and_each_derived_term(tmp_path, mixes):
+    from elicit.cli import main as elicit_main
+    from elicit.spec import read_prior_file
+
+    data = tmp_path / "mixes.csv"
+    mixes.to_csv(data, index=False)
+    out = tmp_path / "asked.toml"
+    answers = [
+        "normal", "0", "6", "0.9", "engineer D", "blended cement", "a",  # cement_type[CEM-B]
+        "normal", "-3", "3", "0.9", "", "", "a",  # cement_type[CEM-C]
+        "normal", "1", "-1", "1", "0.9", "", "", "a",  # fly_ash:curing_temp
+    ]  # fmt: skip
+    formula = "strength ~ cement_type + fly_ash:curing_temp"
+    res = CliRunner().invoke(
+        elicit_main,
+        ["interview", "--data", str(data), "--response", "strength", "--out", str(out),
+         "--formula", formula, "--reference", "cement_type=CEM-A", "--no-noise"],
+        input="\n".join(answers) + "\n",
+    )  # fmt: skip
+    assert res.exit_code == 0, res.output
+    assert "the difference in strength for 'cement_type' at CEM-B rather than the reference " \
+        "level CEM-A" in res.output  # fmt: skip
+    assert "difference in strength for cement_type[CEM-C] against the reference level" in res.output
+    assert "the change in the slope of strength on fly_ash per unit of curing_temp" in res.output
+    priors = read_prior_file(out)
+    assert [(c.name, c.level) for c in priors.coefficients] == [
+        ("cement_type", "CEM-B"), ("cement_type", "CEM-C"), ("fly_ash:curing_temp", None)
+    ]  # fmt: skip
+    fit = bayes.fit(mixes, formula=formula, reference={"cement_type": "CEM-A"}, priors=out)
+    assert fit.summary().loc["cement_type[CEM-B]", "prior"] == "normal(3, 1.824)"
+
+
+def test_interview_terms_units_and_reference_rows(mixes):
+    from bayes.terms import interview_terms
+
+    design = build_design(mixes, None, formula="strength ~ fly_ash:curing_temp + cement_type")
+    units = {"fly_ash": "share of binder", "curing_temp": "degC"}
+    asked = {t.column: t for t in interview_terms(design, units)}
+    level = asked["cement_type[CEM-B]"]
+    assert (level.name, level.level, level.units) == ("cement_type", "CEM-B", None)
+    assert [v for _, v in level.reference] == [0.0, 1.0]
+    assert asked["fly_ash:curing_temp"].units == "share of binder x degC"
+
+
+def test_elicit_show_lists_units_of_levels_and_derived_terms(tmp_path):
+    from elicit.cli import main as elicit_main
+
+    priors = tmp_path / "p.toml"
+    priors.write_text(
+        '[study]\nresponse = "strength"\nresponse_units = "MPa"\n'
+        '[units]\nfly_ash = "share of binder"\ncuring_temp = "degC"\n'
+        '[[coefficient]]\nname = "cement_type"\nlevel = "CEM-B"\ncenter = 3.0\nscale = 2.0\n'
+        '[[coefficient]]\nname = "fly_ash:curing_temp"\ncenter = 0.0\nscale = 1.0\n'
+    )
+    res = CliRunner().invoke(elicit_main, ["show", str(priors), "--format", "json"])
+    assert res.exit_code == 0, res.output
+    units = {c["name"]: c["units"] for c in json.loads(res.output)["coefficients"]}
+    assert units == {"cement_type[CEM-B]": "MPa", "fly_ash:curing_temp": (
+        "MPa per share of binder per degC")}  # fmt: skip
