@@ -378,10 +378,18 @@ def compare_command(data, priors, response, predictors, formula, reference, drop
     """Compare prior files on DATA: evidence, Bayes factors, leave-one-out prediction."""
     from .api import load_priors
     from .compare import compare_path, compare_priors
+    from .errors import InputError
+    from .terms import formula_response
 
     if save_dir:
         compare_path(save_dir)  # a bad folder fails before the work
     prior_sets = [load_priors(p) for p in priors]
+    stated = {ps.response for ps in prior_sets if ps.response}
+    if len(stated) > 1 and not response and formula_response(formula) is None:
+        raise InputError(
+            f"the prior files name different responses ({', '.join(sorted(stated))}): "
+            "give --response"
+        )
     design = design_from_options(data, response, predictors, prior_sets[0], drop_missing, formula,
                                  reference)  # fmt: skip
     sampled = method == "sample" or any(c.family in ("laplace", "student_t")

@@ -156,8 +156,8 @@ class Comparison:
         for s in self.sets:
             if not s.evidence.exact:
                 out.append(
-                    f"{s.label}: the log marginal likelihood is an estimate ({s.evidence.method}) "
-                    f"with Monte Carlo sd {fmt(s.evidence.mc_se, 2)}."
+                    f"{s.label}: the log marginal likelihood is {s.evidence.method}, Monte "
+                    f"Carlo sd {fmt(s.evidence.mc_se, 2)}."
                 )
             if s.r_hat is not None and s.r_hat > 1.01:
                 out.append(

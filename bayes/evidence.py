@@ -322,7 +322,7 @@ def bridge_sampling(
     return Evidence(
         float(np.log(r) + shift),
         float(np.sqrt(re2)),
-        "estimate by bridge sampling (Meng and Wong, 1996) from posterior draws",
+        "estimated by bridge sampling (Meng and Wong, 1996) from posterior draws",
     )
 
 

@@ -470,6 +470,11 @@ def test_compare_errors_are_one_line(tmp_path):
     assert out.exit_code == 2 and "not a saved fit folder" in out.output
     assert len(out.output.strip().splitlines()) == 1
     assert not (not_fit / "compare.json").exists()
+    other = tmp_path / "other.toml"
+    other.write_text((DEMO / "priors.toml").read_text().replace('"strength"', '"slump"'))
+    out = run("compare", DEMO / "trial_mix.csv", "--priors", DEMO / "priors.toml",
+              "--priors", other)  # fmt: skip
+    assert out.exit_code == 2 and "name different responses (slump, strength)" in out.output
 
 
 def test_sampled_comparison_agrees_with_the_exact_one(demo_frame):
