@@ -201,6 +201,25 @@ def memory_flatness(folder: Path) -> dict:
     return out
 
 
+def five_gb(folder: Path) -> dict:
+    """The issue's claim at full size: stream a 5 GB CSV (p = 10) in a child process."""
+    p, n = 10, 24_000_000  # about 210 bytes a row
+    path = folder / "five_gb.csv"
+    start = time.perf_counter()
+    write_csv(path, n, p, seed=6)
+    written = time.perf_counter() - start
+    out = {"n": n, "p": p, "file_gb": path.stat().st_size / 1e9, "write_seconds": written,
+           "baseline": run_child(CHILD_BASELINE, "-"),
+           "stream": run_child(CHILD_STREAM, path)}  # fmt: skip
+    path.unlink()
+    stream, base = out["stream"], out["baseline"]
+    print(f"{out['file_gb']:.2f} GB CSV, {n:,} rows x {p + 1}: streamed fit in "
+          f"{stream['seconds']:.0f} s ({n / stream['seconds']:,.0f} rows/s), peak RSS "
+          f"{stream['peak_rss_mib']:.0f} MiB (imports alone "
+          f"{base['peak_rss_mib']:.0f} MiB)")  # fmt: skip
+    return out
+
+
 def laplace_vs_lasso(repeats: int) -> dict:
     """bayes.modes.posterior_mode (Laplace priors, known sd) vs sklearn Lasso, n=1e5, p=200."""
     try:
@@ -274,12 +293,12 @@ def width_sweep(repeats: int) -> list[dict]:
 def gibbs_rate() -> dict:
     """Gibbs effective draws per second (p = 20, Laplace priors, unknown noise), n 1e4 vs 1e6."""
     try:
+        from gibbs_ess import min_bulk_ess  # benchmarks/gibbs_ess.py (the sampling issue's)
+
         from bayes.gibbs import sample
     except ImportError as e:
         return row("Gibbs ESS/s", None, None, "cost independent of n", None,
                    f"not available ({e})")  # fmt: skip
-    import arviz as az
-
     from bayes.factor import factor_from_arrays
     from bayes.problem import to_natural
     from bayes.scaled import scaled_prior
@@ -297,8 +316,7 @@ def gibbs_rate() -> dict:
         start = time.perf_counter()
         draws = sample(factor, scaled, chains=4, draws=1000, warmup=500, seed=1)
         seconds = time.perf_counter() - start
-        ess = az.ess(az.convert_to_dataset(to_natural(factor, draws.gamma)), method="bulk")
-        min_ess = float(np.min(ess.to_array().values))
+        min_ess = min_bulk_ess(to_natural(factor, draws.gamma))
         out[n] = {"seconds": seconds, "min_bulk_ess": min_ess, "ess_per_s": min_ess / seconds}
     small, large = out[10_000], out[1_000_000]
     return row(
@@ -344,11 +362,19 @@ def main() -> None:
     parser.add_argument("--blas-threads", type=int, default=1,
                         help="BLAS threads for both sides (default 1: on a small shared "
                         "machine extra threads only wait)")  # fmt: skip
+    parser.add_argument("--five-gb", action="store_true",
+                        help="only stream a 5 GB CSV and report its peak memory "
+                        "(a few minutes; results_5gb.json)")  # fmt: skip
     parser.add_argument("--child", nargs=2, metavar=("MODE", "PATH"), help=argparse.SUPPRESS)
     parser.add_argument("--trace", action="store_true", help=argparse.SUPPRESS)
     args = parser.parse_args()
     if args.child:
         child(*args.child, trace=args.trace)
+        return
+    if args.five_gb:
+        with tempfile.TemporaryDirectory(prefix="bayes-bench-") as tmp:
+            out = five_gb(Path(tmp)) | {"machine": machine()}
+        (HERE / "results_5gb.json").write_text(json.dumps(out, indent=2, default=float) + "\n")
         return
     from threadpoolctl import threadpool_limits
 
