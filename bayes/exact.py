@@ -171,12 +171,16 @@ def noise_quadrature(factor: DataFactor, prior: ScaledPrior) -> NoiseQuadrature:
     n = factor.n
 
     def log_density_u(u: float) -> float:
-        """log p(log sigma | y) up to a constant."""
+        """log p(log sigma | y) up to a constant (-inf beyond any representable sigma)."""
+        if not -300.0 < u < 300.0:
+            return -np.inf
         s2 = np.exp(2 * u)
         sol = _solve(D, d, W, w, np.exp(u))
         return _log_noise_prior(prior, s2) + np.log(s2) - n * u - sol.quad / 2 - sol.logdet
 
-    u0 = np.log(np.sqrt(max(factor.R[-1, -1] ** 2, 1e-300 + factor.tss * 1e-12) / n))
+    square = factor.R.shape[0] == factor.p + 1  # then |R[p, p]|^2 is the least-squares RSS
+    rss0 = factor.R[-1, -1] ** 2 if square else factor.tss
+    u0 = 0.5 * np.log(max(rss0, 1e-12 * factor.tss, 1e-300) / n)
     return NoiseQuadrature(*_quadrature(log_density_u, u0))
 
 
