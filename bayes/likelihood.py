@@ -135,6 +135,8 @@ def check_prior(factor: DataFactor, prior: ScaledPrior) -> None:
             "so the posterior under a Jeffreys noise prior is improper: state the noise sd "
             "or a range for it"
         )
+    if "flat" not in prior.family[1:]:
+        return  # proper priors on every slope; the data identify the centred intercept
     # Laplace and Student-t priors are proper: give them unit rows so that only
     # directions with flat priors and no data are reported.
     mixed = [j for j, f in enumerate(prior.family) if f in ("laplace", "student_t")]
