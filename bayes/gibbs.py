@@ -141,7 +141,7 @@ def _solve_stacked(S: np.ndarray, k: int, z: np.ndarray, lwork: int) -> np.ndarr
     ``S = [M, t]`` (Fortran order, overwritten) has k + 1 columns; z is (k,) or
     (k, draws). LAPACK is called directly: this runs once per sweep.
     """
-    qr, _, _, info = _geqrf(S, lwork=lwork, overwrite_a=True)
+    qr = _geqrf(S, lwork=lwork, overwrite_a=True)[0]
     rhs = qr[:k, k, None] + (z if z.ndim == 2 else z[:, None])
     x, info = _trtrs(qr[:k, :k], rhs, overwrite_b=True)
     if info != 0:
@@ -167,8 +167,9 @@ def _draw_bcm(
 
     Bhattacharya, Chakraborty and Mallick (2016), with ``Phi = R11`` and
     ``z = target`` already divided by sigma and ``D = diag(variance)``. The m x m
-    matrix ``Phi D Phi' + I`` has eigenvalues >= 1, so its Cholesky factor is
-    well conditioned relative to its size.
+    matrix ``Phi D Phi' + I`` is the algorithm's own system (no cross product of
+    the data is solved); its eigenvalues are at least 1, so its Cholesky
+    factorisation cannot break down.
     """
     m = R11.shape[0]
     u = np.sqrt(variance) * rng.standard_normal(len(variance))
