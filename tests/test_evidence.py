@@ -84,6 +84,26 @@ def test_known_noise_equals_the_prior_predictive_density():
     assert ev.exact and ev.log_ml == pytest.approx(ref, rel=1e-12)
 
 
+@pytest.mark.parametrize("with_intercept", [True, False])
+def test_correlated_block_prior_equals_the_prior_predictive_density(with_intercept):
+    # Source: scipy.stats.multivariate_normal logpdf of y ~ N(A m, sigma^2 I + A S A') with S
+    # the block's covariance (and the intercept's own prior when it is outside the block).
+    X, y = small_data()
+    cov = np.array([[400.0, 10.0, 0.0], [10.0, 4.0, 0.5], [0.0, 0.5, 0.25]])
+    if with_intercept:
+        doc = {"correlation": {"names": ["intercept", "a", "b"], "mean": PRIOR_MEAN.tolist(),
+                               "cov": cov.tolist()}}  # fmt: skip
+    else:
+        cov[0, 1:] = cov[1:, 0] = 0.0
+        doc = {"coefficient": [{"name": "intercept", "center": 1.0, "scale": 20.0}],
+               "correlation": {"names": ["a", "b"], "mean": [1.0, 0.0],
+                               "cov": cov[1:, 1:].tolist()}}  # fmt: skip
+    _, factor, prior = setup({"noise": {"sd": 1.3}, **doc}, X, y)
+    A = design_rows(X)
+    ref = stats.multivariate_normal(A @ PRIOR_MEAN, 1.69 * np.eye(len(y)) + A @ cov @ A.T)
+    assert log_marginal_likelihood(factor, prior).log_ml == pytest.approx(ref.logpdf(y), rel=1e-12)
+
+
 def test_flat_intercept_is_integrated_with_unit_density():
     # Source: scipy.stats.multivariate_normal logpdf, the intercept integrated out by hand
     # (a Gaussian integral, common practice, no source): a flat prior of density 1.
