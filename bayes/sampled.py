@@ -44,7 +44,12 @@ def sampled_posterior(
     from .modes import MODE_KIND, posterior_mode
 
     names = ("intercept", *factor.names)
-    d = sample(factor, prior, chains, draws, warmup, seed, progress)
+    from threadpoolctl import threadpool_limits
+
+    # Thousands of small factorisations: one BLAS thread is faster than contending threads
+    # (imported after bayes.gibbs, so scipy's BLAS is loaded and limited too).
+    with threadpool_limits(limits=1, user_api="blas"):
+        d = sample(factor, prior, chains, draws, warmup, seed, progress)
     nat = to_natural(factor, d.gamma)
     mode = posterior_mode(factor, prior)
     known = prior.noise.known
