@@ -149,6 +149,20 @@ class Terms:
         -------
         ndarray, shape (n, p)
         """
+        names, X = _model_matrix(self.formula, self._coded(values, rows, source), source)
+        if tuple(names) != self.columns:
+            raise InputError(
+                f"{source}: the formula gives columns {', '.join(names)} on these rows, the fit "
+                f"has {', '.join(self.columns)}"
+            )
+        bad = ~np.isfinite(X)
+        if bad.any():
+            i, j = (int(v[0]) for v in np.nonzero(bad))
+            raise InputError(f"{source}: term '{names[j]}' is not finite at row {rows[i]}")
+        return X
+
+    def _coded(self, values: Mapping[str, np.ndarray], rows, source: str) -> pd.DataFrame:
+        """The values with each categorical column as a pandas Categorical of the fit's levels."""
         data = dict(values)
         for c in self.categorical:
             labels = _labels(data[c.name], c.numeric)
@@ -160,17 +174,7 @@ class Terms:
                     f"data of the fit (levels: {', '.join(c.levels)})"
                 )
             data[c.name] = pd.Categorical(labels, categories=list(c.levels))
-        names, X = _model_matrix(self.formula, pd.DataFrame(data), source)
-        if tuple(names) != self.columns:
-            raise InputError(
-                f"{source}: the formula gives columns {', '.join(names)} on these rows, the fit "
-                f"has {', '.join(self.columns)}"
-            )
-        bad = ~np.isfinite(X)
-        if bad.any():
-            i, j = (int(v[0]) for v in np.nonzero(bad))
-            raise InputError(f"{source}: term '{names[j]}' is not finite at row {rows[i]}")
-        return X
+        return pd.DataFrame(data)
 
     def check_priors(self, priors) -> None:
         """Check a prior set's entries against the model's columns and levels.
@@ -436,18 +440,11 @@ def make_terms(
             f"the model (categorical: {cats})"
         )
     terms = Terms(response, rhs, tuple(predictors), tuple(categorical), (), tuple(notes))
-    names, _ = _model_matrix(rhs, pd.DataFrame(_coded(terms, data)), source)
+    names, _ = _model_matrix(rhs, terms._coded(data, rows, source), source)
     if len(set(names)) != len(names):
         twice = next(c for c in names if names.count(c) > 1)
         raise InputError(f"--formula: the design column '{twice}' appears twice")
     return Terms(response, rhs, tuple(predictors), tuple(categorical), tuple(names), tuple(notes))
-
-
-def _coded(terms: Terms, data: Mapping[str, np.ndarray]) -> dict:
-    out = dict(data)
-    for c in terms.categorical:
-        out[c.name] = pd.Categorical(_labels(data[c.name], c.numeric), categories=list(c.levels))
-    return out
 
 
 def _categorical_terms(spec, data: Mapping[str, np.ndarray]) -> list[tuple[str, str]]:
