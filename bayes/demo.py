@@ -33,12 +33,12 @@ def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
     out.mkdir(parents=True, exist_ok=True)
     echo("Demo study (INVENTED data and experts): trial mix programme, 18 batches.")
     # The sampler settings of `bayes fit` itself, so that the demo prints what the command would.
-    settings = {p.name: p.default for p in fit_command.params
-                if p.name in ("chains", "draws", "warmup", "seed")}  # fmt: skip
+    defaults = {p.name: p.default for p in fit_command.params}
+    settings = {k: defaults[k] for k in ("chains", "draws", "warmup", "seed")}
     result = fit(read_table(data), priors=priors, source=data.name, **settings,
                  provenance=provenance(str(data), settings["seed"]))  # fmt: skip
     save_fit(result, out / "fit")
-    echo(result.text())
+    echo(result.text(defaults["digits"]))
     echo(f"Saved the fit in {out / 'fit'}/")
     swept = sweep(result)
     save_sweep(swept, out / "fit")
