@@ -260,7 +260,8 @@ def test_a_sweep_of_another_model_is_rejected(demo_fit_dir, tmp_path):
     folder = tmp_path / "fit"
     shutil.copytree(demo_fit_dir, folder)
     frame = pd.read_csv(DEMO / "trial_mix.csv")
-    other = bayes.fit(frame, "strength", NAMES[:3], priors=read_prior_file(DEMO / "priors.toml"))
+    doc = {"coefficient": [{"name": "fly_ash", "center": -20.0, "scale": 15.0}]}
+    other = bayes.fit(frame, "strength", NAMES[:3], priors=parse_priors(doc))
     save_sweep(sweep(other, family_swap=False), folder)
     res = CliRunner().invoke(main, ["report", str(folder), "--out", str(tmp_path / "r.html")])
     assert res.exit_code == 2
@@ -271,9 +272,13 @@ def test_a_sweep_of_another_model_is_rejected(demo_fit_dir, tmp_path):
 def test_report_with_a_saved_comparison(demo_fit_dir, tmp_path):
     folder = tmp_path / "fit"
     shutil.copytree(demo_fit_dir, folder)
-    args = ["compare", str(DEMO / "trial_mix.csv"), "--predictors", ",".join(NAMES), "--priors",
-            str(DEMO / "priors.toml"), "--priors", str(DEMO / "priors_optimistic.toml"),
-            "--save", str(folder)]  # fmt: skip
+    files = []
+    for label, centre in (("a", -20.0), ("b", 5.0)):  # two normal prior sets on fly_ash
+        path = tmp_path / f"priors_{label}.toml"
+        path.write_text(f'[[coefficient]]\nname = "fly_ash"\ncenter = {centre}\nscale = 8.0\n')
+        files += ["--priors", str(path)]
+    args = ["compare", str(DEMO / "trial_mix.csv"), "--response", "strength", "--predictors",
+            ",".join(NAMES), *files, "--save", str(folder)]  # fmt: skip
     res = CliRunner().invoke(main, args)
     assert res.exit_code == 0, res.output
     report = build_report(folder, figures=False)
@@ -281,7 +286,7 @@ def test_report_with_a_saved_comparison(demo_fit_dir, tmp_path):
     assert keys.index("sensitivity") < keys.index("comparison") < keys.index("method")
     section = report.sections[keys.index("comparison")]
     table = next(b for b in section.blocks if b.kind == "table")
-    assert [row[0] for row in table.rows] == ["priors.toml", "priors_optimistic.toml"]
+    assert [row[0] for row in table.rows] == ["priors_a.toml", "priors_b.toml"]
     probabilities = [float(row[4].lstrip("<>")) for row in table.rows]
     assert sum(probabilities) == pytest.approx(1.0, abs=2e-3)  # rounded to 3 decimals each
 
@@ -291,7 +296,10 @@ def test_report_of_a_formula_fit_with_a_categorical_predictor(tmp_path):
     frame["cement_type"] = (["CEM-A", "CEM-B", "CEM-A", "CEM-C"] * 5)[: len(frame)]
     data = tmp_path / "cat.csv"
     frame.to_csv(data, index=False)
-    formula = "strength ~ water_cement + fly_ash + curing_temp + cement_type + fly_ash:curing_temp"
+    formula = (
+        "strength ~ water_cement + fly_ash + curing_temp + superplasticizer + cement_type"
+        " + fly_ash:curing_temp"
+    )
     res = CliRunner().invoke(
         main,
         [
