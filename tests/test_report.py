@@ -328,6 +328,32 @@ def test_report_of_a_formula_fit_with_a_categorical_predictor(tmp_path):
     assert predictor_units["cement_type[CEM-C]"] == "indicator (0/1)"
 
 
+def test_report_of_a_sampled_fit_shows_convergence(tmp_path):
+    frame = pd.read_csv(DEMO / "trial_mix.csv")
+    doc = {
+        "study": {"response_units": "MPa"},
+        "coefficient": [{"name": "superplasticizer", "family": "laplace", "low": -1.0,
+                         "high": 1.0, "mass": 0.9, "per": 0.1, "expert": "engineer A"}],
+    }  # fmt: skip
+    result = bayes.fit(frame, "strength", NAMES, priors=parse_priors(doc), draws=500, seed=3)
+    assert result.posterior.method == "sampled"
+    report = report_from_result(result, figures=False)
+    post = next(b for s in report.sections if s.key == "posterior" for b in s.blocks
+                if b.kind == "table")  # fmt: skip
+    assert post.headers[-3:] == ("R-hat", "ESS (bulk)", "ESS (tail)")
+    for row in post.rows:
+        assert 0.99 < float(row[-3]) < 1.1 and float(row[-2]) > 100
+    priors = next(b for s in report.sections if s.key == "priors" for b in s.blocks
+                  if b.kind == "table")  # fmt: skip
+    cells = dict(zip(priors.headers, priors.rows[-1], strict=True))
+    assert cells["family"] == "laplace" and cells["equivalent penalty"].startswith("lasso")
+    method = " ".join(b.text for s in report.sections if s.key == "method" for b in s.blocks
+                      if b.kind == "paragraph")  # fmt: skip
+    assert "Computation: sampling" in method
+    study = dict(report.sections[0].blocks[1].rows)
+    assert study["random seed"] == "not recorded"  # fit from the API without provenance
+
+
 # --------------------------------------------------------------------------- HTML and Markdown
 
 
