@@ -416,11 +416,21 @@ def _priors(ctx: _Context) -> Section:
         Table("priors", "Priors on the coefficients", headers, tuple(rows)),
     ]
     if block is not None:
+        derived = "derived from the statements below" if block.rows else "given directly"
         blocks.append(Paragraph(
             "Correlated (conditional-means) prior on " + ", ".join(block.names) + ": a "
-            "multivariate normal derived from the experts' statements about the expected response "
-            "at reference rows; the table shows its marginal means and sds."
+            f"multivariate normal {derived}; the table shows its marginal means and sds."
         ))  # fmt: skip
+        if block.rows:
+            rows = tuple(
+                (", ".join(f"{k} = {_number(v)}" for k, v in row.at),
+                 f"{_number(row.low)} to {_number(row.high)} {ctx.response_units}",
+                 f"{100 * row.mass:g}%", row.expert or "not named", row.rationale or "-")
+                for row in block.rows
+            )  # fmt: skip
+            blocks.append(Table("reference_rows", "Stated expected response at reference rows",
+                                ("at", f"stated range of the expected {r.response}", "mass",
+                                 "stated by", "rationale"), rows))  # fmt: skip
     blocks.append(Paragraph(_noise_prior_text(priors, ctx.response_units)))
     if r.penalties:
         basis = r.penalties[0]["noise_basis"]

@@ -354,6 +354,30 @@ def test_report_of_a_sampled_fit_shows_convergence(tmp_path):
     assert study["random seed"] == "not recorded"  # fit from the API without provenance
 
 
+def test_correlated_block_lists_its_stated_rows():
+    frame = pd.read_csv(DEMO / "trial_mix.csv")
+    doc = {
+        "study": {"response_units": "MPa"},
+        "correlation": {"names": ["intercept", "water_cement"], "row": [
+            {"at": {"water_cement": 0.45}, "low": 50.0, "high": 58.0, "mass": 0.9,
+             "expert": "engineer A", "rationale": "low w/c mixes"},
+            {"at": {"water_cement": 0.55}, "low": 42.0, "high": 50.0, "mass": 0.9,
+             "expert": "engineer A", "rationale": "high w/c mixes"},
+        ]},
+    }  # fmt: skip
+    result = bayes.fit(frame, "strength", NAMES, priors=parse_priors(doc))
+    report = report_from_result(result, figures=False)
+    tables = {b.key: b for s in report.sections if s.key == "priors" for b in s.blocks
+              if b.kind == "table"}  # fmt: skip
+    assert [r[0] for r in tables["reference_rows"].rows] == [
+        "water_cement = 0.45",
+        "water_cement = 0.55",
+    ]
+    assert tables["reference_rows"].rows[0][1] == "50 to 58 MPa"
+    families = {r[0]: r[2] for r in tables["priors"].rows}
+    assert families["water_cement"] == "normal (correlated block)"
+
+
 # --------------------------------------------------------------------------- HTML and Markdown
 
 
