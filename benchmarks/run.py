@@ -66,7 +66,7 @@ def machine() -> dict:
         info["cpu"] = next(
             (line.split(":", 1)[1].strip() for line in fh if line.startswith("model name")), "?"
         )
-    info["blas"] = [{k: lib.get(k) for k in ("internal_api", "version", "architecture",
+    info["blas"] = [{k: lib.get(k) for k in ("prefix", "internal_api", "version", "architecture",
                                              "num_threads", "threading_layer")}
                     for lib in threadpool_info() if lib.get("user_api") == "blas"]  # fmt: skip
     return info
@@ -386,8 +386,15 @@ def main() -> None:
             out = five_gb(Path(tmp)) | {"machine": machine()}
         (HERE / "results_5gb.json").write_text(json.dumps(out, indent=2, default=float) + "\n")
         return
+    # Load every BLAS first (numpy's and scipy's are separate libraries): threadpoolctl
+    # limits only the libraries loaded when the limit is set.
+    import scipy.linalg  # noqa: F401
     from threadpoolctl import threadpool_limits
 
+    try:
+        import sklearn.linear_model  # noqa: F401
+    except ImportError:
+        pass
     start = time.perf_counter()
     results = {"machine": machine(), "blas_threads": args.blas_threads,
                "repeats": args.repeats}  # fmt: skip
