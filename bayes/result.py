@@ -183,8 +183,9 @@ def make_result(
             f"{CONDITION_WARNING:g}): collinear predictors; coefficients with flat priors are "
             "poorly determined and informative priors weigh heavily."
         )
-    if data is not None and data.dropped:
-        all_notes.append(f"{data.dropped} row(s) with missing values dropped.")
+    dropped = data.dropped if data is not None else (provenance or {}).get("dropped", 0)
+    if dropped:
+        all_notes.append(f"{dropped} row(s) with missing values dropped.")
     terms = getattr(data, "terms", None)
     if terms is not None:
         all_notes.extend(terms.notes)

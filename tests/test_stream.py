@@ -252,7 +252,9 @@ def test_drop_missing_drops_the_same_rows(tmp_path, records, priors):
     assert streamed.dropped == 4 and streamed.rows == 3000 and streamed.factor.n == 2996
     reference, design = in_memory(path, priors, drop_missing=True)
     assert design.dropped == 4
-    assert_same_fit(fit_factor(streamed.factor, priors, "output"), reference)
+    result = fit_factor(streamed.factor, priors, "output", provenance={"dropped": streamed.dropped})
+    assert_same_fit(result, reference)
+    assert "4 row(s) with missing values dropped." in result.notes
 
 
 def test_all_rows_dropped_and_header_only_files(tmp_path):
