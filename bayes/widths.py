@@ -36,7 +36,7 @@ mean and variance (``beta = offset + G eta + H eps``, natural units).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 from scipy import linalg, special, stats
@@ -351,6 +351,8 @@ class CoefficientMixtures:
         zq = special.ndtri(q)
         if self.locs.shape[1] == 1:
             return self.locs[:, 0] + self.scales[:, 0] * zq
+        if q > 0.5:  # the lower tail of -beta: its CDF resolves 1 - q to full precision
+            return -replace(self, locs=-self.locs).quantile(1.0 - q)
         # Safeguarded Newton: the quantile lies between the components' own quantiles.
         each = self.locs + zq * self.scales
         lo, hi = each.min(axis=1), each.max(axis=1)
@@ -364,7 +366,9 @@ class CoefficientMixtures:
             with np.errstate(divide="ignore", invalid="ignore"):
                 step = np.where(dens > 0, F / dens, np.inf)
             new = x - step
-            outside = ~((new > lo) & (new < hi))
+            # Closed bracket: a converged step rounds to x, which may be a bracket end;
+            # sending it to the midpoint would restart the search by bisection.
+            outside = ~((new >= lo) & (new <= hi))
             new = np.where(outside, 0.5 * (lo + hi), new)
             tol = 1e-15 * (np.abs(new) + self.scales.min(axis=1))
             done = (np.abs(new - x) <= tol) | (hi - lo <= tol)
