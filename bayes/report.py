@@ -347,7 +347,8 @@ def _data(ctx: _Context) -> Section:
         if decisive:
             note += (
                 " For " + ", ".join(decisive) + " the posterior sd is more than "
-                f"{DECISIVE_RATIO:g} times the prior sd: the priors, not the data, decide them."
+                f"{DECISIVE_RATIO:g} times the prior sd: the priors, not the data, decide "
+                + ("it." if len(decisive) == 1 else "them.")
             )
         blocks.append(Paragraph(note))
     else:
