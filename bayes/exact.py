@@ -28,6 +28,7 @@ from .problem import DataFactor, ScaledPrior, natural_transform
 
 QUADRATURE_NODES = 64
 _TAIL = 46.0  # log-density drop at the ends of the quadrature interval (exp(-46) ~ 1e-20)
+_GAUSS_LEGENDRE = np.polynomial.legendre.leggauss(QUADRATURE_NODES)  # nodes, weights on [-1, 1]
 
 
 @dataclass(frozen=True)
@@ -230,7 +231,7 @@ def _quadrature(logf, u0: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
         lo -= 2 * sd
     while logf(hi) > top - _TAIL:
         hi += 2 * sd
-    x, wts = np.polynomial.legendre.leggauss(QUADRATURE_NODES)
+    x, wts = _GAUSS_LEGENDRE
     nodes = (hi - lo) / 2 * x + (hi + lo) / 2
     wts = wts * (hi - lo) / 2
     return nodes, wts, np.array([logf(u) for u in nodes])
