@@ -219,8 +219,13 @@ def _maximise(f, u0: float) -> float:
     return float(res.x)
 
 
-def _quadrature(logf, u0: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Gauss-Legendre nodes covering where logf is within _TAIL of its maximum."""
+def _quadrature(
+    logf, u0: float, vectorised: bool = False
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Gauss-Legendre nodes covering where logf is within _TAIL of its maximum.
+
+    With ``vectorised`` logf takes an array of u and is called once for all the nodes.
+    """
     u_star = _maximise(logf, u0)
     top = logf(u_star)
     h = 1e-3
@@ -234,4 +239,4 @@ def _quadrature(logf, u0: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     x, wts = _GAUSS_LEGENDRE
     nodes = (hi - lo) / 2 * x + (hi + lo) / 2
     wts = wts * (hi - lo) / 2
-    return nodes, wts, np.array([logf(u) for u in nodes])
+    return nodes, wts, logf(nodes) if vectorised else np.array([logf(u) for u in nodes])

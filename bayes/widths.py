@@ -225,19 +225,24 @@ class WidthPath:
 
     # ------------------------------------------------------------------ the noise
 
-    def log_density(self, u: float, lam: float, alpha: float = 1.0) -> float:
-        """log p(log sigma = u | y) up to a constant, the likelihood raised to ``alpha``."""
+    def log_density(self, u: float | np.ndarray, lam: float, alpha: float = 1.0) -> np.ndarray:
+        """log p(log sigma = u | y) up to a constant, the likelihood raised to ``alpha``.
+
+        ``u`` is a float or an array (log noise sd); the result has its shape.
+        """
         with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
             # far out in the quadrature's search the value is -inf or nan: it is never chosen
             return self._log_density(u, lam, alpha)
 
-    def _log_density(self, u: float, lam: float, alpha: float) -> float:
-        s2 = np.exp(2 * u)
+    def _log_density(self, u: float | np.ndarray, lam: float, alpha: float) -> np.ndarray:
+        s2 = np.exp(2 * np.asarray(u, dtype=float))
         se2 = s2 / alpha  # the Gaussian part of likelihood**alpha is that at sigma / sqrt(alpha)
-        ss = self.s**2
-        quad = float(np.sum(lam * (self.z - self.s * self.t) ** 2 / (ss + lam * se2)))
+        e2, ss = se2[..., None], self.s**2
+        quad = np.sum(lam * (self.z - self.s * self.t) ** 2 / (ss + lam * e2), axis=-1)
         quad += self.resid2 / se2
-        half_logdet = -self.k_flat * 0.5 * np.log(se2) + 0.5 * float(np.sum(np.log(ss / se2 + lam)))
+        half_logdet = -self.k_flat * 0.5 * np.log(se2) + 0.5 * np.sum(
+            np.log(ss / e2 + lam), axis=-1
+        )
         # InvGamma(a, b) on sigma^2 up to a constant; a = b = 0 is the Jeffreys prior.
         noise = self.prior.noise
         log_prior = -(noise.shape + 1) * np.log(s2) - noise.scale / s2
@@ -259,7 +264,9 @@ class WidthPath:
         """
         if self.known:
             return np.ones(1), np.array([self.prior.noise.sd])
-        nodes, gl, logf = _quadrature(lambda u: self.log_density(u, lam, alpha), self.u0)
+        nodes, gl, logf = _quadrature(
+            lambda u: self.log_density(u, lam, alpha), self.u0, vectorised=True
+        )
         keep = logf >= logf.max() - _TAIL
         weights = gl[keep] * np.exp(logf[keep] - logf.max())
         return weights / weights.sum(), np.exp(nodes[keep])
