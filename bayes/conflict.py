@@ -257,14 +257,15 @@ def power_scaling_exact(path: WidthPath) -> dict:
     """
     base = CoefficientMixtures.from_path(path, 1.0)
     x, dx = _simpson_grid(base)
-    P, P_sf = base.cdf(x), base.sf(x)
+    P, P_sf = base.tails(x)
     out = {}
     for component in ("prior", "likelihood"):
         total = np.zeros(len(path.names))
         for a in POWER_ALPHAS:
             mix = (CoefficientMixtures.from_path(path, a) if component == "prior"
                    else CoefficientMixtures.from_path(path, 1.0, a))  # fmt: skip
-            total += _unsigned(P, mix.cdf(x), P_sf, mix.sf(x), dx) / abs(math.log2(a))
+            Q, Q_sf = mix.tails(x)
+            total += _unsigned(P, Q, P_sf, Q_sf, dx) / abs(math.log2(a))
         out[component] = total / len(POWER_ALPHAS)
     return _rows(path.names, out["prior"], out["likelihood"], "exact power-scaled posteriors")
 

@@ -340,19 +340,26 @@ class CoefficientMixtures:
         flat = x.reshape(x.shape[0], -1)  # (k, m)
         return (flat[:, :, None] - self.locs[:, None, :]) / self.scales[:, None, :], x.shape
 
+    def tails(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """``P(beta_j <= x_j)`` and ``P(beta_j > x_j)`` for x of shape (k,) or (k, m).
+
+        One tail per component serves both: the smaller is computed directly and the
+        larger (at least 1/2) as its complement, so neither cancels.
+        """
+        z, shape = self._z(x)
+        small = stats.t.sf(np.abs(z), self.df) if np.isfinite(self.df) else special.ndtr(-np.abs(z))
+        below = z < 0
+        cdf = np.where(below, small, 1.0 - small) @ self.weights
+        sf = np.where(below, 1.0 - small, small) @ self.weights
+        return cdf.reshape(shape), sf.reshape(shape)
+
     def cdf(self, x: np.ndarray) -> np.ndarray:
         """P(beta_j <= x_j) for x of shape (k,) or (k, m); same shape out."""
-        z, shape = self._z(x)
-        if np.isfinite(self.df):
-            return stats.t.cdf(z[..., 0], self.df).reshape(shape)
-        return (special.ndtr(z) @ self.weights).reshape(shape)
+        return self.tails(x)[0]
 
     def sf(self, x: np.ndarray) -> np.ndarray:
         """P(beta_j > x_j), computed without cancellation in the upper tail."""
-        z, shape = self._z(x)
-        if np.isfinite(self.df):
-            return stats.t.sf(z[..., 0], self.df).reshape(shape)
-        return (special.ndtr(-z) @ self.weights).reshape(shape)
+        return self.tails(x)[1]
 
     def quantile(self, q: float) -> np.ndarray:
         """The q-quantile of every coefficient, shape (k,), to about 1e-13 relative."""
