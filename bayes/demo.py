@@ -6,7 +6,7 @@ from collections.abc import Callable
 from importlib import resources
 from pathlib import Path
 
-DEMO_FILES = ("trial_mix.csv", "priors.toml")
+DEMO_FILES = ("trial_mix.csv", "priors.toml", "priors_optimistic.toml")
 
 
 def demo_path(name: str) -> Path:
@@ -15,14 +15,16 @@ def demo_path(name: str) -> Path:
 
 
 def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
-    """The whole job on the demo study: prior file -> fit -> sweep -> report, into ``out``.
+    """The whole job on the demo study: prior file -> fit -> sweep -> compare -> report.
 
-    ``out/fit/`` holds the saved fit and its sweep (``sweep.json``); ``out/report.html``
+    ``out/fit/`` holds the saved fit, its sweep (``sweep.json``) and the comparison with a
+    second engineer's prior file (``compare.json``); ``out/report.html``
     (self-contained), ``out/report.md`` with its PNG figures beside it, and ``out/tables/*.csv``
     the report.
     """
-    from .api import fit
+    from .api import fit, load_priors
     from .cli import fit_command, provenance
+    from .compare import compare_priors, save_comparison
     from .design import read_table
     from .render import outputs_text, write_report
     from .report import report_from_result
@@ -47,7 +49,15 @@ def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
     for line in swept.headline:
         echo(f"  {line}")
     echo("")
-    report = report_from_result(result, swept.to_dict())
+    other = demo_path("priors_optimistic.toml")
+    comparison = compare_priors(
+        result.data, [load_priors(priors), load_priors(other)], seed=settings["seed"]
+    )
+    save_comparison(comparison, out / "fit")
+    echo(f"Comparison with a second engineer's prior file ({other.name}):")
+    echo(comparison.text())
+    echo("")
+    report = report_from_result(result, swept.to_dict(), comparison.to_dict())
     html, markdown, tables = out / "report.html", out / "report.md", out / "tables"
     write_report(report, html, markdown, tables)
     echo(outputs_text(report, html, markdown, tables))

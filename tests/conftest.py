@@ -12,6 +12,7 @@ import pytest
 ROOT = Path(__file__).resolve().parents[1]
 NIST = ROOT / "tests" / "reference" / "nist-strd"  # copy of shared/reference/nist-strd
 DEMO = ROOT / "bayes" / "demo"
+GAUSSIAN_PRIORS = ROOT / "tests" / "data" / "priors_gaussian.toml"  # demo priors, all normal
 
 
 def lre(estimate: float, certified: float) -> float:

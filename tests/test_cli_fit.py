@@ -8,7 +8,7 @@ import numpy as np
 import pandas as pd
 import pytest
 from click.testing import CliRunner
-from conftest import DEMO, NIST
+from conftest import DEMO, GAUSSIAN_PRIORS, NIST
 
 from bayes.cli import main
 
@@ -27,7 +27,7 @@ def test_longley_without_priors_prints_the_certified_coefficients(certified):
 
 
 def test_json_holds_the_contract_fields():
-    out = run("fit", DEMO / "trial_mix.csv", "--priors", DEMO / "priors.toml", "--format", "json")
+    out = run("fit", DEMO / "trial_mix.csv", "--priors", GAUSSIAN_PRIORS, "--format", "json")
     assert out.exit_code == 0, out.output
     doc = json.loads(out.output)
     assert doc["method"] == "exact"

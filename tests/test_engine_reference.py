@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
-from conftest import DEMO, lre
+from conftest import DEMO, GAUSSIAN_PRIORS, lre
 from scipy import integrate, stats
 
 import bayes
@@ -84,7 +84,7 @@ def test_known_noise_posterior_equals_textbook_closed_form():
     # precision = X'X / sigma^2 + P, mean = precision^-1 (X'y / sigma^2 + P m), with P = 0 for
     # the flat intercept. Computed here independently with the normal equations.
     frame = pd.read_csv(DEMO / "trial_mix.csv")
-    priors = read_prior_file(DEMO / "priors.toml")
+    priors = read_prior_file(GAUSSIAN_PRIORS)
     names = ["water_cement", "fly_ash", "curing_temp", "superplasticizer"]
     sigma = 2.5
     doc = {
@@ -120,7 +120,7 @@ def test_unknown_noise_quantiles_match_brute_force_integration():
     # p(sigma^2 | y) ~ p(sigma^2) sigma^-(n) |A(sigma)|^-1/2 exp(-S(sigma)/2), with the
     # normal equations, independently of the engine's QR and quadrature.
     frame = pd.read_csv(DEMO / "trial_mix.csv")
-    priors = read_prior_file(DEMO / "priors.toml")
+    priors = read_prior_file(GAUSSIAN_PRIORS)
     names = ["water_cement", "fly_ash", "curing_temp", "superplasticizer"]
     result = bayes.fit(frame, "strength", names, priors=priors)
     X = np.column_stack([np.ones(len(frame)), frame[names].to_numpy()])

@@ -7,7 +7,7 @@ import json
 import numpy as np
 import pytest
 from click.testing import CliRunner
-from conftest import DEMO
+from conftest import DEMO, GAUSSIAN_PRIORS
 from scipy import integrate, linalg, optimize, special, stats
 
 import bayes
@@ -437,9 +437,19 @@ def test_kass_raftery_scale():
     assert kass_raftery(12.0) == "very strong"
 
 
+def _gaussian_demo_sets(tmp_path):
+    """The two demo prior files with every stated range read as a normal prior (exact)."""
+    from elicit.write import write_prior_file
+
+    a = tmp_path / "priors_normal.toml"
+    write_prior_file(bayes.api.load_priors(DEMO / "priors.toml").as_family("normal"), a)
+    return a, DEMO / "priors_optimistic.toml"
+
+
 def test_compare_demo_prior_files_json(tmp_path, demo_frame):
     fit_dir = tmp_path / "fit"
-    data, a, b = DEMO / "trial_mix.csv", DEMO / "priors.toml", DEMO / "priors_optimistic.toml"
+    a, b = _gaussian_demo_sets(tmp_path)
+    data = DEMO / "trial_mix.csv"
     assert run("fit", data, "--priors", a, "--save", fit_dir).exit_code == 0
     out = run("compare", data, "--priors", a, "--priors", b, "--format", "json", "--save", fit_dir)
     assert out.exit_code == 0, out.output
@@ -467,11 +477,11 @@ def test_compare_demo_prior_files_json(tmp_path, demo_frame):
 
 def test_compare_sets_with_different_flat_parts_are_not_given_a_bayes_factor(tmp_path):
     flat_wc = tmp_path / "flat_wc.toml"
-    text = (DEMO / "priors.toml").read_text()
+    text = GAUSSIAN_PRIORS.read_text()
     flat_wc.write_text(text.replace('name = "water_cement"\nfamily = "normal"',
                                     'name = "water_cement"\nfamily = "flat"')
                        .split("low = -9.0")[0] + "\n")  # fmt: skip
-    out = run("compare", DEMO / "trial_mix.csv", "--priors", DEMO / "priors.toml",
+    out = run("compare", DEMO / "trial_mix.csv", "--priors", GAUSSIAN_PRIORS,
               "--priors", flat_wc, "--format", "json")  # fmt: skip
     assert out.exit_code == 0, out.output
     doc = json.loads(out.output)
@@ -497,11 +507,11 @@ def test_compare_errors_are_one_line(tmp_path):
     assert out.exit_code == 2 and "name different responses (slump, strength)" in out.output
 
 
-def test_sampled_comparison_agrees_with_the_exact_one(demo_frame):
+def test_sampled_comparison_agrees_with_the_exact_one(demo_frame, tmp_path):
     # The same Gaussian prior sets, once exact and once through Gibbs draws: bridge sampling
     # within 3 of its Monte Carlo standard errors, PSIS-LOO within its standard error.
     design = build_design(demo_frame, "strength")
-    sets = [bayes.api.load_priors(DEMO / n) for n in ("priors.toml", "priors_optimistic.toml")]
+    sets = [bayes.api.load_priors(path) for path in _gaussian_demo_sets(tmp_path)]
     exact = compare_priors(design, sets)
     sampled = compare_priors(design, sets, method="sample", chains=4, draws=1500, warmup=500,
                              seed=4)  # fmt: skip

@@ -8,7 +8,7 @@ import math
 import numpy as np
 import pandas as pd
 import pytest
-from conftest import DEMO, lre
+from conftest import DEMO, GAUSSIAN_PRIORS, lre
 from scipy import integrate, special, stats
 from threadpoolctl import threadpool_limits
 
@@ -38,7 +38,7 @@ def demo_factor() -> DataFactor:
 
 @pytest.fixture(scope="module")
 def demo_priors():
-    return load_priors(DEMO / "priors.toml")
+    return load_priors(GAUSSIAN_PRIORS)
 
 
 def refit(factor, priors):

@@ -6,13 +6,13 @@ import json
 
 import pytest
 from click.testing import CliRunner
-from conftest import DEMO
+from conftest import DEMO, GAUSSIAN_PRIORS
 from threadpoolctl import threadpool_limits
 
 from bayes.cli import main
 from bayes.sensitivity import plot_sweep
 
-DATA, PRIORS = DEMO / "trial_mix.csv", DEMO / "priors.toml"
+DATA, PRIORS = DEMO / "trial_mix.csv", GAUSSIAN_PRIORS
 
 
 @pytest.fixture(autouse=True)
