@@ -79,6 +79,19 @@ def test_gaussian_mode_equals_sklearn_ridge():
     np.testing.assert_allclose(mode[0], ridge.intercept_, rtol=1e-8)
 
 
+def _normal_equations_problem(frame, names, priors):
+    """Design with intercept, response, prior precision P (0 for flat) and prior means m."""
+    X = np.column_stack([np.ones(len(frame)), frame[names].to_numpy()])
+    y = frame["strength"].to_numpy()
+    P = np.zeros((X.shape[1], X.shape[1]))
+    m = np.zeros(X.shape[1])
+    for cp in priors.coefficients:
+        j = 1 + names.index(cp.column)
+        P[j, j] = 1 / cp.scale**2
+        m[j] = cp.center
+    return X, y, P, m
+
+
 def test_known_noise_posterior_equals_textbook_closed_form():
     # Source: conjugate normal linear model, Gelman et al., Bayesian Data Analysis, ch. 14:
     # precision = X'X / sigma^2 + P, mean = precision^-1 (X'y / sigma^2 + P m), with P = 0 for
@@ -95,14 +108,7 @@ def test_known_noise_posterior_equals_textbook_closed_form():
         "noise": {"sd": sigma},
     }
     result = bayes.fit(frame, "strength", names, priors=parse_priors(doc, "test"))
-    X = np.column_stack([np.ones(len(frame)), frame[names].to_numpy()])
-    y = frame["strength"].to_numpy()
-    P = np.zeros((5, 5))
-    m = np.zeros(5)
-    for cp in priors.coefficients:
-        j = 1 + names.index(cp.column)
-        P[j, j] = 1 / cp.scale**2
-        m[j] = cp.center
+    X, y, P, m = _normal_equations_problem(frame, names, priors)
     precision = X.T @ X / sigma**2 + P
     cov = np.linalg.inv(precision)
     mean = cov @ (X.T @ y / sigma**2 + P @ m)
@@ -123,15 +129,8 @@ def test_unknown_noise_quantiles_match_brute_force_integration():
     priors = read_prior_file(GAUSSIAN_PRIORS)
     names = ["water_cement", "fly_ash", "curing_temp", "superplasticizer"]
     result = bayes.fit(frame, "strength", names, priors=priors)
-    X = np.column_stack([np.ones(len(frame)), frame[names].to_numpy()])
-    y = frame["strength"].to_numpy()
+    X, y, P, m = _normal_equations_problem(frame, names, priors)
     n = len(y)
-    P = np.zeros((5, 5))
-    m = np.zeros(5)
-    for cp in priors.coefficients:
-        j = 1 + names.index(cp.column)
-        P[j, j] = 1 / cp.scale**2
-        m[j] = cp.center
     a, b = priors.noise.shape, priors.noise.scale
 
     def conditional(s):
