@@ -254,7 +254,7 @@ class WidthPath:
         Known noise: one component. Otherwise the Gauss-Legendre quadrature of
         :mod:`bayes.exact` over log sigma, without the nodes where the density is below
         exp(-_TAIL) of its peak: the quadrature covers only where it is above, and such a
-        node changes a probability by less than 1e-20.
+        node's weight is of order 1e-20 or less.
 
         Returns
         -------
