@@ -115,7 +115,7 @@ def plot_sweep(sweep, path_or_axes=None, intercept: bool = False):
                 handles.append(h)
                 labels.append(lab)
     if handles and (target is None or isinstance(target, (str, os.PathLike, Figure))):
-        fig.legend(handles, labels, loc="outside lower center", ncols=min(6, len(labels)),
+        fig.legend(handles, labels, loc="outside lower center", ncols=min(3, len(labels)),
                    frameon=False, fontsize=8)  # fmt: skip
     if isinstance(target, (str, os.PathLike)):
         _save(fig, Path(target))
