@@ -133,7 +133,7 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> Posterior:
         f"noise sd integrated out exactly ({QUADRATURE_NODES}-node Gauss-Legendre quadrature "
         "in log sigma)",
         weights, np.exp(nodes), means, covs, mode[0], "joint mode of (beta, sigma)",
-        float(np.exp(u_mode)),
+        float(np.exp(u_mode)), sigma_cdf=quad.sigma_cdf(),
     )  # fmt: skip
 
 
@@ -162,6 +162,23 @@ class NoiseQuadrature:
         """log of the integral of exp(f) over u: the normalising constant."""
         top = float(self.log_density.max())
         return top + float(np.log(np.sum(self.weights * np.exp(self.log_density - top))))
+
+    def sigma_cdf(self, points: int = 20001) -> np.ndarray:
+        """The posterior cdf of the noise sd on a fine grid, shape (2, points): (sigma, cdf).
+
+        log f is smooth in u, so its interpolating polynomial at the Gauss-Legendre nodes
+        (barycentric form, stable at these nodes) is accurate far below the printed digits;
+        the cdf is its exponential integrated by the cumulative Simpson rule. Reading a
+        quantile off the grid linearly errs by about h^2 f'/8 in probability: with 20001
+        points over the ~18 posterior sds of the interval, a few times 1e-8.
+        """
+        from scipy.integrate import cumulative_simpson
+        from scipy.interpolate import BarycentricInterpolator
+
+        grid = np.linspace(self.nodes[0], self.nodes[-1], points)
+        logf = BarycentricInterpolator(self.nodes, self.log_density - self.log_density.max())
+        cdf = cumulative_simpson(np.exp(logf(grid)), x=grid, initial=0.0)
+        return np.vstack([np.exp(grid), cdf / cdf[-1]])
 
 
 def noise_quadrature(factor: DataFactor, prior: ScaledPrior) -> NoiseQuadrature:

@@ -47,6 +47,9 @@ class Posterior:
     draws : ndarray, shape (chains, draws, k), optional
         Sampled fits.
     sigma_draws : ndarray, shape (chains, draws), optional
+    sigma_cdf : ndarray, shape (2, G), optional
+        The noise sd's posterior cdf on a fine grid (sigma, cdf) when the noise was
+        integrated out by quadrature.
     """
 
     names: tuple[str, ...]
@@ -63,6 +66,7 @@ class Posterior:
     noise_known: bool = False
     draws: np.ndarray | None = None
     sigma_draws: np.ndarray | None = None
+    sigma_cdf: np.ndarray | None = None
 
     @property
     def k(self) -> int:
@@ -131,6 +135,9 @@ class Posterior:
             # sigma^2 ~ InvGamma(df/2, df s^2/2): the conjugate case
             s2 = stats.invgamma.ppf(q, self.df / 2, scale=self.df * self.sigma[0] ** 2 / 2)
             return float(np.sqrt(s2))
+        if self.sigma_cdf is not None:
+            return float(np.interp(q, self.sigma_cdf[1], self.sigma_cdf[0]))
+        # Only the quadrature weights: a mid-point reading, good to about the node spacing.
         order = np.argsort(self.sigma)
         cum = np.cumsum(self.weights[order])
         return float(np.interp(q, cum - self.weights[order] / 2, self.sigma[order]))

@@ -58,6 +58,8 @@ def save_fit(result: FitResult, folder: str | Path) -> Path:
         if post.draws is not None:
             arrays["draws"] = post.draws
             arrays["sigma_draws"] = post.sigma_draws
+        if post.sigma_cdf is not None:
+            arrays["sigma_cdf"] = post.sigma_cdf
         np.savez(tmp / "posterior.npz", **arrays)
         doc = result.to_dict()
         doc["labels"] = {"method": post.method, "detail": post.detail, "mode_kind": post.mode_kind}
@@ -123,6 +125,7 @@ def load_fit(folder: str | Path) -> FitResult:
         df=float(df), noise_known=bool(known),
         draws=z["draws"] if "draws" in z else None,
         sigma_draws=z["sigma_draws"] if "sigma_draws" in z else None,
+        sigma_cdf=z["sigma_cdf"] if "sigma_cdf" in z else None,
     )  # fmt: skip
     text = (folder / "priors.toml").read_text()
     priors = (

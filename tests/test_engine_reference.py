@@ -165,6 +165,12 @@ def test_unknown_noise_quantiles_match_brute_force_integration():
 
         mean = integrate.quad(mean_integrand, lo, hi, epsabs=0, epsrel=1e-12, limit=200)[0] / norm
         assert row["mean"] == pytest.approx(mean, rel=1e-9, abs=1e-12)
+    # The noise sd's posterior quantiles (printed with 4 significant digits) against the same
+    # brute-force density.
+    for q in (0.025, 0.5, 0.975):
+        s_q = result.posterior.sigma_quantile(q)
+        cdf = integrate.quad(dens, lo, s_q, epsabs=0, epsrel=1e-12, limit=200)[0] / norm
+        assert cdf == pytest.approx(q, abs=1e-7), q
 
 
 def test_flat_prior_with_stated_noise_is_conjugate_student_t(longley):
