@@ -233,7 +233,7 @@ def interview(
             "run the same command to resume",
             err=True,
         )
-        sys.exit(1)
+        sys.exit(2)  # an interrupted interview is bad input: status 2, nothing lost
 
 
 if __name__ == "__main__":

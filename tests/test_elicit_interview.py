@@ -111,7 +111,7 @@ def test_input_ending_early_keeps_accepted_answers(tmp_path):
     env = dict(os.environ, PYTHONPATH=str(ROOT))
     run = subprocess.run(command(tmp_path), input=lines(X1 + X2[:4]), cwd=ROOT, env=env,
                          text=True, capture_output=True)  # fmt: skip
-    assert run.returncode == 1
+    assert run.returncode == 2
     assert "run the same command to resume" in run.stderr
     assert "Traceback" not in run.stderr
     assert [c.column for c in read_prior_file(tmp_path / "p.toml").coefficients] == ["x1"]
