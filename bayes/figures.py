@@ -170,13 +170,14 @@ def density_figure(panels: Sequence[DensityPanel]) -> bytes:
             ax.set_ylabel("probability density")
         for ax in list(axes.flat)[len(panels) :]:
             ax.set_axis_off()
-        handles, labels = _legend_entries(axes.flat)
+        handles, labels = legend_entries(axes.flat)
         fig.legend(handles, labels, loc="outside lower center", ncols=min(4, len(labels)),
                    frameon=False)  # fmt: skip
         return png_bytes(fig)
 
 
-def _legend_entries(axes) -> tuple[list, list[str]]:
+def legend_entries(axes) -> tuple[list, list[str]]:
+    """Legend handles and labels of several axes, each label once, in order of appearance."""
     seen: dict[str, object] = {}
     for ax in axes:
         for handle, label in zip(*ax.get_legend_handles_labels(), strict=True):
@@ -239,7 +240,7 @@ def forest_figure(rows: Sequence[ForestRow], level: float) -> bytes:
         ax.set_xlabel(
             f"standardized coefficient: response sd per predictor sd ({100 * level:g}% intervals)"
         )
-        handles, labels = _legend_entries([ax])
+        handles, labels = legend_entries([ax])
         fig.legend(handles, labels, loc="outside lower center", ncols=3, frameon=False)
         return png_bytes(fig)
 

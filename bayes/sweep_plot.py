@@ -108,12 +108,9 @@ def plot_sweep(sweep, path_or_axes=None, intercept: bool = False):
         ax.set_xlabel("prior width factor (1 = as stated)", fontsize=8)
         ax.tick_params(labelsize=8)
         ax.set_ylabel(_label(c["name"], units), fontsize=8)
-    handles, labels = [], []
-    for ax in axes[: len(coefs)]:
-        for h, lab in zip(*ax.get_legend_handles_labels(), strict=True):
-            if lab not in labels:
-                handles.append(h)
-                labels.append(lab)
+    from .figures import legend_entries
+
+    handles, labels = legend_entries(axes[: len(coefs)])
     if handles and (target is None or isinstance(target, (str, os.PathLike, Figure))):
         fig.legend(handles, labels, loc="outside lower center", ncols=min(3, len(labels)),
                    frameon=False, fontsize=8)  # fmt: skip
