@@ -6,8 +6,6 @@ from collections.abc import Callable
 from importlib import resources
 from pathlib import Path
 
-DEMO_FILES = ("trial_mix.csv", "priors.toml", "priors_optimistic.toml")
-
 
 def demo_path(name: str) -> Path:
     """Path of a file of the demo study shipped inside the package."""
