@@ -7,11 +7,11 @@ def __getattr__(name: str):
     # Lazy (PEP 562): `bayes --help` imports this package and must not pay for numpy,
     # scipy and pandas.
     if name in ("fit", "fit_factor"):
-        from . import api
+        from bayes import api
 
         return getattr(api, name)
     if name == "FitResult":
-        from .result import FitResult
+        from bayes.results.result import FitResult
 
         return FitResult
     raise AttributeError(f"module 'bayes' has no attribute {name!r}")

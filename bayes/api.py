@@ -10,14 +10,14 @@ from pathlib import Path
 
 import pandas as pd
 
-from .design import Design, build_design
-from .errors import InputError
-from .exact import exact_posterior
-from .factor import factor_from_arrays
-from .problem import DataFactor
-from .result import FitResult, make_result
-from .scaled import scaled_prior
-from .terms import formula_response
+from bayes.data.design import Design, build_design
+from bayes.data.factor import factor_from_arrays
+from bayes.data.terms import formula_response
+from bayes.engine.exact import exact_posterior
+from bayes.engine.scaled import scaled_prior
+from bayes.errors import InputError
+from bayes.problem import DataFactor
+from bayes.results.result import FitResult, make_result
 
 METHODS = ("auto", "exact", "sample")
 
@@ -72,7 +72,7 @@ def fit(
     formula : str, optional
         Model formula instead of ``response``/``predictors``:
         ``"strength ~ water_cement + cement_type + fly_ash:curing_temp + I(water_cement**2)"``
-        (see :mod:`bayes.terms`). Text predictors are categorical either way.
+        (see :mod:`bayes.data.terms`). Text predictors are categorical either way.
     reference : mapping of column -> level, optional
         Reference level of each categorical predictor (default: the most frequent).
 
@@ -131,7 +131,7 @@ def fit_factor(
     if method == "exact":
         posterior = exact_posterior(factor, scaled)
         return make_result(response, factor, priors, posterior, level, data, provenance)
-    from .sampled import sampled_posterior
+    from bayes.engine.sampled import sampled_posterior
 
     posterior, columns, notes, inference = sampled_posterior(
         factor, scaled, chains, draws, warmup, seed, progress

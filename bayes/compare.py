@@ -3,7 +3,7 @@
 Every set is fitted to the same design. The log marginal likelihoods give Bayes
 factors and the posterior probabilities of the sets under equal prior odds, read
 on the scale of Kass and Raftery (1995); the leave-one-out predictive densities
-(:mod:`bayes.evidence`) compare the sets by how well they predict each row from
+(:mod:`bayes.engine.evidence`) compare the sets by how well they predict each row from
 the others, which depends much less on the prior widths.
 """
 
@@ -16,9 +16,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .design import Design
-from .errors import InputError
-from .evidence import (
+from bayes.data.design import Design
+from bayes.engine.evidence import (
     Evidence,
     LooResult,
     bridge_sampling,
@@ -26,7 +25,8 @@ from .evidence import (
     log_marginal_likelihood,
     psis_loo,
 )
-from .summary import fmt, format_table
+from bayes.errors import InputError
+from bayes.results.summary import fmt, format_table
 
 # Kass and Raftery (1995), section 3.2: evidence against the other set, on 2 ln B.
 KASS_RAFTERY = ((2.0, "not worth more than a bare mention"), (6.0, "positive"),
@@ -304,10 +304,10 @@ def compare_priors(
     -------
     Comparison
     """
-    from .exact import exact_posterior
-    from .factor import factor_from_arrays
-    from .problem import to_natural
-    from .scaled import scaled_prior
+    from bayes.data.factor import factor_from_arrays
+    from bayes.engine.exact import exact_posterior
+    from bayes.engine.scaled import scaled_prior
+    from bayes.problem import to_natural
 
     if len(prior_sets) < 2:
         raise InputError(
@@ -334,7 +334,7 @@ def compare_priors(
             continue
         import arviz as az
 
-        from .gibbs import sample
+        from bayes.engine.gibbs import sample
 
         d = sample(factor, scaled, chains, draws, warmup, seed, progress)
         ev = bridge_sampling(factor, scaled, d.gamma, d.sigma, seed)

@@ -4,7 +4,7 @@
 
 For n = 1000, p = 50 and n = 200, p = 500 (INVENTED data: seeded random
 numbers), Laplace priors on every slope, a flat intercept and an inverse-gamma
-noise prior, it times ``bayes.gibbs.sample`` and reports the smallest bulk
+noise prior, it times ``bayes.engine.gibbs.sample`` and reports the smallest bulk
 effective sample size over the coefficients (arviz) per second of wall time.
 The reference run, in the same process on the same data, draws the same
 number of independent draws from the exact Gaussian posterior of the
@@ -46,8 +46,8 @@ def min_bulk_ess(draws: np.ndarray) -> float:
 
 
 def gibbs_run(X, y, b: float, chains: int, draws: int, warmup: int) -> dict:
-    from bayes import gibbs
-    from bayes.factor import factor_from_arrays
+    from bayes.data.factor import factor_from_arrays
+    from bayes.engine import gibbs
     from bayes.problem import NoiseSpec, ScaledPrior, to_natural
 
     n, p = X.shape
@@ -95,7 +95,7 @@ def main() -> None:
     args = parser.parse_args()
     from threadpoolctl import threadpool_limits
 
-    import bayes.gibbs  # noqa: F401  (load scipy's BLAS before limiting its threads)
+    import bayes.engine.gibbs  # noqa: F401  (load scipy's BLAS before limiting its threads)
 
     print(f"{'case':>16} {'route':>8} {'seconds':>8} {'min ESS':>8} {'ESS/s':>9} "
           f"{'exact ESS/s':>12} {'ratio':>8}")  # fmt: skip

@@ -9,7 +9,7 @@ measured in child processes (``resource.getrusage`` and ``tracemalloc``), and
 the start-up time of ``bayes --help`` in a subprocess. Results go to
 benchmarks/results.json (git-ignored); benchmarks/RESULTS.md records a run.
 
-Modules written in other issues (bayes.modes, bayes.sensitivity, bayes.gibbs)
+Modules written in other issues (bayes.engine.modes, bayes.sensitivity.sweep, bayes.engine.gibbs)
 are imported when their line runs; if one is missing the line says so.
 """
 
@@ -104,7 +104,7 @@ def row(name, ours, ref, goal, ok, note="", ref_name="") -> dict:
 def exact_vs_lstsq(repeats: int) -> dict:
     """bayes.api.fit_factor on factor_from_arrays vs numpy.linalg.lstsq, n = 10^6, p = 50."""
     from bayes.api import fit_factor
-    from bayes.factor import factor_from_arrays
+    from bayes.data.factor import factor_from_arrays
 
     n, p = 1_000_000, 50
     X, y, names = invented_design(n, p, seed=1)
@@ -127,12 +127,12 @@ def exact_vs_lstsq(repeats: int) -> dict:
 
 
 def stream_vs_read_csv(repeats: int, folder: Path) -> dict:
-    """bayes.stream.stream_factor + fit_factor vs pandas.read_csv of the same CSV."""
+    """bayes.data.stream.stream_factor + fit_factor vs pandas.read_csv of the same CSV."""
     import pandas as pd
 
     from bayes.api import fit_factor
-    from bayes.design import CSV_OPTIONS
-    from bayes.stream import stream_factor
+    from bayes.data.design import CSV_OPTIONS
+    from bayes.data.stream import stream_factor
 
     n, p = 500_000, 20
     path = folder / "stream.csv"
@@ -142,7 +142,7 @@ def stream_vs_read_csv(repeats: int, folder: Path) -> dict:
     def ours():
         return fit_factor(stream_factor(path, "y").factor, None, "y")
 
-    # The reference parses as every fit does (bayes.design.CSV_OPTIONS: skipinitialspace);
+    # The reference parses as every fit does (bayes.data.design.CSV_OPTIONS: skipinitialspace);
     # pandas' defaults alone are shown beside it.
     t_ours, t_ref = paired(ours, lambda: pd.read_csv(path, **CSV_OPTIONS), repeats)
     t_plain = median_time(lambda: pd.read_csv(path), repeats)
@@ -160,8 +160,8 @@ def child(mode: str, path: str, trace: bool) -> None:
     import tracemalloc
 
     from bayes.api import fit, fit_factor
-    from bayes.design import build_design, read_table
-    from bayes.stream import stream_factor
+    from bayes.data.design import build_design, read_table
+    from bayes.data.stream import stream_factor
 
     if trace:
         tracemalloc.start()
@@ -233,16 +233,16 @@ def five_gb(folder: Path) -> dict:
 
 
 def laplace_vs_lasso(repeats: int) -> dict:
-    """bayes.modes.posterior_mode (Laplace priors, known sd) vs sklearn Lasso, n=1e5, p=200."""
+    """bayes.engine.modes.posterior_mode (Laplace, known sd) vs sklearn Lasso, n=1e5, p=200."""
     try:
-        from bayes.modes import posterior_mode
+        from bayes.engine.modes import posterior_mode
     except ImportError as e:
         return row("Laplace mode vs Lasso", None, None, "<= 2x", None, f"not available ({e})")
     from sklearn.linear_model import Lasso
 
-    from bayes.factor import factor_from_arrays
+    from bayes.data.factor import factor_from_arrays
+    from bayes.engine.scaled import scaled_prior
     from bayes.problem import to_natural
-    from bayes.scaled import scaled_prior
     from elicit.spec import parse_priors
 
     n, p, sigma, b = 100_000, 200, 2.0, 0.002
@@ -285,7 +285,7 @@ def width_sweep(repeats: int) -> list[dict]:
     try:
         from sweep import WIDTHS, N, P, problem  # benchmarks/sweep.py: the same invented data
 
-        from bayes.sensitivity import sweep_design
+        from bayes.sensitivity.sweep import sweep_design
     except ImportError as e:
         return [row("width sweep vs one fit", None, None, "<= 3x", None, f"not available ({e})")]
     from bayes.api import fit
@@ -309,13 +309,13 @@ def gibbs_rate(repeats: int) -> dict:
     try:
         from gibbs_ess import min_bulk_ess  # benchmarks/gibbs_ess.py (the sampling issue's)
 
-        from bayes.gibbs import sample
+        from bayes.engine.gibbs import sample
     except ImportError as e:
         return row("Gibbs ESS/s", None, None, "cost independent of n", None,
                    f"not available ({e})")  # fmt: skip
-    from bayes.factor import factor_from_arrays
+    from bayes.data.factor import factor_from_arrays
+    from bayes.engine.scaled import scaled_prior
     from bayes.problem import to_natural
-    from bayes.scaled import scaled_prior
     from elicit.spec import parse_priors
 
     p, small, large = 20, 10_000, 1_000_000

@@ -2,7 +2,7 @@
 
 Both run in this process on the same in-memory design (invented data): one
 ``bayes.fit`` (data factor, exact posterior, coefficient table) against one
-``bayes.sensitivity.sweep_design`` over 200 log-spaced widths (data factor,
+``bayes.sensitivity.sweep.sweep_design`` over 200 log-spaced widths (data factor,
 the whole grid, flip points, conflict checks, power-scaling; the family swap,
 which samples, is left out). Goal: the sweep costs at most 3 times the fit.
 Medians over repeats; printed side by side as a ratio. Not a test.
@@ -19,8 +19,8 @@ import time
 import numpy as np
 
 from bayes.api import fit
-from bayes.design import Design
-from bayes.sensitivity import sweep_design
+from bayes.data.design import Design
+from bayes.sensitivity.sweep import sweep_design
 from elicit.spec import parse_priors
 
 N, P, WIDTHS = 10_000, 100, 200

@@ -207,10 +207,10 @@ def interview(
 
     design = None
     if formula or reference:  # the design's columns: levels and derived terms (bayes.terms)
-        from bayes.cli import reference_levels
-        from bayes.design import build_design
+        from bayes.cli.app import reference_levels
+        from bayes.data.design import build_design
+        from bayes.data.terms import formula_response, interview_terms
         from bayes.errors import InputError
-        from bayes.terms import formula_response, interview_terms
 
         if formula_response(formula) not in (None, response):
             raise BadInput(f"--formula: its response differs from --response {response!r}")

@@ -6,8 +6,8 @@ import warnings
 
 import numpy as np
 
+from bayes.engine.scaled import scaled_prior
 from bayes.problem import DataFactor, ScaledPrior
-from bayes.scaled import scaled_prior
 from elicit.spec import CoefficientPrior, CorrelatedBlock, NoisePrior, PriorSet
 
 

@@ -10,7 +10,7 @@ import pytest
 from click.testing import CliRunner
 from conftest import DEMO, GAUSSIAN_PRIORS, NIST
 
-from bayes.cli import main
+from bayes.cli.app import main
 
 
 def run(*args):

@@ -8,7 +8,7 @@ import pytest
 from click.testing import CliRunner
 from conftest import DEMO
 
-from bayes.cli import main
+from bayes.cli.app import main
 
 PRIORS = """
 [[coefficient]]

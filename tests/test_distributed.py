@@ -1,4 +1,4 @@
-"""`--engine dask` (bayes.distributed): the same factor on a two-worker LocalCluster."""
+"""`--engine dask` (bayes.data.distributed): the same factor on a two-worker LocalCluster."""
 
 from __future__ import annotations
 
@@ -12,13 +12,13 @@ from click.testing import CliRunner
 
 pytest.importorskip("distributed", reason="the dask extra is not installed")
 
-import bayes.distributed  # noqa: E402
+import bayes.data.distributed  # noqa: E402
 from bayes.api import fit, fit_factor  # noqa: E402
-from bayes.cli import main  # noqa: E402
-from bayes.design import build_design, read_table  # noqa: E402
-from bayes.distributed import dask_factor  # noqa: E402
+from bayes.cli.app import main  # noqa: E402
+from bayes.data.design import build_design, read_table  # noqa: E402
+from bayes.data.distributed import dask_factor  # noqa: E402
+from bayes.data.stream import stream_factor  # noqa: E402
 from bayes.errors import InputError  # noqa: E402
-from bayes.stream import stream_factor  # noqa: E402
 
 # Threads in this process (processes=False) keep start-up quick; the work still goes
 # through the scheduler, the two workers and the client's gather and merge.
@@ -85,8 +85,8 @@ def test_dask_fit_of_parquet_row_groups_equals_the_in_memory_fit(cluster, log_fi
 
 def test_default_is_a_local_cluster(log_files, monkeypatch):
     _, csv, _ = log_files
-    monkeypatch.setattr(bayes.distributed, "LOCAL_CLUSTER",
-                        {**bayes.distributed.LOCAL_CLUSTER, **CLUSTER})  # fmt: skip
+    monkeypatch.setattr(bayes.data.distributed, "LOCAL_CLUSTER",
+                        {**bayes.data.distributed.LOCAL_CLUSTER, **CLUSTER})  # fmt: skip
     streamed = dask_factor(csv, "burn", ["feed", "draft"], chunk_rows=1000)
     assert streamed.factor.names == ("feed", "draft")
     assert_same_fit(fit_factor(streamed.factor, None, "burn"), in_memory(csv, ["feed", "draft"]))
@@ -136,7 +136,7 @@ def test_cli_engine_dask_on_a_scheduler(cluster, log_files):
 
 def test_unreachable_scheduler_is_bad_input(log_files, monkeypatch):
     _, csv, _ = log_files
-    monkeypatch.setattr(bayes.distributed, "CONNECT_TIMEOUT", 0.5)
+    monkeypatch.setattr(bayes.data.distributed, "CONNECT_TIMEOUT", 0.5)
     out = CliRunner().invoke(main, ["fit", str(csv), "--response", "burn", "--engine", "dask",
                                     "--scheduler", "tcp://127.0.0.1:9"])  # fmt: skip
     assert out.exit_code == 2

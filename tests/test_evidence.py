@@ -1,4 +1,4 @@
-"""Evidence and leave-one-out (bayes.evidence) and `bayes compare` (bayes.compare)."""
+"""Evidence and leave-one-out (bayes.engine.evidence) and `bayes compare` (bayes.compare)."""
 
 from __future__ import annotations
 
@@ -11,15 +11,15 @@ from conftest import DEMO, GAUSSIAN_PRIORS
 from scipy import integrate, linalg, optimize, special, stats
 
 import bayes
-from bayes.cli import main
+from bayes.cli.app import main
 from bayes.compare import compare_priors, kass_raftery
-from bayes.design import build_design
+from bayes.data.design import build_design
+from bayes.data.factor import factor_from_arrays
+from bayes.engine.evidence import bridge_sampling, exact_loo, log_marginal_likelihood, psis_loo
+from bayes.engine.exact import exact_posterior
+from bayes.engine.scaled import scaled_prior
 from bayes.errors import InputError
-from bayes.evidence import bridge_sampling, exact_loo, log_marginal_likelihood, psis_loo
-from bayes.exact import exact_posterior
-from bayes.factor import factor_from_arrays
 from bayes.problem import natural_transform
-from bayes.scaled import scaled_prior
 from elicit.spec import parse_priors
 
 NAMES = ("a", "b")
@@ -271,7 +271,7 @@ def test_bridge_sampling_on_gibbs_draws_matches_numerical_integration(doc):
     # practice, no source): p(y | b1, s2) = (2 pi s2)^(-(n-1)/2) n^(-1/2) exp(-Q / (2 s2)),
     # Q = ||yc - b1 xc||^2, and with s2 ~ InvGamma(a, b):
     # p(y | b1) = (2 pi)^(-(n-1)/2) n^(-1/2) b^a G(a + (n-1)/2) / (G(a) (b + Q/2)^(a+(n-1)/2)).
-    from bayes.gibbs import sample
+    from bayes.engine.gibbs import sample
 
     rng = np.random.default_rng(5)
     n = 20

@@ -1,4 +1,4 @@
-"""The Gibbs sampler (bayes.gibbs) against closed forms, quadrature and calibration.
+"""The Gibbs sampler (bayes.engine.gibbs) against closed forms, quadrature and calibration.
 
 Sources are named beside each check. Every comparison of draws with a
 reference allows 4 Monte Carlo standard errors (arviz.mcse), the sampling
@@ -12,11 +12,11 @@ import pytest
 from sampling_helpers import assert_draws_match, natural_prior
 from scipy import integrate, optimize, stats
 
-from bayes import gibbs
-from bayes.diagnostics import summarize_draws, to_inference_data
-from bayes.exact import exact_posterior
-from bayes.factor import factor_from_arrays
-from bayes.gibbs import inverse_gaussian, prior_draws, sample
+from bayes.data.factor import factor_from_arrays
+from bayes.engine import gibbs
+from bayes.engine.diagnostics import summarize_draws, to_inference_data
+from bayes.engine.exact import exact_posterior
+from bayes.engine.gibbs import inverse_gaussian, prior_draws, sample
 from bayes.problem import to_natural
 
 
@@ -63,7 +63,7 @@ def test_gaussian_priors_unknown_noise_match_the_exact_engine(n, p):
     assert gibbs._model(factor, prior).route == ("bcm" if p > n else "stacked")
     draws = sample(factor, prior, chains=4, draws=2000, warmup=200, seed=12)
     beta = to_natural(factor, draws.gamma)
-    # Reference: the exact engine, which integrates sigma out by quadrature (bayes.exact).
+    # Reference: the exact engine, which integrates sigma out by quadrature (bayes.engine.exact).
     exact = exact_posterior(factor, prior)
     for j in range(min(p + 1, 6)):
         marg = exact.coefficient(j)

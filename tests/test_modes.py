@@ -1,4 +1,4 @@
-"""Posterior modes (bayes.modes) against outside references; sources named beside the checks."""
+"""Posterior modes (bayes.engine.modes) against outside references; sources beside the checks."""
 
 from __future__ import annotations
 
@@ -9,9 +9,9 @@ from scipy import optimize
 from sklearn.datasets import load_diabetes
 from sklearn.linear_model import Lasso, Ridge
 
+from bayes.data.factor import factor_from_arrays
+from bayes.engine.modes import posterior_mode
 from bayes.errors import InputError
-from bayes.factor import factor_from_arrays
-from bayes.modes import posterior_mode
 from bayes.problem import to_natural
 
 

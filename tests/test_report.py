@@ -16,12 +16,12 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import bayes
-from bayes.cli import main
+from bayes.cli.app import main
 from bayes.errors import InputError
-from bayes.render import render_html, render_markdown, write_report
-from bayes.report import build_report, collinearity, report_from_result
-from bayes.store import save_fit
-from bayes.summary import fmt_by_sd
+from bayes.report.build import build_report, collinearity, report_from_result
+from bayes.report.render import render_html, render_markdown, write_report
+from bayes.results.store import save_fit
+from bayes.results.summary import fmt_by_sd
 from elicit.spec import parse_priors, read_prior_file
 
 NAMES = ["water_cement", "fly_ash", "curing_temp", "superplasticizer"]
@@ -99,7 +99,7 @@ def test_collinearity_matches_numpy_and_statsmodels(demo_result):
 def test_least_squares_marks_and_standardized_forest_match_lstsq(demo_result):
     # Source: numpy.linalg.lstsq on the raw design (marks) and on z-scored columns (the
     # forest plot's standardized least-squares estimates).
-    from bayes.report import _Context, _forest_rows, _least_squares
+    from bayes.report.build import _Context, _forest_rows, _least_squares
 
     frame = pd.read_csv(DEMO / "trial_mix.csv")
     X = frame[NAMES].to_numpy()
@@ -230,7 +230,7 @@ def test_collinearity_note_appears_only_when_collinear():
 
 
 def _sweep_dir(demo_result, demo_fit_dir, tmp_path):
-    from bayes.sensitivity import save_sweep, sweep
+    from bayes.sensitivity.sweep import save_sweep, sweep
 
     folder = tmp_path / "fit"
     shutil.copytree(demo_fit_dir, folder)
@@ -255,7 +255,7 @@ def test_report_with_a_saved_sweep(demo_result, demo_fit_dir, tmp_path):
 
 
 def test_a_sweep_of_another_model_is_rejected(demo_fit_dir, tmp_path):
-    from bayes.sensitivity import save_sweep, sweep
+    from bayes.sensitivity.sweep import save_sweep, sweep
 
     folder = tmp_path / "fit"
     shutil.copytree(demo_fit_dir, folder)
@@ -483,7 +483,7 @@ def test_cli_report_unreadable_sweep_is_one_line_exit_2(demo_fit_dir, tmp_path):
 
 
 def test_demo_writes_the_whole_job(tmp_path):
-    from bayes.demo import run_demo
+    from bayes.demo.run import run_demo
 
     lines: list[str] = []
     run_demo(tmp_path / "demo", echo=lines.append)

@@ -87,7 +87,7 @@ def chromium() -> str:
 @pytest.fixture(scope="module")
 def demo_report(tmp_path_factory) -> tuple[Path, int]:
     """The demo's report.html, and how many figures it embeds."""
-    from bayes.demo import run_demo
+    from bayes.demo.run import run_demo
 
     out = tmp_path_factory.mktemp("demo")
     run_demo(out, echo=lambda _: None)

@@ -1,4 +1,4 @@
-"""Streamed fits (bayes.stream): equal to the in-memory fit, file rows in errors, the CLI."""
+"""Streamed fits (bayes.data.stream): equal to the in-memory fit, file rows in errors, the CLI."""
 
 from __future__ import annotations
 
@@ -13,13 +13,13 @@ import pytest
 from click.testing import CliRunner
 from conftest import NIST, lre
 
-import bayes.stream
+import bayes.data.stream
 from bayes.api import fit, fit_factor
-from bayes.cli import main, rows_progress
-from bayes.design import build_design, read_table
+from bayes.cli.app import main, rows_progress
+from bayes.data.design import build_design, read_table
+from bayes.data.factor import factor_from_arrays
+from bayes.data.stream import stream_factor
 from bayes.errors import InputError
-from bayes.factor import factor_from_arrays
-from bayes.stream import stream_factor
 from elicit.spec import parse_priors
 
 PRIORS = """
@@ -105,7 +105,7 @@ def assert_same_fit(a, b) -> None:
     """Coefficient tables equal to 1e-10 relative.
 
     Both fits compute the same numbers in exact arithmetic (the merge of chunk factors
-    is exact, see bayes.stream); they differ only by rounding, about the condition
+    is exact, see bayes.data.stream); they differ only by rounding, about the condition
     number of the scaled design (< 10 here) times 1e-16 per operation.
     """
     assert [r["name"] for r in a.rows] == [r["name"] for r in b.rows]
@@ -340,7 +340,7 @@ def test_large_files_stream_automatically(records, tmp_path, monkeypatch):
     _, csv, _ = records
     out = run("fit", csv, "--response", "output", "--save", tmp_path / "whole")
     assert out.exit_code == 0 and (tmp_path / "whole" / "data.csv").exists()
-    monkeypatch.setattr(bayes.stream, "STREAM_BYTES", csv.stat().st_size - 1)
+    monkeypatch.setattr(bayes.data.stream, "STREAM_BYTES", csv.stat().st_size - 1)
     out = run("fit", csv, "--response", "output", "--save", tmp_path / "streamed")
     assert out.exit_code == 0, out.output
     assert not (tmp_path / "streamed" / "data.csv").exists()  # no in-memory design kept

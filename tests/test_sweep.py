@@ -13,13 +13,13 @@ from scipy import integrate, special, stats
 from threadpoolctl import threadpool_limits
 
 from bayes.api import fit, load_priors
-from bayes.design import build_design
+from bayes.data.design import build_design
+from bayes.data.factor import factor_from_arrays
+from bayes.engine.exact import exact_posterior
+from bayes.engine.scaled import scaled_prior
 from bayes.errors import InputError
-from bayes.exact import exact_posterior
-from bayes.factor import factor_from_arrays
 from bayes.problem import DataFactor
-from bayes.scaled import scaled_prior
-from bayes.sensitivity import Threshold, default_factors, sweep
+from bayes.sensitivity.sweep import Threshold, default_factors, sweep
 from elicit.spec import parse_priors
 
 
@@ -290,7 +290,7 @@ def test_power_scaling_agrees_with_finite_differences_of_refits(demo_factor, dem
         perturbed["likelihood"][a] = exact_posterior(lik, scaled_prior(lik, priors))
     for j, row in enumerate(result.power_scaling["coefficients"]):
         m0 = base.coefficient(j)
-        # The range a sample of 4000 draws spans (the convention of bayes.conflict).
+        # The range a sample of 4000 draws spans (the convention of bayes.sensitivity.conflict).
         lo, hi = m0.ppf(1 / 4000), m0.ppf(1 - 1 / 4000)
         for component, posts in perturbed.items():
             grads = []

@@ -9,8 +9,8 @@ from click.testing import CliRunner
 from conftest import DEMO, GAUSSIAN_PRIORS
 from threadpoolctl import threadpool_limits
 
-from bayes.cli import main
-from bayes.sensitivity import plot_sweep
+from bayes.cli.app import main
+from bayes.sensitivity.sweep import plot_sweep
 
 DATA, PRIORS = DEMO / "trial_mix.csv", GAUSSIAN_PRIORS
 

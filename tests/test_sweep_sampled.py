@@ -14,8 +14,8 @@ import pytest
 from scipy import integrate
 from threadpoolctl import threadpool_limits
 
-from bayes.factor import factor_from_arrays
-from bayes.sensitivity import sweep
+from bayes.data.factor import factor_from_arrays
+from bayes.sensitivity.sweep import sweep
 from elicit.spec import parse_priors
 
 SIGMA, CENTER, SCALE = 1.0, -0.5, 0.5

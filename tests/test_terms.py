@@ -1,4 +1,4 @@
-"""Categorical predictors and model formulas (bayes.terms): coding, names, priors, errors."""
+"""Categorical predictors and model formulas (bayes.data.terms): coding, names, priors, errors."""
 
 from __future__ import annotations
 
@@ -11,11 +11,11 @@ from click.testing import CliRunner
 from conftest import DEMO
 
 import bayes
-from bayes.cli import main
-from bayes.design import build_design
+from bayes.cli.app import main
+from bayes.data.design import build_design
+from bayes.data.terms import Terms, term_units
 from bayes.errors import InputError
-from bayes.predict import predict
-from bayes.terms import Terms, term_units
+from bayes.results.predict import predict
 from elicit.spec import parse_priors
 
 LEVELS = ("CEM-A", "CEM-B", "CEM-C")
@@ -368,7 +368,7 @@ def test_interview_asks_each_level_against_the_reference_and_each_derived_term(t
 
 
 def test_interview_terms_units_and_reference_rows(mixes):
-    from bayes.terms import interview_terms
+    from bayes.data.terms import interview_terms
 
     design = build_design(mixes, None, formula="strength ~ fly_ash:curing_temp + cement_type")
     units = {"fly_ash": "share of binder", "curing_temp": "degC"}

@@ -1,0 +1,157 @@
+"""Render a :class:`bayes.report.document.Report`: one self-contained HTML file, Markdown with PNG
+figures beside it, CSV tables; every file written atomically once everything is rendered."""
+
+from __future__ import annotations
+
+import csv
+import io
+import os
+import re
+import tempfile
+from pathlib import Path
+
+from bayes.errors import InputError
+from bayes.report.document import Cell, Report, Table
+
+
+def write_report(
+    report: Report,
+    html: str | Path | None = None,
+    markdown: str | Path | None = None,
+    csv_dir: str | Path | None = None,
+) -> list[Path]:
+    """Render ``report`` and write the requested outputs; return the paths written.
+
+    Everything is rendered in memory first; then each file is written to a temporary file in
+    its folder and renamed over the old one, so an existing report is replaced only by a
+    complete new one.
+
+    Parameters
+    ----------
+    html : path, optional
+        One self-contained HTML file (figures embedded as data URIs).
+    markdown : path, optional
+        Markdown file; its figures are written beside it as ``<stem>-<figure>.png``.
+    csv_dir : path, optional
+        Folder for one CSV file per table (created if missing).
+    """
+    files: dict[Path, bytes] = {}
+    if html is not None:
+        files[_output(html, ".html")] = render_html(report).encode("utf-8")
+    if markdown is not None:
+        md_path = _output(markdown, ".md")
+        names = {f.key: f"{md_path.stem}-{f.key}.png" for f in report.figures}
+        files[md_path] = render_markdown(report, names).encode("utf-8")
+        for fig in report.figures:
+            files[md_path.with_name(names[fig.key])] = fig.png
+    if csv_dir is not None:
+        folder = Path(csv_dir)
+        if folder.exists() and not folder.is_dir():
+            raise InputError(f"{folder}: exists and is not a folder (--csv-dir)")
+        for table in report.tables:
+            files[folder / f"{table.key}.csv"] = table_csv(table).encode("utf-8")
+    for path, content in files.items():
+        path.parent.mkdir(parents=True, exist_ok=True)
+        _atomic_write_bytes(path, content)
+    return list(files)
+
+
+def outputs_text(
+    report: Report,
+    html: str | Path | None = None,
+    markdown: str | Path | None = None,
+    csv_dir: str | Path | None = None,
+) -> str:
+    """Where :func:`write_report` put the report, in a few lines for the terminal."""
+    lines = []
+    n_fig = len(report.figures)
+    if html is not None:
+        lines.append(f"Report: {html} (one self-contained file, {n_fig} figures embedded)")
+    if markdown is not None:
+        lines.append(f"Markdown: {markdown} (+ {n_fig} PNG figures beside it)")
+    if csv_dir is not None:
+        lines.append(f"Tables: {len(report.tables)} CSV files in {Path(csv_dir)}/")
+    return "\n".join(lines)
+
+
+def _output(path: str | Path, suffix: str) -> Path:
+    path = Path(path)
+    if path.is_dir():
+        raise InputError(f"{path}: is a folder; give a file name such as report{suffix}")
+    return path
+
+
+def _atomic_write_bytes(path: Path, content: bytes) -> None:
+    """Write to a temporary file in the same folder, then rename over ``path``."""
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
+    try:
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(content)
+            handle.flush()
+            os.fsync(handle.fileno())
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+# --------------------------------------------------------------------------- rendering
+
+
+def _environment(autoescape: bool):
+    import jinja2
+
+    env = jinja2.Environment(
+        loader=jinja2.PackageLoader("bayes.report", "templates"),
+        autoescape=autoescape,
+        trim_blocks=True,
+        lstrip_blocks=True,
+        keep_trailing_newline=True,
+        undefined=jinja2.StrictUndefined,
+    )
+    env.filters["md"] = _md_escape
+    env.filters["cell_md"] = lambda c: "<br>".join(_md_escape(x) for x in _lines(c))
+    env.filters["lines"] = _lines
+    env.filters["regex_number"] = lambda text: bool(_NUMBER.fullmatch(text))
+    return env
+
+
+def render_html(report: Report) -> str:
+    """One self-contained HTML document (autoescaped; figures as base64 data URIs)."""
+    import base64
+
+    images = {f.key: base64.b64encode(f.png).decode("ascii") for f in report.figures}
+    return _environment(True).get_template("report.html.j2").render(report=report, images=images)
+
+
+def render_markdown(report: Report, figure_files: dict[str, str]) -> str:
+    """Markdown (pipe tables) referring to the PNG files named in ``figure_files``."""
+    template = _environment(False).get_template("report.md.j2")
+    return template.render(report=report, files=figure_files)
+
+
+def table_csv(table: Table) -> str:
+    """The table as CSV text (several lines in one cell joined by '; ')."""
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n")
+    writer.writerow(table.headers)
+    for row in table.rows:
+        writer.writerow(["; ".join(_lines(c)) for c in row])
+    return buffer.getvalue()
+
+
+def _lines(cell: Cell) -> tuple[str, ...]:
+    return (cell,) if isinstance(cell, str) else tuple(cell)
+
+
+_NUMBER = re.compile(r"-|[<>]?[-+]?(\d[\d.]*(e[-+]?\d+)?|inf)( ± [\d.e+-]+)?")
+_MD_SPECIAL = re.compile(r"([\\`*\[\]|])")
+
+
+def _md_escape(text: str) -> str:
+    """Text safe inside Markdown: HTML entities for <, >, &; backslash before * [ ] | ` \\."""
+    text = str(text).replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+    return _MD_SPECIAL.sub(r"\\\1", text).replace("\n", " ")
