@@ -18,6 +18,7 @@ from bayes.engine.scaled import scaled_prior
 from bayes.errors import InputError
 from bayes.problem import DataFactor
 from bayes.results.result import FitResult, make_result
+from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
 
 METHODS = ("auto", "exact", "sample")
 
@@ -37,14 +38,12 @@ def fit(
     data: pd.DataFrame | Design,
     response: str | None = None,
     predictors: Sequence[str] | None = None,
+    *,
     priors=None,
     level: float = 0.95,
     drop_missing: bool = False,
     method: str = "auto",
-    chains: int = 4,
-    draws: int = 1000,
-    warmup: int = 1000,
-    seed: int = 0,
+    sampler: SamplerSettings = DEFAULT_SAMPLER,
     progress: Callable[[int, int], None] | None = None,
     source: str = "data frame",
     provenance: dict | None = None,
@@ -67,8 +66,9 @@ def fit(
         Credible level of the reported equal-tailed intervals, in (0, 1).
     method : {"auto", "exact", "sample"}
         "auto" is exact for flat/normal priors and sampling otherwise.
-    chains, draws, warmup, seed : int
-        Sampler settings (sampled fits only).
+    sampler : SamplerSettings
+        Chains, draws, warm-up and seed (sampled fits only); the defaults are those of
+        ``bayes fit``.
     formula : str, optional
         Model formula instead of ``response``/``predictors``:
         ``"strength ~ water_cement + cement_type + fly_ash:curing_temp + I(water_cement**2)"``
@@ -93,8 +93,8 @@ def fit(
         design.terms.check_priors(prior_set)
     factor = factor_from_arrays(design.X, design.y, design.names)
     return fit_factor(
-        factor, prior_set, design.response, level, method, chains, draws, warmup, seed,
-        progress, design, provenance,
+        factor, prior_set, design.response, level=level, method=method, sampler=sampler,
+        progress=progress, data=design, provenance=provenance,
     )  # fmt: skip
 
 
@@ -102,12 +102,10 @@ def fit_factor(
     factor: DataFactor,
     priors,
     response: str,
+    *,
     level: float = 0.95,
     method: str = "auto",
-    chains: int = 4,
-    draws: int = 1000,
-    warmup: int = 1000,
-    seed: int = 0,
+    sampler: SamplerSettings = DEFAULT_SAMPLER,
     progress: Callable[[int, int], None] | None = None,
     data: Design | None = None,
     provenance: dict | None = None,
@@ -134,7 +132,7 @@ def fit_factor(
     from bayes.engine.sampled import sampled_posterior
 
     posterior, columns, notes, inference = sampled_posterior(
-        factor, scaled, chains, draws, warmup, seed, progress
+        factor, scaled, sampler, progress=progress
     )
     return make_result(
         response, factor, priors, posterior, level, data, provenance, notes, columns, inference

@@ -26,7 +26,8 @@ from bayes.engine.evidence import (
     psis_loo,
 )
 from bayes.errors import InputError
-from bayes.results.summary import fmt, format_table
+from bayes.results.format import fmt, format_table
+from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
 
 # Kass and Raftery (1995), section 3.2: evidence against the other set, on 2 ln B.
 KASS_RAFTERY = ((2.0, "not worth more than a bare mention"), (6.0, "positive"),
@@ -279,11 +280,9 @@ def kass_raftery(two_ln_b: float) -> str:
 def compare_priors(
     design: Design,
     prior_sets: Sequence,
+    *,
     method: str = "auto",
-    chains: int = 4,
-    draws: int = 2000,
-    warmup: int = 1000,
-    seed: int = 0,
+    sampler: SamplerSettings = DEFAULT_SAMPLER,
     progress: Callable[[int, int], None] | None = None,
     provenance: dict | None = None,
 ) -> Comparison:
@@ -297,8 +296,8 @@ def compare_priors(
     method : {"auto", "exact", "sample"}
         "auto": exact evidence and LOO for flat/normal priors, bridge sampling and
         PSIS-LOO on Gibbs draws otherwise; "sample" samples every set.
-    chains, draws, warmup, seed : int
-        Sampler settings (sampled sets only).
+    sampler : SamplerSettings
+        Chains, draws, warm-up and seed (sampled sets only).
 
     Returns
     -------
@@ -336,12 +335,14 @@ def compare_priors(
 
         from bayes.engine.gibbs import sample
 
-        d = sample(factor, scaled, chains, draws, warmup, seed, progress)
-        ev = bridge_sampling(factor, scaled, d.gamma, d.sigma, seed)
+        d = sample(factor, scaled, sampler, progress=progress)
+        ev = bridge_sampling(factor, scaled, d.gamma, d.sigma, sampler.seed)
         beta = to_natural(factor, d.gamma)
         loo = psis_loo(beta, d.sigma, design.X, design.y)
         r_hat = (
-            float(np.max(az.rhat(az.convert_to_dataset(beta)).to_array())) if chains > 1 else None
+            float(np.max(az.rhat(az.convert_to_dataset(beta)).to_array()))
+            if sampler.chains > 1
+            else None
         )
         results.append(
             SetResult(label, ps.title, "sampled", ev, loo, flat, scaled.noise.jeffreys, r_hat)

@@ -49,6 +49,7 @@ def gibbs_run(X, y, b: float, chains: int, draws: int, warmup: int) -> dict:
     from bayes.data.factor import factor_from_arrays
     from bayes.engine import gibbs
     from bayes.problem import NoiseSpec, ScaledPrior, to_natural
+    from bayes.settings import SamplerSettings
 
     n, p = X.shape
     factor = factor_from_arrays(X, y, [f"x{j}" for j in range(p)])
@@ -61,7 +62,9 @@ def gibbs_run(X, y, b: float, chains: int, draws: int, warmup: int) -> dict:
         NoiseSpec(shape=5.0, scale=5.0),
     )
     start = time.perf_counter()
-    out = gibbs.sample(factor, prior, chains=chains, draws=draws, warmup=warmup, seed=1)
+    out = gibbs.sample(
+        factor, prior, SamplerSettings(chains=chains, draws=draws, warmup=warmup, seed=1)
+    )
     seconds = time.perf_counter() - start
     ess = min_bulk_ess(to_natural(factor, out.gamma))
     route = gibbs._model(factor, prior).route

@@ -20,6 +20,7 @@ from bayes.engine.exact import exact_posterior
 from bayes.engine.scaled import scaled_prior
 from bayes.errors import InputError
 from bayes.problem import natural_transform
+from bayes.settings import SamplerSettings
 from elicit.spec import parse_priors
 
 NAMES = ("a", "b")
@@ -280,7 +281,7 @@ def test_bridge_sampling_on_gibbs_draws_matches_numerical_integration(doc):
     priors = parse_priors(doc, "sampled.toml")
     factor = factor_from_arrays(x[:, None], y, ["x"])
     prior = scaled_prior(factor, priors)
-    draws = sample(factor, prior, chains=4, draws=1000, warmup=300, seed=2)
+    draws = sample(factor, prior, SamplerSettings(chains=4, draws=1000, warmup=300, seed=2))
     est = bridge_sampling(factor, prior, draws.gamma, draws.sigma, seed=2)
     xc, yc = x - x.mean(), y - y.mean()
 
@@ -513,8 +514,12 @@ def test_sampled_comparison_agrees_with_the_exact_one(demo_frame, tmp_path):
     design = build_design(demo_frame, "strength")
     sets = [bayes.api.load_priors(path) for path in _gaussian_demo_sets(tmp_path)]
     exact = compare_priors(design, sets)
-    sampled = compare_priors(design, sets, method="sample", chains=4, draws=1500, warmup=500,
-                             seed=4)  # fmt: skip
+    sampled = compare_priors(
+        design,
+        sets,
+        method="sample",
+        sampler=SamplerSettings(chains=4, draws=1500, warmup=500, seed=4),
+    )
     for e, s in zip(exact.sets, sampled.sets, strict=True):
         assert s.method == "sampled" and e.method == "exact"
         assert abs(s.evidence.log_ml - e.evidence.log_ml) < 3 * s.evidence.mc_se

@@ -18,6 +18,7 @@ from bayes.engine.diagnostics import summarize_draws, to_inference_data
 from bayes.engine.exact import exact_posterior
 from bayes.engine.gibbs import inverse_gaussian, prior_draws, sample
 from bayes.problem import to_natural
+from bayes.settings import SamplerSettings
 
 
 def _invented(n: int, p: int, seed: int):
@@ -36,7 +37,7 @@ def test_gaussian_priors_known_noise_reproduce_the_closed_form():
     priors = {"intercept": ("normal", 1.0, 3.0), "x0": ("normal", 0.5, 0.3)}
     block = (("x1", "x2"), np.array([0.0, 0.2]), np.array([[0.25, -0.1], [-0.1, 0.5]]))
     prior = natural_prior(factor, priors, noise_sd=sigma, block=block)
-    draws = sample(factor, prior, chains=4, draws=2000, warmup=100, seed=11)
+    draws = sample(factor, prior, SamplerSettings(chains=4, draws=2000, warmup=100, seed=11))
     beta = to_natural(factor, draws.gamma)
     # Source: Gelman et al., Bayesian Data Analysis, ch. 14: with known sigma the posterior is
     # N(L^-1 (X'y / sigma^2 + V^-1 m), L^-1), L = X'X / sigma^2 + V^-1 (textbook closed form).
@@ -61,7 +62,7 @@ def test_gaussian_priors_unknown_noise_match_the_exact_engine(n, p):
     priors = {c: ("normal", 0.0, 0.5) for c in names}
     prior = natural_prior(factor, priors, noise_invgamma=(3.0, 2.0))
     assert gibbs._model(factor, prior).route == ("bcm" if p > n else "stacked")
-    draws = sample(factor, prior, chains=4, draws=2000, warmup=200, seed=12)
+    draws = sample(factor, prior, SamplerSettings(chains=4, draws=2000, warmup=200, seed=12))
     beta = to_natural(factor, draws.gamma)
     # Reference: the exact engine, which integrates sigma out by quadrature (bayes.engine.exact).
     exact = exact_posterior(factor, prior)
@@ -90,7 +91,7 @@ def test_one_coefficient_posterior_matches_numerical_integration(family, noise):
         noise_sd=sigma if noise == "known" else None,
         noise_invgamma=(shape, ig_scale) if noise == "invgamma" else None,
     )
-    draws = sample(factor, prior, chains=4, draws=4000, warmup=500, seed=13)
+    draws = sample(factor, prior, SamplerSettings(chains=4, draws=4000, warmup=500, seed=13))
     slope = to_natural(factor, draws.gamma)[..., 1]
 
     xc, yc = x - x.mean(), y - y.mean()
@@ -157,7 +158,7 @@ def test_simulation_based_calibration_ranks_are_uniform():
         y = truth[0] + X @ truth[1:3] + truth[3] * rng.standard_normal(n)
         factor = factor_from_arrays(X, y, ["x0", "x1"])
         prior = natural_prior(factor, priors, noise_invgamma=(shape, scale))
-        d = sample(factor, prior, chains=1, draws=thin * kept, warmup=50, seed=s)
+        d = sample(factor, prior, SamplerSettings(chains=1, draws=thin * kept, warmup=50, seed=s))
         post = np.column_stack([to_natural(factor, d.gamma[0]), d.sigma[0]])[::thin]
         ranks[s] = np.sum(post < truth, axis=0)
     # 100 possible ranks in 10 bins of 10: chi-square with 9 degrees of freedom, level 0.001
@@ -172,9 +173,9 @@ def test_same_seed_same_draws_bit_for_bit(n, p):
     X, y, names, factor = _invented(n, p, seed=4)
     priors = {c: ("laplace", 0.0, 0.3) for c in names}
     prior = natural_prior(factor, priors, noise_invgamma=(2.0, 1.0))
-    first = sample(factor, prior, chains=2, draws=50, warmup=20, seed=7)
-    again = sample(factor, prior, chains=2, draws=50, warmup=20, seed=7)
-    other = sample(factor, prior, chains=2, draws=50, warmup=20, seed=8)
+    first = sample(factor, prior, SamplerSettings(chains=2, draws=50, warmup=20, seed=7))
+    again = sample(factor, prior, SamplerSettings(chains=2, draws=50, warmup=20, seed=7))
+    other = sample(factor, prior, SamplerSettings(chains=2, draws=50, warmup=20, seed=8))
     for field in ("gamma", "sigma", "prior_gamma", "prior_sigma"):
         np.testing.assert_array_equal(getattr(first, field), getattr(again, field))
         assert not np.array_equal(getattr(first, field), getattr(other, field))
@@ -221,7 +222,12 @@ def test_progress_reports_every_sweep_up_to_the_total():
     X, y, names, factor = _invented(20, 2, seed=8)
     prior = natural_prior(factor, {"x0": ("laplace", 0.0, 1.0)}, noise_sd=1.0)
     calls = []
-    sample(factor, prior, chains=3, draws=40, warmup=10, progress=lambda d, t: calls.append((d, t)))
+    sample(
+        factor,
+        prior,
+        SamplerSettings(chains=3, draws=40, warmup=10),
+        progress=lambda d, t: calls.append((d, t)),
+    )
     done = [d for d, _ in calls]
     assert done == sorted(done) and calls[-1] == (150, 150)
     assert {t for _, t in calls} == {150}
@@ -230,7 +236,7 @@ def test_progress_reports_every_sweep_up_to_the_total():
 def test_draws_round_trip_through_netcdf(tmp_path):
     X, y, names, factor = _invented(25, 2, seed=9)
     prior = natural_prior(factor, {"x0": ("laplace", 0.0, 0.5)}, noise_invgamma=(2.0, 2.0))
-    d = sample(factor, prior, chains=2, draws=100, warmup=50, seed=1)
+    d = sample(factor, prior, SamplerSettings(chains=2, draws=100, warmup=50, seed=1))
     labels = ["intercept", *names]
     idata = to_inference_data(
         to_natural(factor, d.gamma), d.sigma, labels,
@@ -252,7 +258,7 @@ def test_draws_round_trip_through_netcdf(tmp_path):
 def test_summary_flags_chains_that_disagree():
     X, y, names, factor = _invented(40, 2, seed=10)
     prior = natural_prior(factor, {"x0": ("laplace", 0.0, 0.5)}, noise_invgamma=(2.0, 2.0))
-    d = sample(factor, prior, chains=4, draws=1000, warmup=200, seed=2)
+    d = sample(factor, prior, SamplerSettings(chains=4, draws=1000, warmup=200, seed=2))
     beta = to_natural(factor, d.gamma)
     labels = ("intercept", *names)
     good = summarize_draws(beta, d.sigma, labels)

@@ -20,8 +20,9 @@ from bayes.cli.app import main
 from bayes.errors import InputError
 from bayes.report.build import build_report, collinearity, report_from_result
 from bayes.report.render import render_html, render_markdown, write_report
+from bayes.results.format import fmt_by_sd
 from bayes.results.store import save_fit
-from bayes.results.summary import fmt_by_sd
+from bayes.settings import SamplerSettings
 from elicit.spec import parse_priors, read_prior_file
 
 NAMES = ["water_cement", "fly_ash", "curing_temp", "superplasticizer"]
@@ -335,7 +336,8 @@ def test_report_of_a_sampled_fit_shows_convergence(tmp_path):
         "coefficient": [{"name": "superplasticizer", "family": "laplace", "low": -1.0,
                          "high": 1.0, "mass": 0.9, "per": 0.1, "expert": "engineer A"}],
     }  # fmt: skip
-    result = bayes.fit(frame, "strength", NAMES, priors=parse_priors(doc), draws=500, seed=3)
+    result = bayes.fit(frame, "strength", NAMES, priors=parse_priors(doc),
+                        sampler=SamplerSettings(draws=500, seed=3))  # fmt: skip
     assert result.posterior.method == "sampled"
     report = report_from_result(result, figures=False)
     post = next(b for s in report.sections if s.key == "posterior" for b in s.blocks

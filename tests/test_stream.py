@@ -20,6 +20,7 @@ from bayes.data.design import build_design, read_table
 from bayes.data.factor import factor_from_arrays
 from bayes.data.stream import stream_factor
 from bayes.errors import InputError
+from bayes.settings import SamplerSettings
 from elicit.spec import parse_priors
 
 PRIORS = """
@@ -376,7 +377,7 @@ def test_streamed_factor_feeds_the_sampler(records, priors):
     )
     assert any(c.family == "laplace" for c in laplace.coefficients)
     streamed = stream_factor(csv, "output", chunk_rows=600)
-    options = {"chains": 2, "draws": 1000, "warmup": 300, "seed": 3}
+    options = {"sampler": SamplerSettings(chains=2, draws=1000, warmup=300, seed=3)}
     try:
         reference, _ = in_memory(csv, laplace, **options)
     except (ImportError, InputError) as e:  # InputError: "not available in this build"

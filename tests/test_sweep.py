@@ -20,6 +20,7 @@ from bayes.engine.scaled import scaled_prior
 from bayes.errors import InputError
 from bayes.problem import DataFactor
 from bayes.sensitivity.sweep import Threshold, default_factors, sweep
+from bayes.settings import SamplerSettings
 from elicit.spec import parse_priors
 
 
@@ -359,8 +360,8 @@ def test_joint_conflict_with_unknown_noise_integrates_over_residual_noise(demo_f
 
 
 def test_family_swap_normal_reading_equals_the_stated_fit(demo_factor, demo_priors):
-    result = sweep(demo_factor, demo_priors, factors=[0.5, 2.0], draws=200, warmup=100,
-                   chains=2)  # fmt: skip
+    result = sweep(demo_factor, demo_priors, factors=[0.5, 2.0],
+                   sampler=SamplerSettings(chains=2, draws=200, warmup=100))  # fmt: skip
     swap = result.family_swap
     assert swap["families"] == ["normal", "laplace", "student_t"]
     i = int(np.flatnonzero(result.factors == 1.0)[0])

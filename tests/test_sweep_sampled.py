@@ -16,6 +16,7 @@ from threadpoolctl import threadpool_limits
 
 from bayes.data.factor import factor_from_arrays
 from bayes.sensitivity.sweep import sweep
+from bayes.settings import SamplerSettings
 from elicit.spec import parse_priors
 
 SIGMA, CENTER, SCALE = 1.0, -0.5, 0.5
@@ -33,8 +34,9 @@ def case():
         "coefficient": [{"name": "x", "family": "laplace", "center": CENTER, "scale": SCALE}],
     })  # fmt: skip
     with threadpool_limits(limits=1, user_api="blas"):
-        result = sweep(factor, priors, "y", factors=np.geomspace(0.125, 8, 13), chains=2,
-                       draws=2000, warmup=300, family_swap=False)  # fmt: skip
+        result = sweep(factor, priors, "y", factors=np.geomspace(0.125, 8, 13),
+                       sampler=SamplerSettings(chains=2, draws=2000, warmup=300),
+                       family_swap=False)  # fmt: skip
     xc = x - x.mean()
     sxx = float(xc @ xc)
     return result, float(xc @ y) / sxx, SIGMA**2 / sxx

@@ -14,6 +14,10 @@ from pathlib import Path
 
 import click
 
+from bayes.results.format import TABLE_DIGITS
+from bayes.results.provenance import provenance
+from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
+
 
 class _Group(click.Group):
     """Bad input ends with one line on stderr and exit status 2, never a traceback."""
@@ -97,8 +101,27 @@ def reference_levels(pairs) -> dict[str, str]:
     return out
 
 
+def sampler_settings_options(f):
+    """--chains, --draws, --warmup, --seed, with the defaults of :mod:`bayes.settings`."""
+    d = DEFAULT_SAMPLER
+    options = [
+        click.option(
+            "--chains",
+            type=click.IntRange(1),
+            default=d.chains,
+            show_default=True,
+            help="Sampler chains (sampled fits; in a sweep, Laplace/Student-t priors "
+            "and the family swap).",
+        ),  # fmt: skip
+        click.option("--draws", type=click.IntRange(10), default=d.draws, show_default=True),
+        click.option("--warmup", type=click.IntRange(0), default=d.warmup, show_default=True),
+        click.option("--seed", type=int, default=d.seed, show_default=True),
+    ]
+    return functools.reduce(lambda g, opt: opt(g), reversed(options), f)
+
+
 def sampler_options(f):
-    """Options of the Gibbs sampler."""
+    """--method and the options of the Gibbs sampler."""
     options = [
         click.option(
             "--method",
@@ -108,39 +131,9 @@ def sampler_options(f):
             help="auto: exact for normal/flat priors, "
             "sampling when a Laplace or Student-t prior is present.",
         ),  # fmt: skip
-        click.option("--chains", type=click.IntRange(1), default=4, show_default=True),
-        click.option("--draws", type=click.IntRange(10), default=2000, show_default=True),
-        click.option("--warmup", type=click.IntRange(0), default=1000, show_default=True),
-        click.option("--seed", type=int, default=20261201, show_default=True),
+        sampler_settings_options,
     ]
     return functools.reduce(lambda g, opt: opt(g), reversed(options), f)
-
-
-def provenance(data_path: str | None, seed: int | None = None, dropped: int = 0) -> dict:
-    """Where a result came from: data file and its SHA-256, command line, date, versions."""
-    import datetime
-    import hashlib
-    import platform
-    from importlib import metadata
-
-    info = {
-        "command": " ".join(["bayes", *sys.argv[1:]]),
-        "date": datetime.datetime.now(datetime.UTC).strftime("%Y-%m-%d %H:%M UTC"),
-        "versions": {
-            "python": platform.python_version(),
-            **{pkg: metadata.version(pkg) for pkg in ("bayes-elicit", "numpy", "scipy", "pandas")},
-        },
-        "seed": seed,
-        "dropped": dropped,
-    }
-    if data_path:
-        digest = hashlib.sha256()
-        with open(data_path, "rb") as fh:
-            for block in iter(lambda: fh.read(1 << 20), b""):
-                digest.update(block)
-        info["data"] = Path(data_path).name
-        info["data_sha256"] = digest.hexdigest()
-    return info
 
 
 def split_columns(text: str | None) -> list[str] | None:
@@ -166,9 +159,8 @@ def design_from_options(data, response, predictors, prior_set, drop_missing, for
     )  # fmt: skip
 
 
-def fit_from_options(data, response, predictors, priors, drop_missing, level, method="exact",
-                     chains=4, draws=2000, warmup=1000, seed=0, progress=None, formula=None,
-                     reference=()):  # fmt: skip
+def fit_from_options(data, response, predictors, priors, drop_missing, level, method, sampler,
+                     progress=None, formula=None, reference=()):  # fmt: skip
     """Read the files named on the command line and fit (used by several commands)."""
     from bayes.api import fit, load_priors
 
@@ -176,15 +168,14 @@ def fit_from_options(data, response, predictors, priors, drop_missing, level, me
     design = design_from_options(data, response, predictors, prior_set, drop_missing, formula,
                                  reference)  # fmt: skip
     return fit(
-        design, priors=prior_set, level=level, method=method, chains=chains, draws=draws,
-        warmup=warmup, seed=seed, progress=progress,
-        provenance=provenance(data, seed if method != "exact" else None, design.dropped),
+        design, priors=prior_set, level=level, method=method, sampler=sampler, progress=progress,
+        provenance=provenance(data, sampler.seed if method != "exact" else None, design.dropped),
     )  # fmt: skip
 
 
 def streamed_fit_from_options(data, response, predictors, priors, formula, reference,
-                              drop_missing, level, fmt, method, chains, draws, warmup, seed,
-                              chunk_rows, engine, scheduler):  # fmt: skip
+                              drop_missing, level, fmt, method, sampler, chunk_rows, engine,
+                              scheduler):  # fmt: skip
     """Fit from a data factor read in chunks (bayes.data.stream) or by dask (.distributed)."""
     from bayes.api import fit_factor, load_priors
     from bayes.errors import InputError
@@ -208,9 +199,9 @@ def streamed_fit_from_options(data, response, predictors, priors, formula, refer
                                      chunk_rows, progress)  # fmt: skip
     with progress_bar(fmt, "sampling") as progress:
         return fit_factor(
-            streamed.factor, prior_set, response, level, method, chains, draws, warmup, seed,
-            progress, provenance=provenance(data, seed if method != "exact" else None,
-                                            streamed.dropped),
+            streamed.factor, prior_set, response, level=level, method=method, sampler=sampler,
+            progress=progress, provenance=provenance(data, sampler.seed if method != "exact"
+                                                     else None, streamed.dropped),
         )  # fmt: skip
 
 
@@ -262,7 +253,7 @@ def emit(obj: dict, text: str, fmt: str) -> None:
 @sampler_options
 @click.option("--save", "save_dir", type=click.Path(file_okay=False),
               help="Store the fit in this folder for report, sweep and predict.")  # fmt: skip
-@click.option("--digits", type=click.IntRange(2, 15), default=7, show_default=True,
+@click.option("--digits", type=click.IntRange(2, 15), default=TABLE_DIGITS, show_default=True,
               help="Significant digits in the text table.")  # fmt: skip
 @click.option("--stream/--no-stream", default=None,
               help="Read DATA in chunks, in constant memory "
@@ -282,19 +273,20 @@ def fit_command(data, response, predictors, priors, formula, reference, drop_mis
     from bayes.data.stream import should_stream
     from bayes.errors import InputError
 
+    sampler = SamplerSettings(chains, draws, warmup, seed)
     if scheduler and engine != "dask":
         raise InputError("--scheduler is for --engine dask")
     if chunk_rows is not None and stream is None:
         stream = True  # --chunk-rows implies --stream
     if engine == "dask" or should_stream(data, stream):
         result = streamed_fit_from_options(data, response, predictors, priors, formula, reference,
-                                           drop_missing, level, fmt, method, chains, draws,
-                                           warmup, seed, chunk_rows, engine, scheduler)  # fmt: skip
+                                           drop_missing, level, fmt, method, sampler,
+                                           chunk_rows, engine, scheduler)  # fmt: skip
     else:
         with progress_bar(fmt, "sampling") as progress:
             result = fit_from_options(data, response, predictors, priors, drop_missing, level,
-                                      method, chains, draws, warmup, seed, progress,
-                                      formula=formula, reference=reference)  # fmt: skip
+                                      method, sampler, progress, formula=formula,
+                                      reference=reference)  # fmt: skip
     if save_dir:
         from bayes.results.store import save_fit
 
@@ -313,9 +305,9 @@ def fit_command(data, response, predictors, priors, formula, reference, drop_mis
 def predict_command(fit_dir, newdata, level, fmt):
     """Posterior mean, credible and predictive intervals for the rows of NEWDATA."""
     from bayes.data.design import read_table
+    from bayes.results.format import fmt as num
     from bayes.results.predict import predict
     from bayes.results.store import load_fit
-    from bayes.results.summary import fmt as num
 
     result = load_fit(fit_dir)
     table = predict(result, read_table(newdata), level, source=Path(newdata).name)
@@ -324,7 +316,7 @@ def predict_command(fit_dir, newdata, level, fmt):
         return
     rows = table.to_dict(orient="records")
     headers = list(table.columns)
-    from bayes.results.summary import format_table
+    from bayes.results.format import format_table
 
     text = format_table(headers, [[num(r[h]) if not isinstance(r[h], str) else r[h]
                                    for h in headers] for r in rows])  # fmt: skip
@@ -393,8 +385,9 @@ def compare_command(data, priors, response, predictors, formula, reference, drop
                                  reference)  # fmt: skip
     sampled = method == "sample" or any(c.family in ("laplace", "student_t")
                                         for ps in prior_sets for c in ps.coefficients)  # fmt: skip
+    sampler = SamplerSettings(chains, draws, warmup, seed)
     comparison = compare_priors(
-        design, prior_sets, method, chains, draws, warmup, seed,
+        design, prior_sets, method=method, sampler=sampler,
         provenance=provenance(data, seed if sampled else None, design.dropped),
     )  # fmt: skip
     if save_dir:
@@ -423,11 +416,7 @@ def compare_command(data, priors, response, predictors, formula, reference, drop
               help="Posterior probability at which a conclusion holds.")  # fmt: skip
 @click.option("--family-swap/--no-family-swap", default=True, show_default=True,
               help="Also read the ranges as normal, Laplace and Student-t.")  # fmt: skip
-@click.option("--chains", type=click.IntRange(1), default=4, show_default=True,
-              help="Sampler chains (Laplace/Student-t priors and the family swap).")  # fmt: skip
-@click.option("--draws", type=click.IntRange(10), default=1000, show_default=True)
-@click.option("--warmup", type=click.IntRange(0), default=500, show_default=True)
-@click.option("--seed", type=int, default=20261201, show_default=True)
+@sampler_settings_options
 @click.option("--save", "save_dir", type=click.Path(file_okay=False),
               help="Write FIT_DIR/sweep.json (read by bayes report).")  # fmt: skip
 @click.option("--plot", "plot_file", type=click.Path(dir_okay=False),
@@ -449,8 +438,8 @@ def sweep_command(data, response, predictors, priors, formula, reference, drop_m
     result = sweep_design(
         design, prior_set, factors=default_factors(n_factors, min_factor, max_factor),
         columns=list(coefficients) or None, expert=expert, thresholds=thresholds, level=level,
-        conclusion_level=conclusion_level, family_swap=family_swap, chains=chains, draws=draws,
-        warmup=warmup, seed=seed,
+        conclusion_level=conclusion_level, family_swap=family_swap,
+        sampler=SamplerSettings(chains, draws, warmup, seed),
     )  # fmt: skip
     if save_dir:
         save_sweep(result, save_dir)

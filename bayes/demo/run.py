@@ -21,24 +21,26 @@ def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
     the report.
     """
     from bayes.api import fit, load_priors
-    from bayes.cli.app import fit_command, provenance
     from bayes.compare import compare_priors, save_comparison
     from bayes.data.design import read_table
     from bayes.report.build import report_from_result
     from bayes.report.render import outputs_text, write_report
+    from bayes.results.format import TABLE_DIGITS as DIGITS
+    from bayes.results.provenance import provenance
     from bayes.results.store import save_fit
     from bayes.sensitivity.sweep import save_sweep, sweep
+    from bayes.settings import DEFAULT_SAMPLER
 
     data, priors = demo_path("trial_mix.csv"), demo_path("priors.toml")
     out.mkdir(parents=True, exist_ok=True)
     echo("Demo study (INVENTED data and experts): trial mix programme, 18 batches.")
-    # The sampler settings of `bayes fit` itself, so that the demo prints what the command would.
-    defaults = {p.name: p.default for p in fit_command.params}
-    settings = {k: defaults[k] for k in ("chains", "draws", "warmup", "seed")}
-    result = fit(read_table(data), priors=priors, source=data.name, **settings,
-                 provenance=provenance(str(data), settings["seed"]))  # fmt: skip
+    # The sampler's one set of defaults (those of `bayes fit`): the demo prints what the command
+    # would.
+    sampler = DEFAULT_SAMPLER
+    result = fit(read_table(data), priors=priors, source=data.name, sampler=sampler,
+                 provenance=provenance(str(data), sampler.seed))  # fmt: skip
     save_fit(result, out / "fit")
-    echo(result.text(defaults["digits"]))
+    echo(result.text(DIGITS))
     echo(f"Saved the fit in {out / 'fit'}/")
     swept = sweep(result)
     save_sweep(swept, out / "fit")
@@ -49,7 +51,7 @@ def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
     echo("")
     other = demo_path("priors_optimistic.toml")
     comparison = compare_priors(
-        result.data, [load_priors(priors), load_priors(other)], seed=settings["seed"]
+        result.data, [load_priors(priors), load_priors(other)], sampler=sampler
     )
     save_comparison(comparison, out / "fit")
     echo(f"Comparison with a second engineer's prior file ({other.name}):")

@@ -38,6 +38,7 @@ from scipy import linalg
 
 from bayes.engine.likelihood import check_prior, data_rows, residual_ss
 from bayes.problem import DataFactor, ScaledPrior
+from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
 
 _geqrf, _geqrf_lwork, _trtrs = linalg.get_lapack_funcs(
     ("geqrf", "geqrf_lwork", "trtrs"), (np.empty((1, 1)),)
@@ -298,10 +299,8 @@ def prior_draws(
 def sample(
     factor: DataFactor,
     prior: ScaledPrior,
-    chains: int = 4,
-    draws: int = 1000,
-    warmup: int = 1000,
-    seed: int = 0,
+    sampler: SamplerSettings = DEFAULT_SAMPLER,
+    *,
     progress: Callable[[int, int], None] | None = None,
 ) -> Draws:
     """Gibbs sampler for the posterior of ``(gamma, sigma)``.
@@ -316,9 +315,8 @@ def sample(
     ----------
     factor : DataFactor
     prior : ScaledPrior
-    chains, draws, warmup : int
-        Number of chains, kept draws per chain, and discarded sweeps per chain.
-    seed : int
+    sampler : SamplerSettings
+        Number of chains, kept draws per chain, discarded sweeps per chain, seed.
     progress : callable(done, total), optional
         Called as sweeps complete (``total = chains * (warmup + draws)``).
 
@@ -326,8 +324,7 @@ def sample(
     -------
     Draws
     """
-    if chains < 1 or draws < 1 or warmup < 0:
-        raise ValueError("chains and draws must be positive and warmup non-negative")
+    chains, draws, warmup, seed = sampler.chains, sampler.draws, sampler.warmup, sampler.seed
     model = _model(factor, prior)
     total = chains * (warmup + draws)
     every = max(1, total // 200)

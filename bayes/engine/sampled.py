@@ -12,6 +12,7 @@ import numpy as np
 
 from bayes.engine.posterior import Posterior
 from bayes.problem import DataFactor, ScaledPrior, to_natural
+from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
 
 RHAT_LIMIT = 1.01  # Vehtari et al. (2021) recommend R-hat below 1.01
 ESS_LIMIT = 400  # ... and bulk/tail ESS above 400 for four chains
@@ -20,10 +21,8 @@ ESS_LIMIT = 400  # ... and bulk/tail ESS above 400 for four chains
 def sampled_posterior(
     factor: DataFactor,
     prior: ScaledPrior,
-    chains: int = 4,
-    draws: int = 1000,
-    warmup: int = 1000,
-    seed: int = 0,
+    sampler: SamplerSettings = DEFAULT_SAMPLER,
+    *,
     progress: Callable[[int, int], None] | None = None,
 ) -> tuple[Posterior, dict[str, list], tuple[str, ...], object]:
     """Sample the posterior and compute its mode and convergence diagnostics.
@@ -49,7 +48,7 @@ def sampled_posterior(
     # Thousands of small factorisations: one BLAS thread is faster than contending threads
     # (imported after bayes.engine.gibbs, so scipy's BLAS is loaded and limited too).
     with threadpool_limits(limits=1, user_api="blas"):
-        d = sample(factor, prior, chains, draws, warmup, seed, progress)
+        d = sample(factor, prior, sampler, progress=progress)
     nat = to_natural(factor, d.gamma)
     mode = posterior_mode(factor, prior)
     known = prior.noise.known
@@ -57,7 +56,7 @@ def sampled_posterior(
     post = Posterior(
         names,
         "sampled",
-        f"Gibbs sampling, {chains} chains x {draws} draws after {warmup} warm-up, seed {seed}",
+        f"Gibbs sampling, {sampler.describe()}",
         np.ones(1),
         np.array([float(np.median(d.sigma))]),
         flat.mean(axis=0)[None],

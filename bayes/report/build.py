@@ -23,8 +23,8 @@ import numpy as np
 from bayes.errors import InputError
 from bayes.report.document import Block, Bullets, Figure, Paragraph, Report, Section, Table
 from bayes.report.formulas import MODEL, PENALTY, PRIORS
+from bayes.results.format import fmt, fmt_by_sd
 from bayes.results.result import CONDITION_WARNING, FitResult
-from bayes.results.summary import fmt, fmt_by_sd
 
 VIF_WARNING = 10.0  # variance inflation factor above which collinearity is strong (common practice)
 DECISIVE_RATIO = 0.8  # posterior/prior sd ratio above which the prior, not the data, decides

@@ -10,7 +10,8 @@ import numpy as np
 from bayes.data.design import Design
 from bayes.engine.posterior import Posterior
 from bayes.problem import DataFactor
-from bayes.results.summary import coefficient_rows, diagnostics, fmt, format_table, penalty_rows
+from bayes.results.format import fmt, format_table
+from bayes.results.summary import coefficient_rows, diagnostics, penalty_rows
 
 CONDITION_WARNING = 30.0  # condition index above which collinearity is strong (common practice)
 

@@ -27,6 +27,7 @@ from bayes.engine.scaled import scaled_prior
 from bayes.engine.widths import CoefficientMixtures, WidthPath
 from bayes.problem import DataFactor, ScaledPrior, to_natural
 from bayes.sensitivity.conflict import power_scaling_draws, prior_data_conflict
+from bayes.settings import SamplerSettings
 
 MIN_ESS = 200.0  # effective draws below which an importance-weighted value is not reported
 SAMPLED = 5  # factors sampled along the grid
@@ -50,12 +51,12 @@ class WeightedDraws:
 
     @classmethod
     def sample(
-        cls, factor: DataFactor, prior: ScaledPrior, chains: int, draws: int, warmup: int, seed: int
+        cls, factor: DataFactor, prior: ScaledPrior, sampler: SamplerSettings
     ) -> WeightedDraws:
         """Gibbs draws of the posterior, equally weighted."""
         from bayes.engine.gibbs import sample
 
-        out = sample(factor, prior, chains=chains, draws=draws, warmup=warmup, seed=seed)
+        out = sample(factor, prior, sampler)
         nat = to_natural(factor, out.gamma.reshape(-1, factor.p + 1))
         return cls(nat, np.full(len(nat), 1.0 / len(nat)))
 
@@ -116,7 +117,7 @@ class SampledEngine:
 
     method = "sampled"
 
-    def __init__(self, factor, priors, columns, expert, grid, chains, draws, warmup, seed):
+    def __init__(self, factor, priors, columns, expert, grid, sampler: SamplerSettings):
         from bayes.engine.modes import posterior_mode
 
         self.factor, self.priors, self.columns, self.expert = factor, priors, columns, expert
@@ -140,19 +141,18 @@ class SampledEngine:
         from bayes.engine.gibbs import sample
 
         for fs in self.sampled:
-            out = sample(factor, self.prior_at(fs), chains=chains, draws=draws, warmup=warmup,
-                         seed=seed)  # fmt: skip
+            out = sample(factor, self.prior_at(fs), sampler)
             nat_chains = to_natural(factor, out.gamma)
             ess = [float(arviz.ess(nat_chains[:, :, j])) for j in range(k)]
-            chain_ess.append(min(ess) if chains > 1 or draws > 3 else float("nan"))
+            chain_ess.append(min(ess) if sampler.chains > 1 or sampler.draws > 3 else float("nan"))
             gamma = out.gamma.reshape(-1, k)
             self.runs[float(fs)] = (gamma, out.sigma.reshape(-1), to_natural(factor, gamma),
                                     log_prior_density(self.prior_at(fs), gamma))  # fmt: skip
-        self.sampler = (chains, draws, warmup, seed)
+        self.sampler = sampler
         self.detail = (
             f"Gibbs sampling at factors {', '.join(f'{f:.3g}' for f in self.sampled)} "
-            f"({chains} chains of {draws} draws), importance weights in between; posterior "
-            "modes at every factor"
+            f"({sampler.chains} chains of {sampler.draws} draws), importance weights in between; "
+            "posterior modes at every factor"
         )
         from bayes.sensitivity.sweep import flat_limit
 
@@ -194,7 +194,7 @@ class SampledEngine:
             if self._limit.gaussian_only:
                 post = exact_posterior(self.factor, self._limit)
                 return CoefficientMixtures.from_posterior(post), None
-            return WeightedDraws.sample(self.factor, self._limit, *self.sampler), None
+            return WeightedDraws.sample(self.factor, self._limit, self.sampler), None
         except InputError as e:
             return None, f"no flat-prior limit: {e}"
 

@@ -41,6 +41,7 @@ from bayes.report.sweep_chart import plot_sweep  # noqa: F401  (public: bayes.se
 from bayes.results.result import FitResult
 from bayes.results.summary import prior_text
 from bayes.sensitivity.conflict import power_scaling_exact, prior_data_conflict
+from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
 
 DEFAULT_COUNT = 30
 DEFAULT_RANGE = (1.0 / 8.0, 8.0)
@@ -307,7 +308,7 @@ class SweepResult:
 
     def text(self) -> str:
         """The terminal summary: headline, the sweep at a few factors, checks."""
-        from bayes.results.summary import fmt, format_table
+        from bayes.results.format import fmt, format_table
 
         pct = f"{100 * self.level:g}%"
         lines = [f"Sensitivity of '{self.response}' to the prior widths ({self.selection}; "
@@ -683,10 +684,7 @@ def sweep(
     level: float | None = None,
     conclusion_level: float = 0.95,
     family_swap: bool = True,
-    chains: int = 4,
-    draws: int = 1000,
-    warmup: int = 500,
-    seed: int = 20261201,
+    sampler: SamplerSettings = DEFAULT_SAMPLER,
 ) -> SweepResult:
     """Sweep the prior widths and say what depends on them.
 
@@ -752,7 +750,7 @@ def sweep(
     else:
         from bayes.sensitivity.sampled import SampledEngine
 
-        engine = SampledEngine(factor, priors, columns, expert, grid, chains, draws, warmup, seed)
+        engine = SampledEngine(factor, priors, columns, expert, grid, sampler)
     mixes = [engine.at(float(f)) for f in grid]
     extra = dict(getattr(engine, "extra", {}))
     if engine.method == "sampled":
@@ -790,7 +788,7 @@ def sweep(
     conclusions = _conclusions(engine, mixes, flat_mix, table["p_positive"], names, response,
                                thresholds, grid, conclusion_level)  # fmt: skip
     conflict, power = engine.checks(priors)
-    swap = _family_swap(factor, priors, level, chains, draws, warmup, seed) if family_swap else None
+    swap = _family_swap(factor, priors, level, sampler) if family_swap else None
     units = {"response": priors.response_units, **dict(priors.units)}
     return SweepResult(
         response, units, grid, level, conclusion_level, engine.method, engine.detail, selection,
@@ -806,7 +804,7 @@ def _block(priors) -> tuple[str, ...]:
 # --------------------------------------------------------------------------- family swap
 
 
-def _family_swap(factor, priors, level, chains, draws, warmup, seed) -> dict | None:
+def _family_swap(factor, priors, level, sampler: SamplerSettings) -> dict | None:
     """The stated ranges read as each family: posterior mean and interval per coefficient."""
     if not any(c.family in FAMILIES for c in priors.coefficients):
         return None
@@ -822,8 +820,8 @@ def _family_swap(factor, priors, level, chains, draws, warmup, seed) -> dict | N
             mix = CoefficientMixtures.from_posterior(exact_posterior(factor, sp))
             how = "exact"
         else:
-            mix = WeightedDraws.sample(factor, sp, chains, draws, warmup, seed)
-            how = f"Gibbs sampling ({chains} chains of {draws} draws)"
+            mix = WeightedDraws.sample(factor, sp, sampler)
+            how = f"Gibbs sampling ({sampler.chains} chains of {sampler.draws} draws)"
         per[fam] = (read, mix, how)
     rows = []
     for j, name in enumerate(names):
