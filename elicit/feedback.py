@@ -360,7 +360,7 @@ def feedback(
 
 def to_json(fb: Feedback) -> dict[str, Any]:
     """The feedback as one JSON-ready object (``"coefficients"``, ``"noise"``, ...)."""
-    from bayes.data.terms import term_units
+    from elicit.units import term_units
 
     out: dict[str, Any] = {
         "coefficients": [
@@ -506,7 +506,7 @@ def format_predictive(p: Predictive | str, units: str | None = None) -> list[str
 
 def format_text(fb: Feedback) -> str:
     """The feedback as plain text for the terminal."""
-    from bayes.data.terms import term_units
+    from elicit.units import term_units
 
     lines: list[str] = []
     for c in fb.coefficients:

@@ -13,10 +13,11 @@ from conftest import DEMO
 import bayes
 from bayes.cli.app import main
 from bayes.data.design import build_design
-from bayes.data.terms import Terms, term_units
+from bayes.data.terms import Terms
 from bayes.errors import InputError
 from bayes.results.predict import predict
 from elicit.spec import parse_priors
+from elicit.units import term_units
 
 LEVELS = ("CEM-A", "CEM-B", "CEM-C")
 

@@ -153,7 +153,7 @@ _LEVEL = re.compile(r".+\[.*\]", re.S)  # a categorical level's indicator column
 
 def _units(ctx: _Context, name: str) -> str:
     """Units of a coefficient: response units per unit of its predictor (or term)."""
-    from bayes.data.terms import split_term, term_units
+    from elicit.units import split_term, term_units
 
     units = term_units(name, ctx.units, ctx.response_units)
     if name != "intercept" and all(_LEVEL.fullmatch(part) for part in split_term(name)):
@@ -163,7 +163,7 @@ def _units(ctx: _Context, name: str) -> str:
 
 def _predictor_units(ctx: _Context, name: str) -> str:
     """Units of a design column: its predictor's, a product for an interaction, '-' unknown."""
-    from bayes.data.terms import split_term
+    from elicit.units import split_term
 
     parts = [part for part in split_term(name) if not _LEVEL.fullmatch(part)]
     if not parts:
