@@ -21,8 +21,8 @@ from bayes.errors import InputError
 from bayes.report.build import build_report, collinearity, report_from_result
 from bayes.report.render import render_html, render_markdown, write_report
 from bayes.results.format import fmt_by_sd
-from bayes.results.store import save_fit
 from bayes.settings import SamplerSettings
+from bayes.store import save_fit
 from elicit.spec import parse_priors, read_prior_file
 
 NAMES = ["water_cement", "fly_ash", "curing_temp", "superplasticizer"]

@@ -288,7 +288,7 @@ def fit_command(data, response, predictors, priors, formula, reference, drop_mis
                                       method, sampler, progress, formula=formula,
                                       reference=reference)  # fmt: skip
     if save_dir:
-        from bayes.results.store import save_fit
+        from bayes.store import save_fit
 
         save_fit(result, save_dir)
     emit(result.to_dict(), result.text(digits), fmt)
@@ -307,7 +307,7 @@ def predict_command(fit_dir, newdata, level, fmt):
     from bayes.data.design import read_table
     from bayes.results.format import fmt as num
     from bayes.results.predict import predict
-    from bayes.results.store import load_fit
+    from bayes.store import load_fit
 
     result = load_fit(fit_dir)
     table = predict(result, read_table(newdata), level, source=Path(newdata).name)

@@ -27,9 +27,9 @@ def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
     from bayes.report.render import outputs_text, write_report
     from bayes.results.format import TABLE_DIGITS as DIGITS
     from bayes.results.provenance import provenance
-    from bayes.results.store import save_fit
     from bayes.sensitivity.sweep import save_sweep, sweep
     from bayes.settings import DEFAULT_SAMPLER
+    from bayes.store import save_fit
 
     data, priors = demo_path("trial_mix.csv"), demo_path("priors.toml")
     out.mkdir(parents=True, exist_ok=True)

@@ -1,6 +1,6 @@
 """The report's content, assembled from a saved fit as plain objects.
 
-``build_report(FIT_DIR)`` reads the fit folder (:func:`bayes.results.store.load_fit`, plus
+``build_report(FIT_DIR)`` reads the fit folder (:func:`bayes.store.load_fit`, plus
 ``sweep.json`` and ``compare.json`` when ``bayes sweep --save`` / ``bayes compare --save`` left
 them there) and returns a :class:`bayes.report.document.Report`: sections made of paragraphs, bullet
 lists, tables (cells already rounded), figures (PNG bytes) and formulas, in the order of a
@@ -56,7 +56,7 @@ def build_report(fit_dir: str | Path, figures: bool = True) -> Report:
     Parameters
     ----------
     fit_dir : str or Path
-        A folder written by ``bayes fit --save`` (:func:`bayes.results.store.save_fit`);
+        A folder written by ``bayes fit --save`` (:func:`bayes.store.save_fit`);
         ``sweep.json`` and ``compare.json`` in it add the sensitivity and comparison parts.
     figures : bool
         Draw the figures (False leaves them out: faster, for tests of the tables and text).
@@ -70,7 +70,7 @@ def build_report(fit_dir: str | Path, figures: bool = True) -> Report:
     InputError
         When the folder is not a saved fit or a saved sweep/comparison is unreadable.
     """
-    from bayes.results.store import load_fit
+    from bayes.store import load_fit
 
     folder = Path(fit_dir)
     result = load_fit(folder)
