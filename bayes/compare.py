@@ -348,22 +348,3 @@ def compare_priors(
             SetResult(label, ps.title, "sampled", ev, loo, flat, scaled.noise.jeffreys, r_hat)
         )
     return Comparison(design.response, design.n, tuple(results), provenance or {})
-
-
-def compare_path(fit_dir: str | Path) -> Path:
-    """Where ``save_comparison`` writes: ``fit_dir/compare.json``, in a saved fit folder."""
-    folder = Path(fit_dir)
-    if not (folder / "fit.json").exists():
-        raise InputError(f"{folder}: not a saved fit folder (run bayes fit --save {folder} first)")
-    return folder / "compare.json"
-
-
-def save_comparison(comparison: Comparison, fit_dir: str | Path) -> Path:
-    """Write ``fit_dir/compare.json`` atomically, beside a fit saved by ``bayes fit --save``."""
-    import json
-
-    from elicit.io import atomic_write_text
-
-    target = compare_path(fit_dir)
-    atomic_write_text(target, json.dumps(comparison.to_dict(), indent=2, allow_nan=False) + "\n")
-    return target

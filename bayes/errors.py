@@ -1,5 +1,6 @@
-"""The one exception type for bad input; the CLI turns it into one line and exit status 2."""
+"""The one exception type for bad input (its home is :mod:`elicit.errors`, which both packages
+share); the CLI turns it into one line and exit status 2."""
 
+from elicit.errors import InputError
 
-class InputError(ValueError):
-    """Bad input: the message is one line naming the file, row, column or field."""
+__all__ = ["InputError"]

@@ -12,10 +12,8 @@ written beside its final place and swapped in only when complete.
 from __future__ import annotations
 
 import json
-import os
-import shutil
-import tempfile
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -23,6 +21,11 @@ from bayes.engine.posterior import Posterior
 from bayes.errors import InputError
 from bayes.problem import DataFactor
 from bayes.results.result import FitResult
+from elicit.io import atomic_folder, atomic_write_text
+
+if TYPE_CHECKING:  # annotations only: loading a fit needs neither
+    from bayes.compare import Comparison
+    from bayes.sensitivity.sweep import SweepResult
 
 FILES = ("fit.json", "posterior.npz", "priors.toml")
 
@@ -36,59 +39,47 @@ def save_fit(result: FitResult, folder: str | Path) -> Path:
     folder = Path(folder)
     if folder.exists() and not (folder / "fit.json").exists() and any(folder.iterdir()):
         raise InputError(f"{folder}: exists and is not a fit folder; choose another --save path")
-    folder.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{folder.name}.", dir=folder.parent))
-    try:
-        post, f = result.posterior, result.factor
-        arrays = {
-            "factor_names": np.array(f.names, dtype=str),
-            "factor_n": np.array(f.n),
-            "x_mean": f.x_mean,
-            "x_scale": f.x_scale,
-            "y_mean": np.array(f.y_mean),
-            "R": f.R,
-            "names": np.array(post.names, dtype=str),
-            "weights": post.weights,
-            "sigma": post.sigma,
-            "means": post.means,
-            "covs": post.covs,
-            "mode": post.mode,
-            "scalars": np.array([post.sigma_mode, post.df, float(post.noise_known)]),
-        }
-        if post.draws is not None:
-            arrays["draws"] = post.draws
-            arrays["sigma_draws"] = post.sigma_draws
-        if post.sigma_cdf is not None:
-            arrays["sigma_cdf"] = post.sigma_cdf
-        np.savez(tmp / "posterior.npz", **arrays)
-        doc = result.to_dict()
-        doc["labels"] = {"method": post.method, "detail": post.detail, "mode_kind": post.mode_kind}
-        (tmp / "fit.json").write_text(json.dumps(doc, indent=2) + "\n")
-        src = getattr(result.priors, "path", None)
-        text = Path(src).read_text() if src and Path(src).exists() else ""
-        (tmp / "priors.toml").write_text(text)
-        if result.data is not None:
-            result.data.frame().to_csv(tmp / "data.csv", index=False)
-        if result.terms is not None:
-            (tmp / "terms.json").write_text(json.dumps(result.terms.to_dict(), indent=2) + "\n")
-        if result.inference is not None:
-            result.inference.to_netcdf(str(tmp / "posterior.nc"), engine="h5netcdf")
-        _swap(tmp, folder)
-    except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
-        raise
+    with atomic_folder(folder) as tmp:
+        _write_fit(result, tmp)
     return folder
 
 
-def _swap(tmp: Path, folder: Path) -> None:
-    """Put the complete folder ``tmp`` in place of ``folder``."""
-    if folder.exists():
-        old = Path(tempfile.mkdtemp(prefix=f".{folder.name}.old.", dir=folder.parent))
-        os.replace(folder, old / "fit")
-        os.replace(tmp, folder)
-        shutil.rmtree(old, ignore_errors=True)
-    else:
-        os.replace(tmp, folder)
+def _write_fit(result: FitResult, tmp: Path) -> None:
+    """Write every file of the fit folder into the (new, empty) folder ``tmp``."""
+    post, f = result.posterior, result.factor
+    arrays = {
+        "factor_names": np.array(f.names, dtype=str),
+        "factor_n": np.array(f.n),
+        "x_mean": f.x_mean,
+        "x_scale": f.x_scale,
+        "y_mean": np.array(f.y_mean),
+        "R": f.R,
+        "names": np.array(post.names, dtype=str),
+        "weights": post.weights,
+        "sigma": post.sigma,
+        "means": post.means,
+        "covs": post.covs,
+        "mode": post.mode,
+        "scalars": np.array([post.sigma_mode, post.df, float(post.noise_known)]),
+    }
+    if post.draws is not None:
+        arrays["draws"] = post.draws
+        arrays["sigma_draws"] = post.sigma_draws
+    if post.sigma_cdf is not None:
+        arrays["sigma_cdf"] = post.sigma_cdf
+    np.savez(tmp / "posterior.npz", **arrays)
+    doc = result.to_dict()
+    doc["labels"] = {"method": post.method, "detail": post.detail, "mode_kind": post.mode_kind}
+    (tmp / "fit.json").write_text(json.dumps(doc, indent=2) + "\n")
+    src = getattr(result.priors, "path", None)
+    text = Path(src).read_text() if src and Path(src).exists() else ""
+    (tmp / "priors.toml").write_text(text)
+    if result.data is not None:
+        result.data.frame().to_csv(tmp / "data.csv", index=False)
+    if result.terms is not None:
+        (tmp / "terms.json").write_text(json.dumps(result.terms.to_dict(), indent=2) + "\n")
+    if result.inference is not None:
+        result.inference.to_netcdf(str(tmp / "posterior.nc"), engine="h5netcdf")
 
 
 def load_fit(folder: str | Path) -> FitResult:
@@ -149,3 +140,33 @@ def load_fit(folder: str | Path) -> FitResult:
         doc["diagnostics"], tuple(doc["penalties"]), tuple(doc["notes"]), data,
         doc["provenance"], terms=terms,
     )  # fmt: skip
+
+
+# ----------------------------------------------------------------------------- sweep.json
+
+
+def save_sweep(result: SweepResult, folder) -> Path:
+    """Write ``folder/sweep.json`` atomically (the folder is created when missing)."""
+    folder = Path(folder)
+    folder.mkdir(parents=True, exist_ok=True)
+    path = folder / "sweep.json"
+    atomic_write_text(path, json.dumps(result.to_dict(), indent=2, allow_nan=False) + "\n")
+    return path
+
+
+# ----------------------------------------------------------------------------- compare.json
+
+
+def compare_path(fit_dir: str | Path) -> Path:
+    """Where ``save_comparison`` writes: ``fit_dir/compare.json``, in a saved fit folder."""
+    folder = Path(fit_dir)
+    if not (folder / "fit.json").exists():
+        raise InputError(f"{folder}: not a saved fit folder (run bayes fit --save {folder} first)")
+    return folder / "compare.json"
+
+
+def save_comparison(comparison: Comparison, fit_dir: str | Path) -> Path:
+    """Write ``fit_dir/compare.json`` atomically, beside a fit saved by ``bayes fit --save``."""
+    target = compare_path(fit_dir)
+    atomic_write_text(target, json.dumps(comparison.to_dict(), indent=2, allow_nan=False) + "\n")
+    return target

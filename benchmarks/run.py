@@ -131,8 +131,8 @@ def stream_vs_read_csv(repeats: int, folder: Path) -> dict:
     import pandas as pd
 
     from bayes.api import fit_factor
-    from bayes.data.design import CSV_OPTIONS
     from bayes.data.stream import stream_factor
+    from elicit.io import CSV_OPTIONS
 
     n, p = 500_000, 20
     path = folder / "stream.csv"
@@ -160,8 +160,9 @@ def child(mode: str, path: str, trace: bool) -> None:
     import tracemalloc
 
     from bayes.api import fit, fit_factor
-    from bayes.data.design import build_design, read_table
+    from bayes.data.design import build_design
     from bayes.data.stream import stream_factor
+    from elicit.io import read_table
 
     if trace:
         tracemalloc.start()

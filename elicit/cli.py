@@ -29,9 +29,9 @@ class _Group(click.Group):
                 code = super().main(args, prog_name, complete_var, standalone_mode=False, **extra)
                 _echo_warnings(caught)
         except ValueError as exc:
-            from elicit.spec import PriorFileError
+            from elicit.errors import InputError
 
-            if not isinstance(exc, PriorFileError):
+            if not isinstance(exc, InputError):
                 raise
             click.echo(f"elicit: {exc}", err=True)
             sys.exit(2)
@@ -53,15 +53,9 @@ def _echo_warnings(caught) -> None:
 def _read_data(path: str | None):
     if path is None:
         return None
-    import pandas as pd
+    from elicit.io import read_table
 
-    try:
-        return pd.read_csv(path)
-    except FileNotFoundError:
-        raise BadInput(f"{path}: no such file") from None
-    except (OSError, ValueError, pd.errors.ParserError) as exc:
-        first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-        raise BadInput(f"{path}: cannot read the data: {first}") from None
+    return read_table(path)
 
 
 def _out_path(out: str) -> Path:

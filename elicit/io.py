@@ -1,44 +1,168 @@
-"""File output shared by both packages: atomic writes that never leave a half-written file."""
+"""Files shared by both packages: atomic writes that never leave a half-written file, with the
+file mode the user's umask asks for, and the one reader of data tables (CSV and Parquet).
+
+pandas is imported inside the reader, so that ``elicit --help`` and ``bayes --help`` stay fast.
+"""
 
 from __future__ import annotations
 
+import contextlib
 import os
+import shutil
 import tempfile
+from collections.abc import Iterator
 from pathlib import Path
+
+from elicit.errors import InputError
+
+CSV_OPTIONS = {"skipinitialspace": True}  # pandas.read_csv options of every CSV read
+
+
+# ----------------------------------------------------------------------------- writing
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
+def file_mode() -> int:
+    """Mode of a new file under the current umask: 0o666 & ~umask (0644 under umask 022)."""
+    return 0o666 & ~_umask()
+
+
+def folder_mode() -> int:
+    """Mode of a new folder under the current umask: 0o777 & ~umask (0755 under umask 022)."""
+    return 0o777 & ~_umask()
+
+
+@contextlib.contextmanager
+def atomic_output(path: str | os.PathLike[str]) -> Iterator[Path]:
+    """Yield a temporary path beside ``path``; when the block ends, it replaces ``path``.
+
+    For writers that take a file name (a figure library, an array archive): write the whole
+    content to the yielded path. On success the file is synced to disk, given the mode of the
+    file it replaces (or :func:`file_mode` for a new file) and renamed over ``path`` with
+    :func:`os.replace` (atomic on POSIX and Windows): readers see the old file or the new one,
+    never a part. On failure the temporary file is removed and ``path`` is untouched.
+
+    The temporary name keeps ``path``'s suffix, so writers that choose a format by suffix
+    choose the right one.
+    """
+    target = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=f".tmp{target.suffix}",
+                               dir=target.parent)  # fmt: skip
+    os.close(fd)
+    tmp_path = Path(tmp)
+    try:
+        yield tmp_path
+        with open(tmp_path, "rb+") as handle:
+            os.fsync(handle.fileno())
+        mode = target.stat().st_mode & 0o777 if target.exists() else file_mode()
+        os.chmod(tmp_path, mode)
+        os.replace(tmp_path, target)
+    except BaseException:
+        tmp_path.unlink(missing_ok=True)
+        raise
+
+
+def atomic_write_bytes(path: str | os.PathLike[str], content: bytes) -> None:
+    """Write ``content`` to ``path`` atomically (see :func:`atomic_output`)."""
+    with atomic_output(path) as tmp:
+        tmp.write_bytes(content)
 
 
 def atomic_write_text(path: str | os.PathLike[str], text: str, encoding: str = "utf-8") -> None:
-    """Write ``text`` to ``path`` so that readers see the old file or the new one, never a part.
-
-    The text goes to a temporary file in the same folder, is flushed and synced to disk,
-    then renamed over ``path`` with :func:`os.replace` (atomic on POSIX and Windows).
-    If anything fails before the rename, the temporary file is removed and ``path`` is untouched.
+    """Write ``text`` to ``path`` atomically (see :func:`atomic_output`).
 
     Parameters
     ----------
     path : str or path-like
         Destination file. Its folder must exist.
     text : str
-        The whole new content.
+        The whole new content (written as is: no newline translation).
     encoding : str, default "utf-8"
     """
-    target = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=target.parent)
+    atomic_write_bytes(path, text.encode(encoding))
+
+
+@contextlib.contextmanager
+def atomic_folder(folder: str | os.PathLike[str]) -> Iterator[Path]:
+    """Yield a new empty folder beside ``folder``; when the block ends, it takes its place.
+
+    The folder gets :func:`folder_mode` and its files are written by the caller (each through
+    the normal file API: they get :func:`file_mode`). An existing ``folder`` is moved aside,
+    the new one renamed in, and the old one removed, so that the complete old folder or the
+    complete new one is there at every moment. On failure the new folder is removed and
+    ``folder`` is untouched.
+    """
+    final = Path(folder)
+    final.parent.mkdir(parents=True, exist_ok=True)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{final.name}.", dir=final.parent))
     try:
-        with os.fdopen(fd, "w", encoding=encoding, newline="") as handle:
-            handle.write(text)
-            handle.flush()
-            os.fsync(handle.fileno())
-        if target.exists():
-            os.chmod(tmp, target.stat().st_mode & 0o777)
+        os.chmod(tmp, folder_mode())
+        yield tmp
+        for child in tmp.rglob("*"):
+            if child.is_file():
+                os.chmod(child, file_mode())
+        if final.exists():
+            aside = Path(tempfile.mkdtemp(prefix=f".{final.name}.old.", dir=final.parent))
+            os.replace(final, aside / "old")
+            os.replace(tmp, final)
+            shutil.rmtree(aside, ignore_errors=True)
         else:
-            umask = os.umask(0)
-            os.umask(umask)
-            os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, target)
+            os.replace(tmp, final)
     except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
+        shutil.rmtree(tmp, ignore_errors=True)
         raise
+
+
+# ----------------------------------------------------------------------------- reading
+
+
+def read_errors() -> tuple[type[Exception], ...]:
+    """The exceptions pandas raises for a file that is not a readable table."""
+    import pandas as pd
+
+    return (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, ValueError)
+
+
+def is_parquet(path: str | os.PathLike[str]) -> bool:
+    """Whether ``path`` names a Parquet file (by its suffix); otherwise it is read as CSV."""
+    return Path(path).suffix.lower() in (".parquet", ".pq")
+
+
+def unreadable(path: str | os.PathLike[str], e: Exception) -> InputError:
+    """The one-line error for a parser failure (one of :func:`read_errors`) on ``path``."""
+    first = str(e).strip().splitlines()[0] if str(e).strip() else type(e).__name__
+    return InputError(f"{path}: not a readable table: {first}")
+
+
+def read_table(path: str | os.PathLike[str]):
+    """Read a CSV or Parquet file into a pandas DataFrame: the one table reader of both packages.
+
+    CSV files are read with :data:`CSV_OPTIONS` (spaces after the commas are allowed).
+
+    Raises
+    ------
+    InputError
+        When the file is missing, not a readable table, or has no data rows.
+    """
+    import pandas as pd
+
+    path = Path(path)
+    if not path.exists():
+        raise InputError(f"{path}: no such file")
+    if path.is_dir():
+        raise InputError(f"{path}: is a folder, not a data file")
+    try:
+        if is_parquet(path):
+            frame = pd.read_parquet(path)
+        else:
+            frame = pd.read_csv(path, **CSV_OPTIONS)
+    except (*read_errors(), OSError) as e:
+        raise unreadable(path, e) from None
+    if frame.shape[1] == 0 or frame.shape[0] == 0:
+        raise InputError(f"{path}: no data rows")
+    return frame

@@ -64,6 +64,7 @@ import numpy as np
 
 from elicit import convert
 from elicit.conditional import from_stated_rows
+from elicit.errors import ElicitationWarning, PriorFileError
 from elicit.pool import DEFAULT_METHOD, METHODS, pool
 
 FAMILIES = ("normal", "laplace", "student_t", "flat")
@@ -82,14 +83,6 @@ _NOISE_KEYS = frozenset({"sd", "low", "high", "mass", "shape", "scale"})
 _POOL_KEYS = frozenset({"method", "family", "df"})
 _CORRELATION_KEYS = frozenset({"names", "mean", "cov", "row"})
 _ROW_KEYS = frozenset({"at", "low", "high", "mass", "expert", "rationale"})
-
-
-class PriorFileError(ValueError):
-    """One line: names the file, the entry (e.g. 'coefficient 3 (fly_ash)') and the field."""
-
-
-class ElicitationWarning(UserWarning):
-    """A statement was accepted but reads differently from what was said (e.g. asymmetry)."""
 
 
 @dataclass(frozen=True)

@@ -15,10 +15,11 @@ pytest.importorskip("distributed", reason="the dask extra is not installed")
 import bayes.data.distributed  # noqa: E402
 from bayes.api import fit, fit_factor  # noqa: E402
 from bayes.cli.app import main  # noqa: E402
-from bayes.data.design import build_design, read_table  # noqa: E402
+from bayes.data.design import build_design  # noqa: E402
 from bayes.data.distributed import dask_factor  # noqa: E402
 from bayes.data.stream import stream_factor  # noqa: E402
 from bayes.errors import InputError  # noqa: E402
+from elicit.io import read_table  # noqa: E402
 
 # Threads in this process (processes=False) keep start-up quick; the work still goes
 # through the scheduler, the two workers and the client's gather and merge.

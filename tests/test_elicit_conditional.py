@@ -6,7 +6,8 @@ import numpy as np
 import pytest
 
 from elicit.conditional import conditional_means_prior, from_stated_rows
-from elicit.spec import PriorFileError, parse_priors
+from elicit.errors import PriorFileError
+from elicit.spec import parse_priors
 
 # Source: standard normal table (handbook value), z(0.95) = 1.6449; used with 4 digits below.
 Z95 = 1.6449

@@ -140,7 +140,7 @@ def test_interview_api_with_scripted_answers(tmp_path):
 
 def test_resume_refuses_a_file_for_another_response(tmp_path):
     (tmp_path / "q.toml").write_text('[study]\nresponse = "other"\n')
-    from elicit.spec import PriorFileError
+    from elicit.errors import PriorFileError
 
     with pytest.raises(PriorFileError, match="field 'response'"):
         Interview(tmp_path / "q.toml", "y", None, None)

@@ -231,7 +231,8 @@ def test_collinearity_note_appears_only_when_collinear():
 
 
 def _sweep_dir(demo_result, demo_fit_dir, tmp_path):
-    from bayes.sensitivity.sweep import save_sweep, sweep
+    from bayes.sensitivity.sweep import sweep
+    from bayes.store import save_sweep
 
     folder = tmp_path / "fit"
     shutil.copytree(demo_fit_dir, folder)
@@ -256,7 +257,8 @@ def test_report_with_a_saved_sweep(demo_result, demo_fit_dir, tmp_path):
 
 
 def test_a_sweep_of_another_model_is_rejected(demo_fit_dir, tmp_path):
-    from bayes.sensitivity.sweep import save_sweep, sweep
+    from bayes.sensitivity.sweep import sweep
+    from bayes.store import save_sweep
 
     folder = tmp_path / "fit"
     shutil.copytree(demo_fit_dir, folder)

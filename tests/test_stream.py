@@ -16,11 +16,12 @@ from conftest import NIST, lre
 import bayes.data.stream
 from bayes.api import fit, fit_factor
 from bayes.cli.app import main, rows_progress
-from bayes.data.design import build_design, read_table
+from bayes.data.design import build_design
 from bayes.data.factor import factor_from_arrays
 from bayes.data.stream import stream_factor
 from bayes.errors import InputError
 from bayes.settings import SamplerSettings
+from elicit.io import read_table
 from elicit.spec import parse_priors
 
 PRIORS = """

@@ -23,12 +23,11 @@ class _Group(click.Group):
     """Bad input ends with one line on stderr and exit status 2, never a traceback."""
 
     def invoke(self, ctx):
-        from bayes.errors import InputError
-        from elicit.spec import PriorFileError
+        from bayes.errors import InputError  # prior-file errors are input errors too
 
         try:
             return super().invoke(ctx)
-        except (InputError, PriorFileError) as e:
+        except InputError as e:
             click.echo(f"error: {e}", err=True)
             sys.exit(2)
 
@@ -146,8 +145,9 @@ def split_columns(text: str | None) -> list[str] | None:
 def design_from_options(data, response, predictors, prior_set, drop_missing, formula=None,
                         reference=()):  # fmt: skip
     """Read DATA and build the design the command line asks for (used by several commands)."""
-    from bayes.data.design import build_design, read_table
+    from bayes.data.design import build_design
     from bayes.data.terms import formula_response
+    from elicit.io import read_table
 
     if formula_response(formula) is None:
         response = response or prior_set.response
@@ -304,10 +304,10 @@ def fit_command(data, response, predictors, priors, formula, reference, drop_mis
               show_default=True)  # fmt: skip
 def predict_command(fit_dir, newdata, level, fmt):
     """Posterior mean, credible and predictive intervals for the rows of NEWDATA."""
-    from bayes.data.design import read_table
     from bayes.results.format import fmt as num
     from bayes.results.predict import predict
     from bayes.store import load_fit
+    from elicit.io import read_table
 
     result = load_fit(fit_dir)
     table = predict(result, read_table(newdata), level, source=Path(newdata).name)
@@ -368,9 +368,10 @@ def compare_command(data, priors, response, predictors, formula, reference, drop
                     save_dir, method, chains, draws, warmup, seed):  # fmt: skip
     """Compare prior files on DATA: evidence, Bayes factors, leave-one-out prediction."""
     from bayes.api import load_priors
-    from bayes.compare import compare_path, compare_priors
+    from bayes.compare import compare_priors
     from bayes.data.terms import formula_response
     from bayes.errors import InputError
+    from bayes.store import compare_path
 
     if save_dir:
         compare_path(save_dir)  # a bad folder fails before the work
@@ -391,7 +392,7 @@ def compare_command(data, priors, response, predictors, formula, reference, drop
         provenance=provenance(data, seed if sampled else None, design.dropped),
     )  # fmt: skip
     if save_dir:
-        from bayes.compare import save_comparison
+        from bayes.store import save_comparison
 
         save_comparison(comparison, save_dir)
     emit(comparison.to_dict(), comparison.text(), fmt)
@@ -428,7 +429,8 @@ def sweep_command(data, response, predictors, priors, formula, reference, drop_m
     """Sensitivity of the posterior to the prior widths: sweep, flips, conflict checks."""
     from bayes.api import load_priors
     from bayes.errors import InputError
-    from bayes.sensitivity.sweep import default_factors, save_sweep, sweep_design
+    from bayes.sensitivity.sweep import default_factors, sweep_design
+    from bayes.store import save_sweep
 
     if priors is None:
         raise InputError("bayes sweep needs --priors: there is nothing to widen without them")

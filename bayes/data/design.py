@@ -8,7 +8,6 @@ from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -53,37 +52,6 @@ class Design:
         """The design as a data frame (response first)."""
         data = {self.response: self.y, **{c: self.X[:, j] for j, c in enumerate(self.names)}}
         return pd.DataFrame(data)
-
-
-CSV_OPTIONS = {"skipinitialspace": True}  # pandas.read_csv options, shared with bayes.data.stream
-READ_ERRORS = (pd.errors.ParserError, pd.errors.EmptyDataError, UnicodeDecodeError, ValueError)
-
-
-def is_parquet(path: str | Path) -> bool:
-    """Whether ``path`` names a Parquet file (by its suffix); otherwise it is read as CSV."""
-    return Path(path).suffix.lower() in (".parquet", ".pq")
-
-
-def unreadable(path: str | Path, e: Exception) -> InputError:
-    """The one-line error for a parser failure (one of READ_ERRORS) on ``path``."""
-    first = str(e).strip().splitlines()[0] if str(e).strip() else type(e).__name__
-    return InputError(f"{path}: not a readable table: {first}")
-
-
-def read_table(path: str | Path) -> pd.DataFrame:
-    """Read a CSV or Parquet file, turning parser failures into :class:`InputError`."""
-    path = Path(path)
-    if not path.exists():
-        raise InputError(f"{path}: no such file")
-    try:
-        if is_parquet(path):
-            return pd.read_parquet(path)
-        frame = pd.read_csv(path, **CSV_OPTIONS)
-    except READ_ERRORS as e:
-        raise unreadable(path, e) from None
-    if frame.shape[1] == 0 or frame.shape[0] == 0:
-        raise InputError(f"{path}: no data rows")
-    return frame
 
 
 def _file_row(frame: pd.DataFrame, i: int) -> int:

@@ -32,7 +32,7 @@ from pathlib import Path
 
 import pandas as pd
 
-from bayes.data.design import CSV_OPTIONS, READ_ERRORS, is_parquet, select_columns, unreadable
+from bayes.data.design import select_columns
 from bayes.data.stream import (
     Moments,
     Progress,
@@ -44,6 +44,7 @@ from bayes.data.stream import (
     to_factor,
 )
 from bayes.errors import InputError
+from elicit.io import CSV_OPTIONS, is_parquet, read_errors, unreadable
 
 # LocalCluster settings without --scheduler: dask's defaults, quiet, HTTP on a free port.
 LOCAL_CLUSTER = {"silence_logs": logging.ERROR, "dashboard_address": ":0"}
@@ -88,7 +89,7 @@ def _csv_block(
         moments = block_moments(frame, response, predictors, source, drop_missing)
     except InputError as e:
         return _Block(None, 0, lines, str(e))
-    except READ_ERRORS as e:
+    except read_errors() as e:
         # pandas counts lines from the start of the parsed text, header included.
         shift = lines_before - (0 if first else 1)
         text = re.sub(r"line (\d+)", lambda m: f"line {int(m.group(1)) + shift}", str(e))
@@ -181,7 +182,7 @@ def dask_factor(
     if predictors is None and not parquet:  # numeric columns of the first chunk, as streamed
         try:
             header = pd.read_csv(path, nrows=chunk_rows, **CSV_OPTIONS)
-        except READ_ERRORS as e:
+        except read_errors() as e:
             raise unreadable(given, e) from None
     _, predictors = select_columns(header, response, predictors, source)
     args = (response, predictors, source, drop_missing)

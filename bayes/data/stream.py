@@ -36,18 +36,11 @@ from typing import TypeVar
 import numpy as np
 import pandas as pd
 
-from bayes.data.design import (
-    CSV_OPTIONS,
-    READ_ERRORS,
-    check_distinct,
-    checked_values,
-    is_parquet,
-    select_columns,
-    unreadable,
-)
+from bayes.data.design import check_distinct, checked_values, select_columns
 from bayes.data.factor import centred_moments, factor_from_moments, merge_factors
 from bayes.errors import InputError
 from bayes.problem import DataFactor
+from elicit.io import CSV_OPTIONS, is_parquet, read_errors, unreadable
 
 STREAM_BYTES = 100 * 2**20  # files larger than this are streamed unless told otherwise
 CHUNK_BYTES = 2**24  # default chunk: about 16 MiB of float64 values
@@ -200,7 +193,7 @@ def table_header(path: Path) -> pd.DataFrame:
 
             return pq.ParquetFile(path).schema_arrow.empty_table().to_pandas()
         return pd.read_csv(path, nrows=0, **CSV_OPTIONS)
-    except (*READ_ERRORS, OSError) as e:
+    except (*read_errors(), OSError) as e:
         raise unreadable(path, e) from None
 
 
@@ -214,7 +207,7 @@ def _csv_chunks(path: Path, chunk_rows: int) -> Iterator[tuple[pd.DataFrame, flo
         size = max(os.fstat(fh.fileno()).st_size, 1)
         try:
             reader = pd.read_csv(fh, chunksize=chunk_rows, **CSV_OPTIONS)
-        except READ_ERRORS as e:
+        except read_errors() as e:
             raise unreadable(path, e) from None
         with reader:
             while True:
@@ -222,7 +215,7 @@ def _csv_chunks(path: Path, chunk_rows: int) -> Iterator[tuple[pd.DataFrame, flo
                     frame = next(reader)
                 except StopIteration:
                     return
-                except READ_ERRORS as e:
+                except read_errors() as e:
                     raise unreadable(path, e) from None
                 if len(frame):  # a header-only file gives one empty chunk
                     yield frame, min(fh.tell() / size, 1.0)
@@ -243,7 +236,7 @@ def _parquet_chunks(
             frame.index = pd.RangeIndex(offset, offset + len(frame))
             offset += len(frame)
             yield frame, offset / total
-    except (*READ_ERRORS, OSError) as e:
+    except (*read_errors(), OSError) as e:
         raise unreadable(path, e) from None
 
 

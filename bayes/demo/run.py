@@ -21,15 +21,15 @@ def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
     the report.
     """
     from bayes.api import fit, load_priors
-    from bayes.compare import compare_priors, save_comparison
-    from bayes.data.design import read_table
+    from bayes.compare import compare_priors
     from bayes.report.build import report_from_result
     from bayes.report.render import outputs_text, write_report
     from bayes.results.format import TABLE_DIGITS as DIGITS
     from bayes.results.provenance import provenance
-    from bayes.sensitivity.sweep import save_sweep, sweep
+    from bayes.sensitivity.sweep import sweep
     from bayes.settings import DEFAULT_SAMPLER
-    from bayes.store import save_fit
+    from bayes.store import save_comparison, save_fit, save_sweep
+    from elicit.io import read_table
 
     data, priors = demo_path("trial_mix.csv"), demo_path("priors.toml")
     out.mkdir(parents=True, exist_ok=True)

@@ -5,13 +5,12 @@ from __future__ import annotations
 
 import csv
 import io
-import os
 import re
-import tempfile
 from pathlib import Path
 
 from bayes.errors import InputError
 from bayes.report.document import Cell, Report, Table
+from elicit.io import atomic_write_bytes
 
 
 def write_report(
@@ -52,7 +51,7 @@ def write_report(
             files[folder / f"{table.key}.csv"] = table_csv(table).encode("utf-8")
     for path, content in files.items():
         path.parent.mkdir(parents=True, exist_ok=True)
-        _atomic_write_bytes(path, content)
+        atomic_write_bytes(path, content)
     return list(files)
 
 
@@ -79,23 +78,6 @@ def _output(path: str | Path, suffix: str) -> Path:
     if path.is_dir():
         raise InputError(f"{path}: is a folder; give a file name such as report{suffix}")
     return path
-
-
-def _atomic_write_bytes(path: Path, content: bytes) -> None:
-    """Write to a temporary file in the same folder, then rename over ``path``."""
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    try:
-        with os.fdopen(fd, "wb") as handle:
-            handle.write(content)
-            handle.flush()
-            os.fsync(handle.fileno())
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
 
 
 # --------------------------------------------------------------------------- rendering

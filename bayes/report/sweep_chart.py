@@ -8,7 +8,6 @@ API on a :class:`matplotlib.figure.Figure` (no pyplot, no GUI backend).
 from __future__ import annotations
 
 import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -121,12 +120,8 @@ def plot_sweep(sweep, path_or_axes=None, intercept: bool = False):
 
 def _save(fig, path: Path) -> None:
     """Write the figure next to ``path`` and rename it into place."""
+    from elicit.io import atomic_output
+
     path.parent.mkdir(parents=True, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=path.suffix, dir=path.parent)
-    os.close(fd)
-    try:
+    with atomic_output(path) as tmp:
         fig.savefig(tmp, dpi=150)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise

@@ -23,11 +23,9 @@ Laplace and Student-t priors: :mod:`bayes.sensitivity.sampled`.
 
 from __future__ import annotations
 
-import json
 import math
 import re
 from dataclasses import dataclass, replace
-from pathlib import Path
 
 import numpy as np
 from scipy import optimize, special
@@ -858,14 +856,3 @@ def sweep_design(design, priors, **options) -> SweepResult:
         raise InputError("bayes sweep needs --priors: there is nothing to widen without them")
     factor = factor_from_arrays(design.X, design.y, design.names)
     return sweep(factor, priors, design.response, **options)
-
-
-def save_sweep(result: SweepResult, folder) -> Path:
-    """Write ``folder/sweep.json`` atomically (the folder is created when missing)."""
-    from elicit.io import atomic_write_text
-
-    folder = Path(folder)
-    folder.mkdir(parents=True, exist_ok=True)
-    path = folder / "sweep.json"
-    atomic_write_text(path, json.dumps(result.to_dict(), indent=2, allow_nan=False) + "\n")
-    return path
