@@ -154,6 +154,25 @@ def save_sweep(result: SweepResult, folder) -> Path:
     return path
 
 
+def load_sweep(folder: str | Path) -> SweepResult | None:
+    """The sweep saved in ``folder/sweep.json`` by :func:`save_sweep`, or None when none is.
+
+    Raises
+    ------
+    InputError
+        When the file is there but not a readable sweep.
+    """
+    from bayes.sensitivity.sweep import SweepResult
+
+    path = Path(folder) / "sweep.json"
+    if not path.exists():
+        return None
+    try:
+        return SweepResult.from_dict(json.loads(path.read_text()))
+    except (ValueError, KeyError, TypeError, IndexError) as e:
+        raise InputError(f"{path}: not a readable sweep ({type(e).__name__}: {e})") from None
+
+
 # ----------------------------------------------------------------------------- compare.json
 
 

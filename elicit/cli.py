@@ -201,9 +201,8 @@ def interview(
 
     design = None
     if formula or reference:  # the design's columns: levels and derived terms (bayes.terms)
-        from bayes.cli.app import reference_levels
         from bayes.data.design import build_design
-        from bayes.data.terms import formula_response, interview_terms
+        from bayes.data.terms import formula_response, interview_terms, reference_levels
         from bayes.errors import InputError
 
         if formula_response(formula) not in (None, response):

@@ -407,3 +407,20 @@ def test_dominance_measures(demo_factor, demo_priors):
         slope = (refit(demo_factor, moved).mean[j] - base[j]) / cp.scale
         assert c.prior_share == pytest.approx(slope, rel=1e-9)
         assert 0 < c.variance_ratio < 1
+
+
+def test_saved_sweep_loads_back_as_the_same_result(tmp_path, demo_factor, demo_priors):
+    from bayes.store import load_sweep, save_sweep
+
+    result = sweep(demo_factor, demo_priors, "strength", thresholds=["water_cement<-40"],
+                   factors=[0.5, 2.0], family_swap=False)  # fmt: skip
+    save_sweep(result, tmp_path)
+    again = load_sweep(tmp_path)
+    # JSON keeps every float exactly (repr round trip), so the loaded result writes the same JSON.
+    assert again.to_dict() == result.to_dict()
+    assert again.text() == result.text()
+    assert np.array_equal(again.factors, result.factors)
+    assert load_sweep(tmp_path / "nowhere") is None
+    (tmp_path / "sweep.json").write_text('{"response": "y"}')
+    with pytest.raises(InputError, match="not a readable sweep"):
+        load_sweep(tmp_path)

@@ -89,17 +89,6 @@ def term_options(f):
     return functools.reduce(lambda g, opt: opt(g), reversed(options), f)
 
 
-def reference_levels(pairs) -> dict[str, str]:
-    """('cement_type=CEM-A', ...) -> {'cement_type': 'CEM-A'}."""
-    out = {}
-    for pair in pairs or ():
-        name, sep, level = pair.partition("=")
-        if not sep or not name.strip() or not level.strip():
-            raise click.BadParameter(f"'{pair}' is not COLUMN=LEVEL", param_hint="--reference")
-        out[name.strip()] = level.strip()
-    return out
-
-
 def sampler_settings_options(f):
     """--chains, --draws, --warmup, --seed, with the defaults of :mod:`bayes.settings`."""
     d = DEFAULT_SAMPLER
@@ -146,7 +135,7 @@ def design_from_options(data, response, predictors, prior_set, drop_missing, for
                         reference=()):  # fmt: skip
     """Read DATA and build the design the command line asks for (used by several commands)."""
     from bayes.data.design import build_design
-    from bayes.data.terms import formula_response
+    from bayes.data.terms import formula_response, reference_levels
     from elicit.io import read_table
 
     if formula_response(formula) is None:

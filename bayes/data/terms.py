@@ -294,6 +294,24 @@ def is_text(series: pd.Series) -> bool:
     return bool(numbers.mean() < 0.5)
 
 
+def reference_levels(pairs) -> dict[str, str]:
+    """Reference levels from ``"COLUMN=LEVEL"`` strings: ``("cement_type=CEM-A",)`` ->
+    ``{"cement_type": "CEM-A"}``.
+
+    Raises
+    ------
+    InputError
+        For a string that is not ``COLUMN=LEVEL``.
+    """
+    out = {}
+    for pair in pairs or ():
+        name, sep, level = pair.partition("=")
+        if not sep or not name.strip() or not level.strip():
+            raise InputError(f"reference level '{pair}' is not COLUMN=LEVEL")
+        out[name.strip()] = level.strip()
+    return out
+
+
 def formula_response(formula: str | None) -> str | None:
     """The left-hand side of a formula as written (None without a formula or a left side)."""
     lhs, tilde, _ = (formula or "").partition("~")

@@ -261,6 +261,43 @@ class SweepResult:
     notes: tuple[str, ...]
     extra: dict
 
+    @classmethod
+    def from_dict(cls, doc: dict) -> SweepResult:
+        """The result back from its JSON object (``sweep.json``), as :meth:`to_dict` wrote it.
+
+        Missing numbers (JSON null) come back as nan; conclusions in the order of their
+        coefficients.
+        """
+
+        def arr(values) -> np.ndarray:
+            return np.array([np.nan if v is None else v for v in values], dtype=float)
+
+        coefficients, conclusions = [], []
+        for row in doc["coefficients"]:
+            interval = row.get("prior_interval")
+            coefficients.append(CoefficientSweep(
+                row["name"], row["prior"], bool(row["swept"]), arr(row["mean"]), arr(row["sd"]),
+                arr(row["lower"]), arr(row["upper"]), arr(row["p_positive"]),
+                arr(row["mode"]) if row.get("mode") is not None else None,
+                row.get("variance_ratio"), row.get("prior_share"),
+                None if interval is None else (float(interval[0]), float(interval[1])),
+            ))  # fmt: skip
+            for k in row.get("conclusions", ()):
+                conclusions.append(Conclusion(
+                    k["name"], k["kind"], k["op"], float(k["value"]), k["statement"],
+                    arr(k["probability"]), float(k["at_stated"]), k["narrower_flip"],
+                    k["wider_flip"], k["sentence"],
+                ))  # fmt: skip
+        own = set(_FIELDS) - {"coefficients"}
+        return cls(
+            doc["response"], dict(doc.get("units") or {}),
+            np.array([f for f in doc["factors"] if f is not None], dtype=float), doc["level"],
+            doc["conclusion_level"], doc["method"], doc["detail"], doc["selection"],
+            tuple(coefficients), tuple(conclusions), tuple(doc["headline"]), doc["conflict"],
+            doc["power_scaling"], doc.get("family_swap"), tuple(doc.get("notes", ())),
+            {k: v for k, v in doc.items() if k not in own and k != "coefficients"},
+        )  # fmt: skip
+
     def to_dict(self) -> dict:
         """The JSON object (``factors`` with the flat-prior limit as None)."""
         coefs = []
@@ -340,6 +377,24 @@ class SweepResult:
                       format_table(["coefficient", *fams], body)]  # fmt: skip
         lines += [f"Note: {n}" for n in self.notes]
         return "\n".join(lines)
+
+
+_FIELDS = (
+    "response",
+    "units",
+    "level",
+    "conclusion_level",
+    "method",
+    "detail",
+    "selection",
+    "factors",
+    "coefficients",
+    "headline",
+    "conflict",
+    "power_scaling",
+    "family_swap",
+    "notes",
+)  # the keys of SweepResult.to_dict other than the engine's extras
 
 
 def _json_array(a: np.ndarray) -> list:
