@@ -17,7 +17,7 @@ from bayes.engine.exact import exact_posterior
 from bayes.engine.scaled import scaled_prior
 from bayes.errors import InputError
 from bayes.problem import DataFactor
-from bayes.results.result import FitResult, make_result
+from bayes.results.result import FitResult
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
 
 METHODS = ("auto", "exact", "sample")
@@ -127,13 +127,19 @@ def fit_factor(
             "use --method sample"
         )
     if method == "exact":
-        posterior = exact_posterior(factor, scaled)
-        return make_result(response, factor, priors, posterior, level, data, provenance)
-    from bayes.engine.sampled import sampled_posterior
+        posterior, inference = exact_posterior(factor, scaled), None
+    else:
+        from bayes.engine.sampled import sampled_posterior
 
-    posterior, columns, notes, inference = sampled_posterior(
-        factor, scaled, sampler, progress=progress
-    )
-    return make_result(
-        response, factor, priors, posterior, level, data, provenance, notes, columns, inference
+        posterior, _, _, inference = sampled_posterior(factor, scaled, sampler, progress=progress)
+    return FitResult(
+        response,
+        factor,
+        priors,
+        posterior,
+        level,
+        data=data,
+        provenance=provenance or {},
+        inference=inference,
+        terms=getattr(data, "terms", None),
     )

@@ -12,6 +12,7 @@ written beside its final place and swapped in only when complete.
 from __future__ import annotations
 
 import json
+from dataclasses import replace
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -77,7 +78,8 @@ def _write_fit(result: FitResult, tmp: Path) -> None:
     if result.data is not None:
         result.data.frame().to_csv(tmp / "data.csv", index=False)
     if result.terms is not None:
-        (tmp / "terms.json").write_text(json.dumps(result.terms.to_dict(), indent=2) + "\n")
+        coding = {**result.terms.to_dict(), "notes": list(result.terms.notes)}
+        (tmp / "terms.json").write_text(json.dumps(coding, indent=2) + "\n")
     if result.inference is not None:
         result.inference.to_netcdf(str(tmp / "posterior.nc"), engine="h5netcdf")
 
@@ -121,11 +123,12 @@ def load_fit(folder: str | Path) -> FitResult:
     priors = (
         parse_priors(tomllib.loads(text), str(folder / "priors.toml")) if text else flat_priors()
     )
-    terms = None
+    terms, coding = None, None
     if (folder / "terms.json").exists():
         from bayes.data.terms import Terms
 
-        terms = Terms.from_dict(json.loads((folder / "terms.json").read_text()))
+        coding = json.loads((folder / "terms.json").read_text())
+        terms = Terms.from_dict(coding)
     data = None
     if (folder / "data.csv").exists():
         frame = pd.read_csv(folder / "data.csv")
@@ -135,11 +138,15 @@ def load_fit(folder: str | Path) -> FitResult:
             frame[doc["response"]].to_numpy(float), doc["provenance"].get("data", "data"),
             int(doc["provenance"].get("dropped", 0)), terms,
         )  # fmt: skip
-    return FitResult(
-        doc["response"], factor, priors, post, doc["level"], tuple(doc["coefficients"]),
-        doc["diagnostics"], tuple(doc["penalties"]), tuple(doc["notes"]), data,
-        doc["provenance"], terms=terms,
-    )  # fmt: skip
+    result = FitResult(doc["response"], factor, priors, post, doc["level"], data=data,
+                       provenance=doc["provenance"], terms=terms)  # fmt: skip
+    if coding is not None and "notes" not in coding:
+        # Saved by 0.1.0: the coding's notes (reference levels) are only in fit.json, as the
+        # notes that the fit itself does not make.
+        own = set(replace(result, terms=None).notes)
+        terms = replace(terms, notes=tuple(n for n in doc["notes"] if n not in own))
+        result = replace(result, terms=terms, data=data and replace(data, terms=terms))
+    return result
 
 
 # ----------------------------------------------------------------------------- sweep.json

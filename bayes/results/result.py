@@ -1,24 +1,39 @@
-"""The one immutable result of a fit: it knows how to summarise itself."""
+"""The one immutable result of a fit: it stores the primitives and derives its summaries.
+
+Like a statistics package's results object, :class:`FitResult` keeps only what the fit made
+(data factor, priors, posterior, credible level, data, provenance) and derives the coefficient
+table, diagnostics, equivalent penalties and notes from them on first use, so nothing can go
+stale: ``dataclasses.replace(result, level=0.5)`` has 50% intervals.
+"""
 
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass, field
+from functools import cached_property
+from types import MappingProxyType
 
 import numpy as np
 
 from bayes.data.design import Design
 from bayes.engine.posterior import Posterior
 from bayes.problem import DataFactor
+from bayes.results import notes as wording
 from bayes.results.format import fmt, format_table
 from bayes.results.summary import coefficient_rows, diagnostics, penalty_rows
 
-CONDITION_WARNING = 30.0  # condition index above which collinearity is strong (common practice)
+CONDITION_WARNING = wording.CONDITION_WARNING
+CONVERGENCE_COLUMNS = ("r_hat", "ess_bulk", "ess_tail")
 
 
-@dataclass(frozen=True)
+def _frozen(row: Mapping) -> Mapping:
+    return MappingProxyType(dict(row))
+
+
+@dataclass(frozen=True, eq=False)
 class FitResult:
-    """A fitted model: data factor, priors, posterior and the summaries computed from them.
+    """A fitted model: data factor, priors and posterior, and the summaries derived from them.
 
     Attributes
     ----------
@@ -28,20 +43,19 @@ class FitResult:
     posterior : Posterior
     level : float
         Credible level of the reported intervals.
-    rows : tuple of dict
-        The coefficient table (see :func:`bayes.results.summary.coefficient_rows`).
-    diagnostics : dict
-    penalties : tuple of dict
-        Equivalent ridge/lasso penalties in natural units.
-    notes : tuple of str
-        Plain-language notes and warnings shown under the table.
     data : Design, optional
         The in-memory data (absent for streamed fits).
     provenance : dict
         Data file, its SHA-256, command line, date, versions, seed.
+    inference : arviz.InferenceData, optional
+        The draws of a sampled fit, labelled.
     terms : bayes.data.terms.Terms, optional
-        Coding of categorical predictors and derived terms (applied to new rows
-        by ``bayes predict``); None when the design columns are data columns.
+        Coding of categorical predictors and derived terms (applied to new rows by
+        ``bayes predict``); None when the design columns are data columns.
+
+    Derived (read-only, computed on first use): ``rows`` (the coefficient table),
+    ``diagnostics``, ``penalties`` (equivalent ridge/lasso penalties in natural units),
+    ``notes`` (plain-language notes and warnings) and, for sampled fits, ``convergence``.
     """
 
     response: str
@@ -49,24 +63,98 @@ class FitResult:
     priors: object
     posterior: Posterior
     level: float
-    rows: tuple[dict, ...]
-    diagnostics: dict
-    penalties: tuple[dict, ...]
-    notes: tuple[str, ...]
     data: Design | None = None
-    provenance: dict = field(default_factory=dict)
+    provenance: Mapping = field(default_factory=dict)
     inference: object = None
     terms: object | None = None
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "provenance", MappingProxyType(dict(self.provenance or {})))
 
     @property
     def names(self) -> tuple[str, ...]:
         return self.posterior.names
 
+    @property
+    def sampled(self) -> bool:
+        return self.posterior.method == "sampled"
+
+    @cached_property
+    def convergence(self):
+        """R-hat and bulk/tail ESS per coefficient (and sigma) of a sampled fit, else None."""
+        if not self.sampled:
+            return None
+        from bayes.engine.diagnostics import summarize_draws
+
+        post = self.posterior
+        return summarize_draws(post.draws, post.sigma_draws, self.names)
+
+    @cached_property
+    def rows(self) -> tuple[Mapping, ...]:
+        """The coefficient table: one read-only mapping per coefficient (intercept first)."""
+        rows = coefficient_rows(self.posterior, self.priors, self.level)
+        if self.convergence is not None:
+            for j, row in enumerate(rows):
+                for key in CONVERGENCE_COLUMNS:
+                    row[key] = float(self.convergence[key][j])
+        return tuple(_frozen(r) for r in rows)
+
+    @cached_property
+    def diagnostics(self) -> Mapping:
+        """n, p, rss and residual sd at the posterior mean, R^2, condition number, noise sd."""
+        return _frozen(diagnostics(self.factor, self.posterior))
+
+    @cached_property
+    def noise_basis(self) -> tuple[float, str]:
+        """The noise sd the equivalent penalties use, and what it is."""
+        if self.posterior.noise_known:
+            return self.posterior.sigma_quantile(0.5), "known noise sd"
+        return self.diagnostics["noise_sd_median"], "posterior median of the noise sd"
+
+    @cached_property
+    def penalties(self) -> tuple[Mapping, ...]:
+        """Equivalent ridge (sigma^2/tau^2) and lasso (sigma^2/b) penalties, natural units."""
+        sigma, basis = self.noise_basis
+        return tuple(_frozen(r) for r in penalty_rows(self.priors, sigma, basis))
+
+    @cached_property
+    def notes(self) -> tuple[str, ...]:
+        """Plain-language notes and warnings shown under the table, in a fixed order."""
+        out: list[str | None] = []
+        p = self.priors
+        if not p.coefficients and p.block is None and p.noise is None:
+            out.append(wording.FLAT_PRIORS)
+        if self.convergence is not None:
+            c = self.convergence
+            k = len(self.names)  # sigma, when sampled, is not part of the table's notes
+            out += wording.convergence(self.names, c.r_hat[:k], c.ess_bulk[:k], c.ess_tail[:k])
+            out.append(wording.lasso_zeros(*self._lasso_zeros()))
+        out.append(wording.ill_conditioned(self.diagnostics["condition_number"]))
+        dropped = self.data.dropped if self.data is not None else self.provenance.get("dropped", 0)
+        out.append(wording.dropped_rows(int(dropped or 0)))
+        if self.terms is not None:
+            out.extend(self.terms.notes)
+        return tuple(n for n in out if n)
+
+    def _lasso_zeros(self) -> tuple[int, int]:
+        """(modes exactly at their Laplace prior's location, Laplace-prior coefficients)."""
+        at, count = 0, 0
+        for j, name in enumerate(self.names):
+            cp = self.priors.get(name)
+            if cp is None or cp.family != "laplace":
+                continue
+            count += 1
+            # The mode sits exactly on the location in the scaled problem; back in natural
+            # units the division by the column scale can move it by an ulp or two.
+            mode, centre = float(self.posterior.mode[j]), float(cp.center)
+            at += abs(mode - centre) <= 8 * np.finfo(float).eps * max(abs(centre), 1e-300)
+        return at, count
+
     def summary(self):
         """The coefficient table as a pandas DataFrame indexed by coefficient name."""
         import pandas as pd
 
-        return pd.DataFrame(list(self.rows)).set_index("name")
+        return pd.DataFrame([dict(r) for r in self.rows]).set_index("name")
 
     def to_dict(self) -> dict:
         """The JSON object of the command-line contract (plus extra fields)."""
@@ -96,7 +184,7 @@ class FitResult:
     def text(self, digits: int = 6) -> str:
         """The terminal table with the diagnostics and notes below it."""
         pct = f"{100 * self.level:g}%"
-        extra = [c for c in ("r_hat", "ess_bulk", "ess_tail") if c in self.rows[0]]
+        extra = [c for c in CONVERGENCE_COLUMNS if c in self.rows[0]]
         headers = ["coefficient", "prior", "mean", "mode", "sd", f"{pct} lower", f"{pct} upper",
                    "P(>0)", "sd/prior sd", *extra]  # fmt: skip
         body = [
@@ -131,7 +219,7 @@ class FitResult:
 
 
 def _jsonable(obj):
-    if isinstance(obj, dict):
+    if isinstance(obj, Mapping):
         return {k: _jsonable(v) for k, v in obj.items()}
     if isinstance(obj, (list, tuple)):
         return [_jsonable(v) for v in obj]
@@ -143,55 +231,3 @@ def _jsonable(obj):
     if isinstance(obj, np.ndarray):
         return _jsonable(obj.tolist())
     return obj
-
-
-def make_result(
-    response: str,
-    factor: DataFactor,
-    priors,
-    posterior: Posterior,
-    level: float,
-    data: Design | None = None,
-    provenance: dict | None = None,
-    notes: tuple[str, ...] = (),
-    extra_columns: dict[str, list] | None = None,
-    inference: object = None,
-) -> FitResult:
-    """Compute the summaries of a posterior once and freeze them in a :class:`FitResult`.
-
-    ``extra_columns`` adds per-coefficient columns (R-hat, ESS for sampled fits).
-    """
-    rows = coefficient_rows(posterior, priors, level)
-    for key, values in (extra_columns or {}).items():
-        for r, v in zip(rows, values, strict=True):
-            r[key] = v
-    diag = diagnostics(factor, posterior)
-    if posterior.noise_known:
-        sigma, basis = float(posterior.sigma[0]), "known noise sd"
-    else:
-        sigma, basis = diag["noise_sd_median"], "posterior median of the noise sd"
-    all_notes = list(notes)
-    if not priors.coefficients and priors.block is None and priors.noise is None:
-        all_notes.insert(
-            0,
-            "no prior file: flat priors on every coefficient and the Jeffreys prior on the "
-            "noise sd (the least-squares limit).",
-        )
-    cond = diag["condition_number"]
-    if cond > CONDITION_WARNING:
-        all_notes.append(
-            f"the scaled design is ill-conditioned (condition number {fmt(cond, 3)} > "
-            f"{CONDITION_WARNING:g}): collinear predictors; coefficients with flat priors are "
-            "poorly determined and informative priors weigh heavily."
-        )
-    dropped = data.dropped if data is not None else (provenance or {}).get("dropped", 0)
-    if dropped:
-        all_notes.append(f"{dropped} row(s) with missing values dropped.")
-    terms = getattr(data, "terms", None)
-    if terms is not None:
-        all_notes.extend(terms.notes)
-    return FitResult(
-        response, factor, priors, posterior, level, tuple(rows), diag,
-        tuple(penalty_rows(priors, sigma, basis)), tuple(all_notes), data, provenance or {},
-        terms=terms, inference=inference,
-    )  # fmt: skip

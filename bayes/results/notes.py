@@ -1,0 +1,74 @@
+"""The notes under a fit's table: every sentence about the fit itself, made in one place.
+
+Each function takes numbers and returns sentences; :class:`bayes.results.result.FitResult`
+decides which apply. The convergence notes read the thresholds of
+:mod:`bayes.engine.diagnostics` (R-hat and effective sample size), so the numbers the notes
+test and the numbers they print are the same.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+from bayes.engine.diagnostics import ESS_MIN, R_HAT_MAX
+from bayes.results.format import fmt
+
+CONDITION_WARNING = 30.0  # condition index above which collinearity is strong (common practice)
+
+FLAT_PRIORS = (
+    "no prior file: flat priors on every coefficient and the Jeffreys prior on the noise sd "
+    "(the least-squares limit)."
+)
+
+
+def ill_conditioned(condition_number: float) -> str | None:
+    """The collinearity warning, when the scaled design's condition number passes the limit."""
+    if not condition_number > CONDITION_WARNING:
+        return None
+    return (
+        f"the scaled design is ill-conditioned (condition number {fmt(condition_number, 3)} > "
+        f"{CONDITION_WARNING:g}): collinear predictors; coefficients with flat priors are "
+        "poorly determined and informative priors weigh heavily."
+    )
+
+
+def dropped_rows(count: int) -> str | None:
+    """How many rows with missing values were left out, when any were."""
+    return f"{count} row(s) with missing values dropped." if count else None
+
+
+def convergence(
+    names: Sequence[str],
+    r_hat: Sequence[float],
+    ess_bulk: Sequence[float],
+    ess_tail: Sequence[float],
+) -> list[str]:
+    """The R-hat and effective-sample-size warnings of a sampled fit (none when all is well).
+
+    A quantity is flagged when its split R-hat exceeds ``R_HAT_MAX`` or when the smaller of its
+    bulk and tail effective sample sizes is below ``ESS_MIN`` (Vehtari et al., 2021).
+    """
+    bad_rhat = [n for n, r in zip(names, r_hat, strict=True) if r > R_HAT_MAX]
+    low_ess = [n for n, b, t in zip(names, ess_bulk, ess_tail, strict=True) if min(b, t) < ESS_MIN]
+    out = []
+    if bad_rhat:
+        out.append(
+            f"R-hat above {R_HAT_MAX} for {', '.join(bad_rhat)}: the chains disagree; "
+            "run more draws (--draws, --warmup) before trusting these numbers."
+        )
+    if low_ess:
+        out.append(
+            f"effective sample size below {ESS_MIN} for {', '.join(low_ess)}: "
+            "Monte Carlo error is large; run more draws."
+        )
+    return out
+
+
+def lasso_zeros(at_location: int, laplace: int) -> str | None:
+    """How many Laplace-prior coefficients have their mode exactly at the prior location."""
+    if not laplace:
+        return None
+    return (
+        f"{at_location} of {laplace} Laplace-prior coefficients have their mode "
+        "exactly at the prior location (the lasso's zeros)."
+    )
