@@ -1,17 +1,46 @@
-"""Bayesian linear regression with elicited priors: design, engines, summaries, report."""
+"""Bayesian linear regression with elicited priors: design, engines, summaries, report.
 
-__all__ = ["fit", "fit_factor", "FitResult"]
+The public names load on first use (PEP 562), so that ``bayes --help`` does not pay for numpy,
+scipy and pandas::
+
+    import bayes
+    result = bayes.fit(frame, response="strength", priors="priors.toml")
+    print(result.text())
+"""
+
+from __future__ import annotations
+
+from importlib import import_module
+
+# public name -> the module that is its one home
+_HOMES = {
+    "fit": "bayes.api",
+    "fit_factor": "bayes.api",
+    "load_priors": "bayes.api",
+    "FitResult": "bayes.results.result",
+    "SamplerSettings": "bayes.settings",
+    "InputError": "bayes.errors",
+    "load_fit": "bayes.store",
+    "save_fit": "bayes.store",
+    "predict": "bayes.results.predict",
+    "sweep": "bayes.sensitivity.sweep",
+    "SweepResult": "bayes.sensitivity.sweep",
+    "compare_priors": "bayes.compare",
+    "Comparison": "bayes.compare",
+    "build_report": "bayes.report.build",
+}
+
+__all__ = sorted(_HOMES)
 
 
 def __getattr__(name: str):
-    # Lazy (PEP 562): `bayes --help` imports this package and must not pay for numpy,
-    # scipy and pandas.
-    if name in ("fit", "fit_factor"):
-        from bayes import api
+    home = _HOMES.get(name)
+    if home is None:
+        raise AttributeError(f"module 'bayes' has no attribute {name!r}")
+    value = getattr(import_module(home), name)
+    globals()[name] = value  # the next lookup is a plain attribute
+    return value
 
-        return getattr(api, name)
-    if name == "FitResult":
-        from bayes.results.result import FitResult
 
-        return FitResult
-    raise AttributeError(f"module 'bayes' has no attribute {name!r}")
+def __dir__() -> list[str]:
+    return sorted({*globals(), *__all__})

@@ -19,6 +19,7 @@ from bayes.errors import InputError
 from bayes.problem import DataFactor
 from bayes.results.result import FitResult
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
+from bayes.threads import blas_threads
 
 METHODS = ("auto", "exact", "sample")
 
@@ -87,7 +88,9 @@ def fit(
         if formula_response(formula) is None:
             response = response or prior_set.response
         if not response and formula is None:
-            raise InputError("no response column given (--response, or [study] response)")
+            raise InputError(
+                "no response given (response=..., or [study] response in the prior file)"
+            )
         design = build_design(data, response, predictors, drop_missing, source, formula, reference)
     if design.terms is not None:
         design.terms.check_priors(prior_set)
@@ -112,9 +115,9 @@ def fit_factor(
 ) -> FitResult:
     """Fit from a data factor (in-memory or streamed); see :func:`fit`."""
     if not 0.0 < level < 1.0:
-        raise InputError(f"--level must lie strictly between 0 and 1 (got {level})")
+        raise InputError(f"level must lie strictly between 0 and 1, got {level!r}")
     if method not in METHODS:
-        raise InputError(f"unknown method '{method}' (choose from {', '.join(METHODS)})")
+        raise InputError(f"method must be one of {', '.join(METHODS)}, got {method!r}")
     priors = load_priors(priors)
     scaled = scaled_prior(factor, priors)
     if method == "auto":
@@ -124,22 +127,20 @@ def fit_factor(
                if f not in ("flat", "normal")]  # fmt: skip
         raise InputError(
             f"the priors on {', '.join(bad)} are not Gaussian: the exact engine cannot fit them; "
-            "use --method sample"
+            "use method='sample'"
         )
-    if method == "exact":
-        posterior, inference = exact_posterior(factor, scaled), None
-    else:
-        from bayes.engine.sampled import sampled_posterior
+    with blas_threads(factor.p + 1):
+        if method == "exact":
+            posterior, inference = exact_posterior(factor, scaled), None
+        else:
+            from bayes.engine.sampled import sampled_posterior
 
-        posterior, _, _, inference = sampled_posterior(factor, scaled, sampler, progress=progress)
-    return FitResult(
-        response,
-        factor,
-        priors,
-        posterior,
-        level,
-        data=data,
-        provenance=provenance or {},
-        inference=inference,
-        terms=getattr(data, "terms", None),
-    )
+            posterior, _, _, inference = sampled_posterior(
+                factor, scaled, sampler, progress=progress
+            )
+        result = FitResult(
+            response, factor, priors, posterior, level, data=data, provenance=provenance or {},
+            inference=inference, terms=getattr(data, "terms", None),
+        )  # fmt: skip
+        result.to_dict()  # derive the tables here, on the threads this problem wants
+    return result

@@ -28,8 +28,23 @@ class _Group(click.Group):
         try:
             return super().invoke(ctx)
         except InputError as e:
-            click.echo(f"error: {e}", err=True)
+            click.echo(f"error: {self._flagged(ctx, str(e))}", err=True)
             sys.exit(2)
+
+    def _flagged(self, ctx, message: str) -> str:
+        """A library error names a parameter ("level must ..."): say the option it came from."""
+        import re
+
+        command = self.commands.get(ctx.invoked_subcommand or "")
+        opts = {p.name: p.opts[0] for p in (command.params if command else ()) if p.opts}
+        # advice such as "use method='sample'" reads "use --method sample" here
+        message = re.sub(
+            r"\b(\w+)='([^']*)'",
+            lambda m: f"{opts[m[1]]} {m[2]}" if m[1] in opts else m[0],
+            message,
+        )
+        first = message.split(" ", 1)[0]
+        return f"{opts[first]}: {message}" if first in opts else message
 
 
 @click.group(cls=_Group)
