@@ -10,7 +10,7 @@ from conftest import DEMO, GAUSSIAN_PRIORS
 from threadpoolctl import threadpool_limits
 
 from bayes.cli.app import main
-from bayes.sensitivity.sweep import plot_sweep
+from bayes.report.sweep_chart import plot_sweep
 
 DATA, PRIORS = DEMO / "trial_mix.csv", GAUSSIAN_PRIORS
 
