@@ -255,6 +255,59 @@ def test_threshold_parsing():
             Threshold.parse(bad)
     with pytest.raises(InputError):
         default_factors(30, 2.0, 8.0)
+    with pytest.raises(InputError, match=r"^count must be at least 2, got 1$"):
+        default_factors(1)
+
+
+@pytest.mark.parametrize(
+    "options, message",
+    [
+        ({"level": 1.5}, "level must lie strictly between 0 and 1, got 1.5"),
+        ({"conclusion_level": 0.0}, "conclusion_level must lie strictly between 0 and 1, got 0.0"),
+        (
+            {"columns": ["slump"]},
+            "columns 'slump': no such coefficient (coefficients: "
+            "intercept, water_cement, fly_ash, curing_temp, superplasticizer)",
+        ),
+        (
+            {"columns": ["superplasticizer"]},
+            "columns 'superplasticizer': its prior is flat; nothing to widen",
+        ),
+        (
+            {"expert": "nobody"},
+            "expert 'nobody': no statement by this expert (experts: "
+            "materials engineer A, quality engineer B)",
+        ),
+        (
+            {"thresholds": ["slump<3"]},
+            "thresholds 'slump < 3': no coefficient named 'slump' "
+            "(coefficients: intercept, water_cement, fly_ash, curing_temp, superplasticizer)",
+        ),
+        (
+            {"thresholds": ["x=3"]},
+            "threshold must read NAME<VALUE or NAME>VALUE (e.g. water_cement<-40), got 'x=3'",
+        ),
+        ({"factors": [0.5, -1.0, np.inf]}, "factors must be positive and finite, got -1.0, inf"),
+        ({"factors": []}, "factors must hold at least one width factor, got none"),
+    ],
+)
+def test_library_errors_name_parameters_and_values(demo_factor, demo_priors, options, message):
+    with pytest.raises(InputError) as caught:
+        sweep(demo_factor, demo_priors, family_swap=False, **options)
+    assert str(caught.value) == message
+
+
+def test_result_arrays_are_read_only_and_results_compare_by_identity(demo_factor, demo_priors):
+    result = sweep(demo_factor, demo_priors, thresholds=["water_cement<-40"], factors=[0.5, 2.0],
+                   family_swap=False)  # fmt: skip
+    c, k = result.coefficients[1], result.conclusions[0]
+    for array in (result.factors, c.mean, c.sd, c.lower, c.upper, c.p_positive, k.probability):
+        assert not array.flags.writeable
+        with pytest.raises(ValueError):
+            array[0] = 0.0
+    again = dataclasses.replace(result)
+    assert result == result and again != result  # identity: no elementwise array comparison
+    assert c == c and c != dataclasses.replace(c) and k != dataclasses.replace(k)
 
 
 # ----------------------------------------------------------------------------- checks

@@ -10,7 +10,7 @@ from conftest import DEMO, GAUSSIAN_PRIORS
 from threadpoolctl import threadpool_limits
 
 from bayes.cli.app import main
-from bayes.sensitivity.sweep import plot_sweep
+from bayes.report.sweep_chart import plot_sweep
 
 DATA, PRIORS = DEMO / "trial_mix.csv", GAUSSIAN_PRIORS
 
@@ -91,14 +91,20 @@ def test_one_coefficient_and_one_expert(tmp_path):
 @pytest.mark.parametrize(
     "args, words",
     [
-        (["--threshold", "water_cement<<3"], "--threshold"),
+        (
+            ["--threshold", "water_cement<<3"],
+            "threshold 'water_cement<<3': the value '<3' is not a number",
+        ),
         (["--threshold", "water_cement=3"], "NAME<VALUE"),
         (["--threshold", "slump<3"], "no coefficient named 'slump'"),
         (["--coefficient", "slump"], "no such coefficient"),
         (["--coefficient", "superplasticizer"], "its prior is flat"),
         (["--expert", "nobody"], "no statement by this expert"),
-        (["--conclusion-level", "1.5"], "--conclusion-level"),
-        (["--min-factor", "2"], "0 < min < 1 < max"),
+        (
+            ["--conclusion-level", "1.5"],
+            "conclusion_level must lie strictly between 0 and 1, got 1.5",
+        ),
+        (["--min-factor", "2"], "low and high must satisfy 0 < low < 1 < high, got 2 and 8"),
     ],
 )
 def test_bad_input_is_one_line_and_exit_2(args, words):

@@ -673,7 +673,7 @@ def _sweep_png(ctx: _Context) -> bytes | None:
     if ctx.sweep is None:
         return None
     from bayes.report.figures import png_bytes
-    from bayes.sensitivity.sweep import plot_sweep
+    from bayes.report.sweep_chart import plot_sweep
 
     return png_bytes(plot_sweep(ctx.sweep))
 

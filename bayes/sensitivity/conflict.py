@@ -44,6 +44,7 @@ import numpy as np
 from scipy import special, stats
 
 from bayes.engine.widths import CoefficientMixtures, WidthPath
+from bayes.sensitivity import wording
 
 CONFLICT_TAIL = 0.05  # tail probability below which a conflict is flagged (common practice)
 POWER_ALPHAS = (0.99, 1.01)  # Kallioinen et al. (2024): the finite-difference powers
@@ -55,10 +56,6 @@ SENSITIVITY_CUTOFF = 0.05  # Kallioinen et al. (2024): the published cut-off
 REFERENCE_DRAWS = 4000
 _GRID = 513  # Simpson points over each reference range (relative error ~1e-8)
 _NOISE_NODES = 96  # Gauss-Legendre nodes over the noise distribution given the residuals
-
-
-def _fmt(x: float) -> str:
-    return f"{x:.2g}" if x >= 0.01 else f"{x:.1e}"
 
 
 # --------------------------------------------------------------------- prior-data conflict
@@ -102,16 +99,10 @@ def prior_data_conflict(path: WidthPath, priors) -> dict:
     """
     nodes = _noise_nodes(path)
     q = path.rank
-    out = {"method": "prior predictive tail probability of the data's sufficient statistic "
-           "(Box 1980; Evans and Moshonov 2006)", "threshold": CONFLICT_TAIL}  # fmt: skip
+    out = {"method": wording.CONFLICT_METHOD, "threshold": CONFLICT_TAIL}
     if nodes is None or q == 0:
-        reason = (
-            "the data say nothing about the priors"
-            if q == 0
-            else ("the residuals cannot estimate the noise and its prior is improper")
-        )
         out["joint"] = {"tail_probability": None, "flag": False, "dimensions": q,
-                        "sentence": f"No conflict check: {reason}."}  # fmt: skip
+                        "sentence": wording.no_conflict_check(q)}  # fmt: skip
         out["coefficients"] = []
         return out
     sigma, weights = nodes
@@ -122,14 +113,8 @@ def prior_data_conflict(path: WidthPath, priors) -> dict:
         )
     )
     flag = tail < CONFLICT_TAIL
-    sentence = (
-        f"Prior-data conflict: the data fall in the far tail of what the priors predict "
-        f"(tail probability {_fmt(tail)} over {q} direction{'s' * (q > 1)})."
-        if flag
-        else f"No prior-data conflict: the data fall where the priors predict "
-        f"(tail probability {_fmt(tail)} over {q} direction{'s' * (q > 1)})."
-    )
-    out["joint"] = {"tail_probability": tail, "flag": flag, "dimensions": q, "sentence": sentence}
+    out["joint"] = {"tail_probability": tail, "flag": flag, "dimensions": q,
+                    "sentence": wording.joint_conflict(tail, q, flag)}  # fmt: skip
     means, var = path.conditional(sigma, 1.0)
     rows = []
     for j, name in enumerate(path.names):
@@ -140,7 +125,7 @@ def prior_data_conflict(path: WidthPath, priors) -> dict:
         prec = 1.0 / var[:, j] - 1.0 / tau2
         row = {"name": name, "tail_probability": None, "flag": False}
         if np.any(prec <= 1e-9 / var[:, j]):
-            row["sentence"] = f"{name}: the data and the other priors say nothing about it alone."
+            row["sentence"] = wording.coefficient_conflict(name, None, False)
             rows.append(row)
             continue
         m_minus = (means[:, j] / var[:, j] - cp.center / tau2) / prec
@@ -149,12 +134,7 @@ def prior_data_conflict(path: WidthPath, priors) -> dict:
         row["tail_probability"] = t
         row["flag"] = t < CONFLICT_TAIL
         row["data_estimate"] = float(weights @ m_minus)
-        row["sentence"] = (
-            f"{name}: the data sit in the far tail of its prior (tail probability {_fmt(t)}): "
-            "the expert and the data disagree."
-            if row["flag"]
-            else f"{name}: the data agree with its prior (tail probability {_fmt(t)})."
-        )
+        row["sentence"] = wording.coefficient_conflict(name, t, row["flag"])
         rows.append(row)
     out["coefficients"] = rows
     return out
@@ -218,23 +198,17 @@ def _rows(names, prior: np.ndarray, likelihood: np.ndarray, method: str) -> dict
     for name, p, lik in zip(names, prior, likelihood, strict=True):
         p, lik = float(p), float(lik)
         if p >= c and lik >= c:
-            diagnosis = "prior-data conflict"
-            sentence = (f"{name}: sensitive to both the prior ({p:.3f}) and the likelihood "
-                        f"({lik:.3f}): both shape it; possible prior-data conflict (see the "
-                        "conflict check).")  # fmt: skip
+            diagnosis = wording.DIAGNOSIS_CONFLICT
         elif p >= c:
-            diagnosis = "weak likelihood"
-            sentence = (f"{name}: sensitive to the prior ({p:.3f}) but not the likelihood "
-                        f"({lik:.3f}): the data say little and the prior decides.")  # fmt: skip
+            diagnosis = wording.DIAGNOSIS_WEAK_LIKELIHOOD
         else:
             diagnosis = None
-            sentence = f"{name}: not sensitive to the prior ({p:.3f}); likelihood {lik:.3f}."
         rows.append({"name": name, "prior": p, "likelihood": lik, "diagnosis": diagnosis,
-                     "flag": diagnosis is not None, "sentence": sentence})  # fmt: skip
+                     "flag": diagnosis is not None,
+                     "sentence": wording.power_scaling(name, p, lik, diagnosis)})  # fmt: skip
     return {
         "method": method,
-        "measure": "cumulative Jensen-Shannon distance, gradient in log2(alpha) "
-        "(Kallioinen et al. 2024)",
+        "measure": wording.POWER_MEASURE,
         "alphas": list(POWER_ALPHAS),
         "threshold": c,
         "coefficients": rows,
@@ -267,7 +241,7 @@ def power_scaling_exact(path: WidthPath) -> dict:
             Q, Q_sf = mix.tails(x)
             total += _unsigned(P, Q, P_sf, Q_sf, dx) / abs(math.log2(a))
         out[component] = total / len(POWER_ALPHAS)
-    return _rows(path.names, out["prior"], out["likelihood"], "exact power-scaled posteriors")
+    return _rows(path.names, out["prior"], out["likelihood"], wording.POWER_METHOD_EXACT)
 
 
 def power_scaling_draws(
@@ -306,4 +280,4 @@ def power_scaling_draws(
             Q = np.cumsum(w[order], axis=0)[:-1].T
             total += _unsigned(P, Q, 1.0 - P, 1.0 - Q, dx) / abs(math.log2(a))
         out[component] = total / len(POWER_ALPHAS)
-    return _rows(names, out["prior"], out["likelihood"], "importance weighting of the draws")
+    return _rows(names, out["prior"], out["likelihood"], wording.POWER_METHOD_DRAWS)

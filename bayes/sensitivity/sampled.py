@@ -25,15 +25,24 @@ from bayes.engine.exact import exact_posterior
 from bayes.engine.likelihood import residual_ss
 from bayes.engine.scaled import scaled_prior
 from bayes.engine.widths import CoefficientMixtures, WidthPath
+from bayes.errors import InputError
 from bayes.problem import DataFactor, ScaledPrior, to_natural
 from bayes.sensitivity.conflict import power_scaling_draws, prior_data_conflict
+from bayes.sensitivity.priors import flat_limit, variance_ratios
+from bayes.sensitivity.result import freeze_arrays
+from bayes.sensitivity.wording import (
+    CONFLICT_NORMAL_READING,
+    no_flat_limit,
+    sampled_detail,
+    sampled_note,
+)
 from bayes.settings import SamplerSettings
 
 MIN_ESS = 200.0  # effective draws below which an importance-weighted value is not reported
 SAMPLED = 5  # factors sampled along the grid
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class WeightedDraws:
     """Every coefficient's marginal posterior as weighted draws (natural units).
 
@@ -48,6 +57,9 @@ class WeightedDraws:
 
     draws: np.ndarray
     weights: np.ndarray
+
+    def __post_init__(self) -> None:
+        freeze_arrays(self, "draws", "weights")
 
     @classmethod
     def sample(
@@ -92,6 +104,15 @@ class WeightedDraws:
         return np.array([np.interp(q, mid[:, j], xs[:, j]) for j in range(self.k)])
 
 
+def marginals(
+    factor: DataFactor, prior: ScaledPrior, sampler: SamplerSettings
+) -> CoefficientMixtures | WeightedDraws:
+    """Every coefficient's marginal posterior: exact for flat and normal priors, else sampled."""
+    if prior.gaussian_only:
+        return CoefficientMixtures.from_posterior(exact_posterior(factor, prior))
+    return WeightedDraws.sample(factor, prior, sampler)
+
+
 def log_prior_density(prior: ScaledPrior, gamma: np.ndarray) -> np.ndarray:
     """Log density of the coefficient priors of the scaled problem at ``gamma`` (S, k).
 
@@ -113,11 +134,24 @@ def log_prior_density(prior: ScaledPrior, gamma: np.ndarray) -> np.ndarray:
 
 
 class SampledEngine:
-    """Marginals at any width factor for priors the exact engine cannot take."""
+    """Marginals at any width factor for priors the exact engine cannot take.
+
+    Parameters
+    ----------
+    factor : DataFactor
+    priors : elicit.spec.PriorSet
+    columns : list of str or None
+        Widen only these coefficients' priors (None: every informative prior).
+    expert : str or None
+        Widen only this expert's statements.
+    grid : ndarray
+        The width factors (ascending, 1 included).
+    sampler : SamplerSettings
+    """
 
     method = "sampled"
 
-    def __init__(self, factor, priors, columns, expert, grid, sampler: SamplerSettings):
+    def __init__(self, factor, priors, *, columns, expert, grid, sampler: SamplerSettings):
         from bayes.engine.modes import posterior_mode
 
         self.factor, self.priors, self.columns, self.expert = factor, priors, columns, expert
@@ -149,28 +183,20 @@ class SampledEngine:
             self.runs[float(fs)] = (gamma, out.sigma.reshape(-1), to_natural(factor, gamma),
                                     log_prior_density(self.prior_at(fs), gamma))  # fmt: skip
         self.sampler = sampler
-        self.detail = (
-            f"Gibbs sampling at factors {', '.join(f'{f:.3g}' for f in self.sampled)} "
-            f"({sampler.chains} chains of {sampler.draws} draws), importance weights in between; "
-            "posterior modes at every factor"
-        )
-        from bayes.sensitivity.sweep import flat_limit
-
-        limit = scaled_prior(factor, flat_limit(priors, columns, expert))
+        self.detail = sampled_detail(self.sampled, sampler)
+        limit = scaled_prior(factor, flat_limit(priors, columns=columns, expert=expert))
         try:
             modes[-1] = to_natural(factor, posterior_mode(factor, limit).gamma)
         except ValueError:
             pass
         self.modes = modes
         self._limit = limit
-        self.notes = [
-            f"sampled sweep: values whose importance weights leave fewer than {MIN_ESS:g} "
-            "effective draws are not reported; flip points carry Monte Carlo error."
-        ]
+        self.notes = (sampled_note(MIN_ESS),)
         self.extra = {"sampled_factors": [float(f) for f in self.sampled],
                       "sampler_ess": chain_ess}  # fmt: skip
 
     def prior_at(self, f: float) -> ScaledPrior:
+        """The scaled prior with the swept priors ``f`` times as wide (cached)."""
         f = float(f)
         if f not in self._priors_at:
             rescaled = self.priors if f == 1.0 else self.priors.rescaled(f, self.columns,
@@ -179,6 +205,7 @@ class SampledEngine:
         return self._priors_at[f]
 
     def at(self, f: float) -> WeightedDraws:
+        """The draws of the nearest sampled factor, importance-weighted to factor ``f``."""
         fs = float(self.sampled[np.argmin(np.abs(np.log(self.sampled) - math.log(f)))])
         gamma, _, nat, lp = self.runs[fs]
         if f == fs:
@@ -187,28 +214,23 @@ class SampledEngine:
         w = np.exp(lw - lw.max())
         return WeightedDraws(nat, w / w.sum())
 
-    def flat(self):
-        from bayes.errors import InputError
-
+    def flat(self) -> tuple[CoefficientMixtures | WeightedDraws | None, str | None]:
+        """The marginals in the flat-prior limit, or None and the reason there is none."""
         try:
-            if self._limit.gaussian_only:
-                post = exact_posterior(self.factor, self._limit)
-                return CoefficientMixtures.from_posterior(post), None
-            return WeightedDraws.sample(self.factor, self._limit, self.sampler), None
+            return marginals(self.factor, self._limit, self.sampler), None
         except InputError as e:
-            return None, f"no flat-prior limit: {e}"
+            return None, no_flat_limit(e)
 
-    def dominance(self, names, priors):
-        from bayes.sensitivity.sweep import _variance_ratios
-
-        return _variance_ratios(names, priors, self.at(1.0).sd), [None] * len(names)
+    def dominance(self, names, priors) -> tuple[list, list]:
+        """Variance ratio at the stated priors per coefficient (no prior share: None)."""
+        return variance_ratios(names, priors, self.at(1.0).sd), [None] * len(names)
 
     def checks(self, priors) -> tuple[dict, dict]:
         """Conflict checks on the normal reading of the priors; power-scaling from the draws."""
         normal = priors.as_family("normal")
         path = WidthPath.build(self.factor, scaled_prior(self.factor, normal))
         conflict = prior_data_conflict(path, normal)
-        conflict["method"] += "; computed for the normal reading of the same stated ranges"
+        conflict["method"] += CONFLICT_NORMAL_READING
         gamma, sigma, nat, lp = self.runs[1.0]
         n = self.factor.n
         log_lik = -n * np.log(sigma) - residual_ss(self.factor, gamma) / (2 * sigma**2)

@@ -1,0 +1,326 @@
+"""What the width sweep found: conclusions, coefficients along the grid, the whole result.
+
+The objects hold numbers (read-only arrays, compared by identity); their sentences come
+from :mod:`bayes.sensitivity.wording`. :meth:`SweepResult.to_dict` is the JSON of
+``bayes sweep`` (``sweep.json``) and :meth:`SweepResult.from_dict` reads it back.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from bayes.sensitivity import wording
+
+
+def freeze_arrays(obj, *names: str) -> None:
+    """Replace the named array attributes of a frozen dataclass by read-only views.
+
+    For ``__post_init__``; attributes that are None are left alone. The caller's arrays
+    stay writable (the flag is set on a view).
+    """
+    for name in names:
+        value = getattr(obj, name)
+        if value is not None:
+            view = np.asarray(value).view()
+            view.flags.writeable = False
+            object.__setattr__(obj, name, view)
+
+
+@dataclass(frozen=True, eq=False)
+class Conclusion:
+    """One conclusion followed along the width factor.
+
+    Attributes
+    ----------
+    name : str
+        Coefficient.
+    kind : {"sign", "threshold"}
+    op, value : str, float
+        The conclusion is ``beta op value``.
+    response : str
+        The response's name, for the statement of a sign.
+    probability : ndarray, shape (F + 1,)
+        Posterior probability of the conclusion at each factor and in the flat-prior
+        limit (last; nan when the flat limit is not available).
+    stated : float
+        The probability at the stated priors.
+    narrower, wider : float or None
+        Factor below / above 1 where the probability first crosses the level
+        (nearest to 1); None when it does not cross on the grid.
+    level : float
+        The probability the conclusion needs to hold (the sweep's ``conclusion_level``).
+    span : (float, float)
+        The grid's smallest and largest factor.
+    """
+
+    name: str
+    kind: str
+    op: str
+    value: float
+    response: str
+    probability: np.ndarray
+    stated: float
+    narrower: float | None
+    wider: float | None
+    level: float
+    span: tuple[float, float]
+
+    def __post_init__(self) -> None:
+        freeze_arrays(self, "probability")
+
+    def holds(self, level: float | None = None) -> bool:
+        """Whether the conclusion holds at the stated priors (at ``level``, default its own)."""
+        return self.stated >= (self.level if level is None else level)
+
+    @property
+    def statement(self) -> str:
+        """In words ("fly_ash lowers strength")."""
+        return wording.statement(self.kind, self.name, self.op, self.value, self.response)
+
+    @property
+    def sentence(self) -> str:
+        """What the sweep concludes about it, with the flip factors."""
+        return wording.conclusion_sentence(self)
+
+    @property
+    def status(self) -> str:
+        return wording.status(self)
+
+    def to_dict(self) -> dict:
+        flat = self.probability[-1]
+        return {
+            "name": self.name,
+            "kind": self.kind,
+            "op": self.op,
+            "value": self.value,
+            "statement": self.statement,
+            "probability": _json_array(self.probability),
+            "at_stated": self.stated,
+            "holds_at_stated": self.holds(),
+            "narrower_flip": self.narrower,
+            "wider_flip": self.wider,
+            "flat_probability": None if np.isnan(flat) else float(flat),
+            "holds_flat": None if np.isnan(flat) else bool(flat >= self.level),
+            "status": self.status,
+            "sentence": self.sentence,
+        }
+
+
+@dataclass(frozen=True, eq=False)
+class CoefficientSweep:
+    """One coefficient along the sweep (arrays aligned with the factors, flat limit last).
+
+    Attributes
+    ----------
+    name, prior : str
+        Name and the stated prior in words.
+    swept : bool
+        Whether the sweep widens this coefficient's prior.
+    mean, sd, lower, upper, p_positive : ndarray, shape (F + 1,)
+        Natural units; nan where not available.
+    mode : ndarray, shape (F + 1,) or None
+        Posterior modes (sampled sweeps).
+    variance_ratio : float or None
+        Posterior variance over prior variance at the stated priors.
+    prior_share : float or None
+        The prior's share of the posterior precision at the stated priors.
+    prior_interval : (float, float) or None
+        Central interval of the stated prior at the sweep's credible level.
+    """
+
+    name: str
+    prior: str
+    swept: bool
+    mean: np.ndarray
+    sd: np.ndarray
+    lower: np.ndarray
+    upper: np.ndarray
+    p_positive: np.ndarray
+    mode: np.ndarray | None
+    variance_ratio: float | None
+    prior_share: float | None
+    prior_interval: tuple[float, float] | None = None
+
+    def __post_init__(self) -> None:
+        freeze_arrays(self, "mean", "sd", "lower", "upper", "p_positive", "mode")
+
+
+@dataclass(frozen=True, eq=False)
+class SweepResult:
+    """Everything the sweep found; :meth:`to_dict` is the JSON of ``bayes sweep``.
+
+    Attributes
+    ----------
+    response : str
+    units : dict
+        ``response`` units and predictor units, for labels.
+    factors : ndarray, shape (F,)
+        The finite width factors (ascending, 1 included); the flat-prior limit follows.
+    level : float
+        Credible level of the intervals.
+    conclusion_level : float
+        Probability a conclusion needs to hold.
+    method, detail : str
+        "exact" or "sampled", and how.
+    selection : str
+        Which priors were widened, in words.
+    coefficients : tuple of CoefficientSweep
+    conclusions : tuple of Conclusion
+        In the order the sweep drew them: the slopes' signs, then the thresholds.
+    conflict, power_scaling : dict
+    family_swap : dict or None
+    notes : tuple of str
+    extra : dict
+        Engine details (sampled factors, effective sample sizes).
+    """
+
+    response: str
+    units: dict
+    factors: np.ndarray
+    level: float
+    conclusion_level: float
+    method: str
+    detail: str
+    selection: str
+    coefficients: tuple[CoefficientSweep, ...]
+    conclusions: tuple[Conclusion, ...]
+    conflict: dict
+    power_scaling: dict
+    family_swap: dict | None
+    notes: tuple[str, ...]
+    extra: dict
+
+    def __post_init__(self) -> None:
+        freeze_arrays(self, "factors")
+
+    @property
+    def headline(self) -> tuple[str, ...]:
+        """Every conclusion's sentence, in order."""
+        return tuple(c.sentence for c in self.conclusions)
+
+    @classmethod
+    def from_dict(cls, doc: dict) -> SweepResult:
+        """The result back from its JSON object (``sweep.json``), as :meth:`to_dict` wrote it.
+
+        Missing numbers (JSON null) come back as nan; conclusions in the order of the
+        headline (the order the sweep drew them).
+        """
+
+        def arr(values) -> np.ndarray:
+            return np.array([np.nan if v is None else v for v in values], dtype=float)
+
+        factors = np.array([f for f in doc["factors"] if f is not None], dtype=float)
+        span = (float(factors[0]), float(factors[-1]))
+        coefficients, conclusions = [], []
+        for row in doc["coefficients"]:
+            interval = row.get("prior_interval")
+            coefficients.append(CoefficientSweep(
+                row["name"], row["prior"], bool(row["swept"]), arr(row["mean"]), arr(row["sd"]),
+                arr(row["lower"]), arr(row["upper"]), arr(row["p_positive"]),
+                arr(row["mode"]) if row.get("mode") is not None else None,
+                row.get("variance_ratio"), row.get("prior_share"),
+                None if interval is None else (float(interval[0]), float(interval[1])),
+            ))  # fmt: skip
+            for k in row.get("conclusions", ()):
+                conclusions.append((k["sentence"], Conclusion(
+                    k["name"], k["kind"], k["op"], float(k["value"]), doc["response"],
+                    arr(k["probability"]), float(k["at_stated"]), k["narrower_flip"],
+                    k["wider_flip"], doc["conclusion_level"], span,
+                )))  # fmt: skip
+        order = {s: i for i, s in reversed(list(enumerate(doc["headline"])))}
+        conclusions.sort(key=lambda pair: order.get(pair[0], len(order)))
+        return cls(
+            doc["response"], dict(doc.get("units") or {}), factors, doc["level"],
+            doc["conclusion_level"], doc["method"], doc["detail"], doc["selection"],
+            tuple(coefficients), tuple(c for _, c in conclusions), doc["conflict"],
+            doc["power_scaling"], doc.get("family_swap"), tuple(doc.get("notes", ())),
+            {k: v for k, v in doc.items() if k not in _FIELDS},
+        )  # fmt: skip
+
+    def to_dict(self) -> dict:
+        """The JSON object (``factors`` with the flat-prior limit as None)."""
+        coefs = []
+        for c in self.coefficients:
+            mine = [k for k in self.conclusions if k.name == c.name]
+            row = {
+                "name": c.name,
+                "prior": c.prior,
+                "swept": c.swept,
+                "mean": _json_array(c.mean),
+                "sd": _json_array(c.sd),
+                "lower": _json_array(c.lower),
+                "upper": _json_array(c.upper),
+                "p_positive": _json_array(c.p_positive),
+                "variance_ratio": c.variance_ratio,
+                "prior_share": c.prior_share,
+                "prior_interval": None if c.prior_interval is None else list(c.prior_interval),
+                "conclusions": [k.to_dict() for k in mine],
+                "flip_factors": sorted(
+                    f for k in mine for f in (k.narrower, k.wider) if f is not None
+                ),
+            }
+            if c.mode is not None:
+                row["mode"] = _json_array(c.mode)
+            coefs.append(row)
+        return _jsonable({
+            "response": self.response,
+            "units": self.units,
+            "level": self.level,
+            "conclusion_level": self.conclusion_level,
+            "method": self.method,
+            "detail": self.detail,
+            "selection": self.selection,
+            "factors": [*(float(f) for f in self.factors), None],
+            "coefficients": coefs,
+            "headline": list(self.headline),
+            "conflict": self.conflict,
+            "power_scaling": self.power_scaling,
+            "family_swap": self.family_swap,
+            "notes": list(self.notes),
+            **self.extra,
+        })  # fmt: skip
+
+    def text(self) -> str:
+        """The terminal summary: headline, the sweep at a few factors, checks."""
+        return wording.sweep_text(self)
+
+
+_FIELDS = (
+    "response",
+    "units",
+    "level",
+    "conclusion_level",
+    "method",
+    "detail",
+    "selection",
+    "factors",
+    "coefficients",
+    "headline",
+    "conflict",
+    "power_scaling",
+    "family_swap",
+    "notes",
+)  # the keys of SweepResult.to_dict other than the engine's extras
+
+
+def _json_array(a: np.ndarray) -> list:
+    return [None if not np.isfinite(x) else float(x) for x in np.asarray(a, dtype=float)]
+
+
+def _jsonable(obj):
+    if isinstance(obj, dict):
+        return {k: _jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_jsonable(v) for v in obj]
+    if isinstance(obj, (float, np.floating)):
+        return float(obj) if math.isfinite(obj) else None
+    if isinstance(obj, np.integer):
+        return int(obj)
+    if isinstance(obj, np.bool_):
+        return bool(obj)
+    if isinstance(obj, np.ndarray):
+        return _jsonable(obj.tolist())
+    return obj

@@ -1,0 +1,274 @@
+"""Every sentence of the width sweep, from the numbers the other modules compute.
+
+The result objects (:mod:`bayes.sensitivity.result`) hold numbers; their words come from
+here: the conclusion sentences and the headline, the engines' descriptions and notes,
+the conflict and power-scaling sentences, the family swap's methods and the terminal
+summary (:func:`sweep_text`). Nothing here computes a number the sweep reports.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from bayes.results.format import fmt, format_table
+from bayes.results.summary import prior_text
+
+DEFAULT_RESPONSE = "the response"  # the response's name in the sentences when none is known
+CORRELATED = "correlated"  # the prior of a coefficient in a correlated block
+
+# Power-scaling diagnoses (the ``diagnosis`` field of each coefficient's row).
+DIAGNOSIS_CONFLICT = "prior-data conflict"
+DIAGNOSIS_WEAK_LIKELIHOOD = "weak likelihood"
+
+CONFLICT_METHOD = (
+    "prior predictive tail probability of the data's sufficient statistic "
+    "(Box 1980; Evans and Moshonov 2006)"
+)
+CONFLICT_NORMAL_READING = "; computed for the normal reading of the same stated ranges"
+POWER_MEASURE = (
+    "cumulative Jensen-Shannon distance, gradient in log2(alpha) (Kallioinen et al. 2024)"
+)
+POWER_METHOD_EXACT = "exact power-scaled posteriors"
+POWER_METHOD_DRAWS = "importance weighting of the draws"
+
+
+# --------------------------------------------------------------------------- numbers in words
+
+
+def times(x: float) -> str:
+    """A width ratio: whole numbers from 10 up, two significant digits below."""
+    return f"{x:.0f}" if x >= 10 else f"{x:.2g}"
+
+
+def tail_text(x: float) -> str:
+    """A tail probability: two significant digits, scientific notation below 0.01."""
+    return f"{x:.2g}" if x >= 0.01 else f"{x:.1e}"
+
+
+# --------------------------------------------------------------------------- inputs
+
+
+def threshold_text(name: str, op: str, value: float) -> str:
+    """A threshold conclusion: ``"water_cement < -40"``."""
+    return f"{name} {op} {value:g}"
+
+
+def selection_words(columns, expert: str | None) -> str:
+    """Which priors the sweep widens: every informative one, some coefficients', an expert's."""
+    words = (
+        "every informative prior"
+        if columns is None
+        else ("the prior" + ("s" if len(columns) > 1 else "") + " of " + ", ".join(columns))
+    )
+    if expert is not None:
+        words += f", statements by {expert}"
+    return words
+
+
+def prior_label(cp, correlated: bool = False) -> str:
+    """A coefficient's stated prior in words (``correlated`` for a correlated block's)."""
+    return CORRELATED if correlated else prior_text(cp)
+
+
+# --------------------------------------------------------------------------- engines
+
+
+def exact_detail(one: bool, noise_known: bool) -> str:
+    """How the exact engine computed the grid."""
+    detail = (
+        "exact; every width from one generalized eigendecomposition"
+        if one
+        else "exact; one decomposition per width"
+    )
+    if not noise_known:
+        detail += ", noise sd integrated out by quadrature"
+    return detail
+
+
+def sampled_detail(sampled, sampler) -> str:
+    """How the sampled engine computed the grid (``sampled``: the factors it sampled at)."""
+    return (
+        f"Gibbs sampling at factors {', '.join(f'{f:.3g}' for f in sampled)} "
+        f"({sampler.chains} chains of {sampler.draws} draws), importance weights in between; "
+        "posterior modes at every factor"
+    )
+
+
+def sampled_note(min_ess: float) -> str:
+    """The note every sampled sweep carries."""
+    return (
+        f"sampled sweep: values whose importance weights leave fewer than {min_ess:g} "
+        "effective draws are not reported; flip points carry Monte Carlo error."
+    )
+
+
+def no_flat_limit(error: Exception) -> str:
+    """The note when the flat-prior limit cannot be computed."""
+    return f"no flat-prior limit: {error}"
+
+
+def family_method(exact: bool, sampler) -> str:
+    """How the family swap computed one family's reading."""
+    if exact:
+        return "exact"
+    return f"Gibbs sampling ({sampler.chains} chains of {sampler.draws} draws)"
+
+
+# --------------------------------------------------------------------------- conclusions
+
+
+def statement(kind: str, name: str, op: str, value: float, response: str) -> str:
+    """A conclusion in words: ``"fly_ash lowers strength"`` or ``"water_cement < -40"``."""
+    if kind == "sign":
+        return f"{name} {'raises' if op == '>' else 'lowers'} {response}"
+    return threshold_text(name, op, value)
+
+
+def status(c) -> str:
+    """A conclusion's status at its level: holds over the grid, flips, does not hold."""
+    if not c.holds():
+        return "does not hold at the stated priors"
+    if c.narrower is None and c.wider is None:
+        return "holds over the whole grid"
+    return "flips"
+
+
+def conclusion_sentence(c) -> str:
+    """What a :class:`bayes.sensitivity.result.Conclusion` says, with its flip factors."""
+    level = c.level
+    lo, hi = c.span
+    flat = c.probability[-1]
+    head = f"The conclusion that {c.statement}"
+    if c.holds():
+        if c.narrower is None and c.wider is None:
+            s = (f"{head} holds over the whole grid (priors {times(1 / lo)} times narrower "
+                 f"to {times(hi)} times wider than stated)")  # fmt: skip
+            if np.isnan(flat):
+                return s + "."
+            if flat >= level:
+                return s + " and with flat priors."
+            return s + (f" but not with flat priors (probability {flat:.3f}): it rests on the "
+                        "experts' priors.")  # fmt: skip
+        if c.wider is None:
+            s = f"{head} holds unless the priors are made {times(1 / c.narrower)} times narrower"
+            s += " than stated"
+            if not np.isnan(flat) and flat < level:
+                s += f" (and it does not hold with flat priors: probability {flat:.3f})"
+            return s + "."
+        if c.narrower is None:
+            return (f"{head} holds unless the priors are made {times(c.wider)} times wider "
+                    "than stated.")  # fmt: skip
+        return (f"{head} holds only while the priors stay between {times(1 / c.narrower)} "
+                f"times narrower and {times(c.wider)} times wider than stated.")  # fmt: skip
+    if c.kind == "sign":
+        s = (f"The sign of {c.name} is not settled: the probability that {c.statement} is "
+             f"{c.stated:.3f} at the stated priors (below {level:g})")  # fmt: skip
+    else:
+        s = (f"{head} does not hold at the stated priors (posterior probability "
+             f"{c.stated:.3f} < {level:g})")  # fmt: skip
+    ways = []
+    if c.narrower is not None:
+        ways.append(f"with priors {times(1 / c.narrower)} times narrower")
+    if c.wider is not None:
+        ways.append(f"with priors {times(c.wider)} times wider")
+    elif not np.isnan(flat) and flat >= level:
+        ways.append("with flat priors")
+    if ways:
+        return s + "; it would hold " + " or ".join(ways) + "."
+    return (
+        s + ", and no width on the grid settles it."
+        if c.kind == "sign"
+        else (s + " and holds at no width on the grid.")
+    )
+
+
+# --------------------------------------------------------------------------- checks
+
+
+def no_conflict_check(dimensions: int) -> str:
+    """Why the joint conflict check could not be made."""
+    reason = (
+        "the data say nothing about the priors"
+        if dimensions == 0
+        else ("the residuals cannot estimate the noise and its prior is improper")
+    )
+    return f"No conflict check: {reason}."
+
+
+def joint_conflict(tail: float, dimensions: int, flag: bool) -> str:
+    """The joint prior-data conflict check in words."""
+    q = dimensions
+    where = f"(tail probability {tail_text(tail)} over {q} direction{'s' * (q > 1)})."
+    if flag:
+        return (
+            "Prior-data conflict: the data fall in the far tail of what the priors predict " + where
+        )
+    return "No prior-data conflict: the data fall where the priors predict " + where
+
+
+def coefficient_conflict(name: str, tail: float | None, flag: bool) -> str:
+    """One coefficient's conflict check (``tail`` None: the data say nothing about it alone)."""
+    if tail is None:
+        return f"{name}: the data and the other priors say nothing about it alone."
+    if flag:
+        return (
+            f"{name}: the data sit in the far tail of its prior (tail probability "
+            f"{tail_text(tail)}): the expert and the data disagree."
+        )
+    return f"{name}: the data agree with its prior (tail probability {tail_text(tail)})."
+
+
+def power_scaling(name: str, prior: float, likelihood: float, diagnosis: str | None) -> str:
+    """One coefficient's power-scaling sensitivity to the prior and the likelihood."""
+    p, lik = prior, likelihood
+    if diagnosis == DIAGNOSIS_CONFLICT:
+        return (f"{name}: sensitive to both the prior ({p:.3f}) and the likelihood "
+                f"({lik:.3f}): both shape it; possible prior-data conflict (see the "
+                "conflict check).")  # fmt: skip
+    if diagnosis == DIAGNOSIS_WEAK_LIKELIHOOD:
+        return (f"{name}: sensitive to the prior ({p:.3f}) but not the likelihood "
+                f"({lik:.3f}): the data say little and the prior decides.")  # fmt: skip
+    return f"{name}: not sensitive to the prior ({p:.3f}); likelihood {lik:.3f}."
+
+
+# --------------------------------------------------------------------------- the summary
+
+
+def _cell(mean: float, lower: float, upper: float) -> str:
+    return f"{fmt(mean, 4)} [{fmt(lower, 3)}, {fmt(upper, 3)}]"
+
+
+def sweep_text(result) -> str:
+    """The terminal summary of a :class:`bayes.sensitivity.result.SweepResult`.
+
+    The headline, the sweep at the grid's ends, at 1 and in the flat limit, the checks and
+    the family swap.
+    """
+    r = result
+    pct = f"{100 * r.level:g}%"
+    lines = [f"Sensitivity of '{r.response}' to the prior widths ({r.selection}; "
+             f"{r.detail}).", "", "Conclusions:"]  # fmt: skip
+    lines += [f"  {h}" for h in r.headline] or ["  (none)"]
+    picks = sorted({0, int(np.argmin(np.abs(np.log(r.factors)))), len(r.factors) - 1})
+    headers = ["coefficient", *(f"x{r.factors[i]:.3g}" for i in picks), "flat"]
+    body = []
+    for c in r.coefficients:
+        cells = [c.name]
+        for i in [*picks, len(r.factors)]:
+            cells.append("-" if np.isnan(c.mean[i]) else _cell(c.mean[i], c.lower[i], c.upper[i]))
+        body.append(cells)
+    lines += ["", f"Posterior mean [{pct} interval] at prior width factors "
+              "(x1 = as stated):", format_table(headers, body), ""]  # fmt: skip
+    lines.append(r.conflict["joint"]["sentence"])
+    lines += [row["sentence"] for row in r.conflict["coefficients"]]
+    lines += ["", f"Power-scaling sensitivity (cut-off {r.power_scaling['threshold']:g}):"]
+    lines += [f"  {row['sentence']}" for row in r.power_scaling["coefficients"]]
+    if r.family_swap:
+        fams = r.family_swap["families"]
+        body = [[row["name"], *(_cell(row[f]["mean"], row[f]["lower"], row[f]["upper"])
+                                for f in fams)]
+                for row in r.family_swap["coefficients"]]  # fmt: skip
+        lines += ["", "Family swap (the same stated ranges read as each family):",
+                  format_table(["coefficient", *fams], body)]  # fmt: skip
+    lines += [f"Note: {n}" for n in r.notes]
+    return "\n".join(lines)
