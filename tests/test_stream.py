@@ -99,7 +99,8 @@ def priors():
 
 def in_memory(path, priors=None, drop_missing=False, predictors=None, **options):
     """The reference: the whole file read at once, as `bayes fit` without --stream does."""
-    design = build_design(read_table(path), "output", predictors, drop_missing, path.name)
+    design = build_design(read_table(path), "output", predictors, drop_missing=drop_missing,
+                          source=path.name)  # fmt: skip
     return fit(design, priors=priors, **options), design
 
 
@@ -389,3 +390,4 @@ def test_streamed_factor_feeds_the_sampler(records, priors):
     # means agree far inside the Monte Carlo error (checked at 1e-6 of a posterior sd).
     for ra, rb in zip(result.rows, reference.rows, strict=True):
         assert abs(ra["mean"] - rb["mean"]) <= 1e-6 * rb["sd"], ra["name"]
+
