@@ -12,7 +12,7 @@ import pandas as pd
 
 from bayes.data.design import Design, build_design
 from bayes.data.factor import factor_from_arrays
-from bayes.data.terms import formula_response
+from bayes.data.formula import formula_response
 from bayes.engine.exact import exact_posterior
 from bayes.engine.scaled import scaled_prior
 from bayes.errors import InputError
@@ -73,7 +73,7 @@ def fit(
     formula : str, optional
         Model formula instead of ``response``/``predictors``:
         ``"strength ~ water_cement + cement_type + fly_ash:curing_temp + I(water_cement**2)"``
-        (see :mod:`bayes.data.terms`). Text predictors are categorical either way.
+        (see :mod:`bayes.data.formula`). Text predictors are categorical either way.
     reference : mapping of column -> level, optional
         Reference level of each categorical predictor (default: the most frequent).
 
@@ -91,7 +91,8 @@ def fit(
             raise InputError(
                 "no response given (response=..., or [study] response in the prior file)"
             )
-        design = build_design(data, response, predictors, drop_missing, source, formula, reference)
+        design = build_design(data, response, predictors, drop_missing=drop_missing, source=source,
+                              formula=formula, reference=reference)  # fmt: skip
     if design.terms is not None:
         design.terms.check_priors(prior_set)
     factor = factor_from_arrays(design.X, design.y, design.names)

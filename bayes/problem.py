@@ -17,9 +17,26 @@ from dataclasses import dataclass
 import numpy as np
 
 
-@dataclass(frozen=True)
+def read_only(a) -> np.ndarray:
+    """``a`` as a read-only float array, for the frozen objects that hold arrays.
+
+    An array that is read-only already is kept as it is; any other array given is
+    copied first, so the caller's array stays writable and the holder's cannot change.
+    """
+    arr = np.asarray(a, dtype=float)
+    if not arr.flags.writeable:
+        return arr
+    if arr is a or arr.base is not None:
+        arr = arr.copy()
+    arr.flags.writeable = False
+    return arr
+
+
+@dataclass(frozen=True, eq=False)
 class DataFactor:
     """Sufficient statistics of the data for the linear model, as a triangular factor.
+
+    Compares by identity; its arrays are read-only (see :func:`read_only`).
 
     Attributes
     ----------
@@ -45,6 +62,10 @@ class DataFactor:
     x_scale: np.ndarray
     y_mean: float
     R: np.ndarray
+
+    def __post_init__(self) -> None:
+        for name in ("x_mean", "x_scale", "R"):
+            object.__setattr__(self, name, read_only(getattr(self, name)))
 
     @property
     def p(self) -> int:
@@ -86,9 +107,11 @@ class NoiseSpec:
         return self.sd is None and self.shape == 0.0 and self.scale == 0.0
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class ScaledPrior:
     """Prior on ``gamma = (alpha, theta)``, length p + 1, in the scaled problem.
+
+    Compares by identity; its arrays are read-only (see :func:`read_only`).
 
     Attributes
     ----------
@@ -115,6 +138,10 @@ class ScaledPrior:
     scale: np.ndarray
     df: np.ndarray
     noise: NoiseSpec
+
+    def __post_init__(self) -> None:
+        for name in ("mean", "root_precision", "scale", "df"):
+            object.__setattr__(self, name, read_only(getattr(self, name)))
 
     @property
     def gaussian_only(self) -> bool:

@@ -142,7 +142,7 @@ def stream_vs_read_csv(repeats: int, folder: Path) -> dict:
     def ours():
         return fit_factor(stream_factor(path, "y").factor, None, "y")
 
-    # The reference parses as every fit does (bayes.data.design.CSV_OPTIONS: skipinitialspace);
+    # The reference parses as every fit does (elicit.io.CSV_OPTIONS: skipinitialspace);
     # pandas' defaults alone are shown beside it.
     t_ours, t_ref = paired(ours, lambda: pd.read_csv(path, **CSV_OPTIONS), repeats)
     t_plain = median_time(lambda: pd.read_csv(path), repeats)
@@ -170,7 +170,7 @@ def child(mode: str, path: str, trace: bool) -> None:
     if mode == CHILD_STREAM:
         fit_factor(stream_factor(path, "y").factor, None, "y")
     elif mode == CHILD_MEMORY:
-        fit(build_design(read_table(path), "y", None, False, path))
+        fit(build_design(read_table(path), "y", source=path))
     seconds = time.perf_counter() - start
     peak = tracemalloc.get_traced_memory()[1] if trace else None
     # ru_maxrss keeps the parent's peak at fork time (Linux carries it over exec), so the

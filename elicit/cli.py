@@ -200,22 +200,24 @@ def interview(
         return answer
 
     design = None
-    if formula or reference:  # the design's columns: levels and derived terms (bayes.terms)
+    if formula or reference:  # levels and derived terms (bayes.data.questions)
+        from bayes.data.coding import reference_levels
         from bayes.data.design import build_design
-        from bayes.data.terms import formula_response, interview_terms, reference_levels
+        from bayes.data.formula import formula_response
+        from bayes.data.questions import interview_terms
         from bayes.errors import InputError
 
         if formula_response(formula) not in (None, response):
             raise BadInput(f"--formula: its response differs from --response {response!r}")
         try:
-            design = build_design(frame, response, None, False, Path(data).name, formula,
-                                  reference_levels(reference))  # fmt: skip
+            design = build_design(frame, response, source=Path(data).name, formula=formula,
+                                  reference=reference_levels(reference))  # fmt: skip
         except InputError as exc:
             raise BadInput(str(exc)) from None
         frame = design.frame()
     session = Interview(Path(out), response, ask, click.echo, frame, response_units, expert)
     if design is not None:
-        terms = interview_terms(design, session.priors.units)
+        terms = interview_terms(design, units=session.priors.units)
     else:
         terms = terms_from_data(frame, response, session.priors.units)
     try:

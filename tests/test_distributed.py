@@ -55,7 +55,7 @@ def log_files(tmp_path_factory):
 
 
 def in_memory(path, predictors=None):
-    return fit(build_design(read_table(path), "burn", predictors, False, path.name))
+    return fit(build_design(read_table(path), "burn", predictors, source=path.name))
 
 
 def assert_same_fit(a, b) -> None:

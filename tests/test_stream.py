@@ -99,7 +99,8 @@ def priors():
 
 def in_memory(path, priors=None, drop_missing=False, predictors=None, **options):
     """The reference: the whole file read at once, as `bayes fit` without --stream does."""
-    design = build_design(read_table(path), "output", predictors, drop_missing, path.name)
+    design = build_design(read_table(path), "output", predictors, drop_missing=drop_missing,
+                          source=path.name)  # fmt: skip
     return fit(design, priors=priors, **options), design
 
 
@@ -389,3 +390,34 @@ def test_streamed_factor_feeds_the_sampler(records, priors):
     # means agree far inside the Monte Carlo error (checked at 1e-6 of a posterior sd).
     for ra, rb in zip(result.rows, reference.rows, strict=True):
         assert abs(ra["mean"] - rb["mean"]) <= 1e-6 * rb["sd"], ra["name"]
+
+
+def test_data_objects_hold_read_only_arrays_and_compare_by_identity(small):
+    from bayes.data.design import Design
+    from bayes.data.moments import block_moments
+
+    csv, _ = small
+    frame = read_table(csv)
+    X = np.array(frame[["temp", "pressure"]])
+    y = np.array(frame["output"])
+    given = Design("output", ("temp", "pressure"), X, y)
+    assert X.flags.writeable and y.flags.writeable  # the caller's arrays stay writable
+    X[0, 0] = -1.0
+    assert given.X[0, 0] != -1.0  # and the design's do not change with them
+    built = build_design(frame, "output", source=csv.name)
+    moments = block_moments(frame, "output", ["temp", "pressure"], source=csv.name)
+    factors = (factor_from_arrays(X, y, ("temp", "pressure")),
+               stream_factor(csv, "output", chunk_rows=50).factor)  # fmt: skip
+    held = {
+        "Design": (given.X, given.y, built.X, built.y),
+        "DataFactor": tuple(getattr(f, a) for f in factors for a in ("x_mean", "x_scale", "R")),
+        "Moments": (moments.mean, moments.R, moments.witness),
+    }
+    for owner, arrays in held.items():
+        for a in arrays:
+            assert not a.flags.writeable, owner
+            with pytest.raises(ValueError, match="read-only"):
+                a[..., 0] = 0.0
+    twin = build_design(frame, "output", source=csv.name)
+    assert built == built and built != twin  # identity: no element-wise array comparison
+    assert moments != block_moments(frame, "output", ["temp", "pressure"], source=csv.name)

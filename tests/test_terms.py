@@ -222,14 +222,16 @@ def test_prior_entries_that_do_not_fit_the_terms_are_named(mixes, entry, words):
         ({"formula": "strength ~ cement_type", "reference": {"water_cement": "1"}},
          "'water_cement' is not a categorical predictor"),
         ({"formula": "strength ~ water_cement", "predictors": ["fly_ash"]},
-         "either --formula or --predictors"),
-        ({"formula": "density ~ water_cement", "response": "strength"}, "differs from --response"),
+         "give either formula or predictors, not both"),
+        ({"formula": "density ~ water_cement", "response": "strength"},
+         "formula: its response 'density' differs from response 'strength'"),
     ],
 )  # fmt: skip
 def test_bad_formulas_and_references_are_clear_errors(mixes, kwargs, words):
     with pytest.raises(InputError) as info:
         bayes.fit(mixes, **kwargs)
     assert words in str(info.value)
+    assert "--" not in str(info.value)  # the library names parameters, not command-line flags
 
 
 def test_single_level_and_typo_columns(mixes):
@@ -250,7 +252,7 @@ def test_terms_round_trip_and_unseen_levels(mixes):
     new = mixes.iloc[:3].copy()
     new.loc[new.index[2], "cement_type"] = "CEM-Z"
     with pytest.raises(InputError, match=r"new.csv: row 4: level 'CEM-Z' of 'cement_type'"):
-        terms.matrix(new, "new.csv")
+        terms.matrix(new, source="new.csv")
 
 
 def test_term_units():
@@ -271,11 +273,11 @@ def test_term_units():
 
 def test_describe_says_what_a_level_and_an_interaction_mean(mixes):
     design = build_design(mixes, None, formula="strength ~ fly_ash*curing_temp + cement_type")
-    assert design.terms.describe("cement_type[CEM-C]", "strength") == (
+    assert design.terms.describe("cement_type[CEM-C]", response="strength") == (
         "the difference in strength for 'cement_type' at CEM-C rather than the reference "
         "level CEM-A"
     )
-    assert design.terms.describe("fly_ash:curing_temp", "strength") == (
+    assert design.terms.describe("fly_ash:curing_temp", response="strength") == (
         "the change in the slope of strength on fly_ash per unit of curing_temp"
     )
 
@@ -369,11 +371,11 @@ def test_interview_asks_each_level_against_the_reference_and_each_derived_term(t
 
 
 def test_interview_terms_units_and_reference_rows(mixes):
-    from bayes.data.terms import interview_terms
+    from bayes.data.questions import interview_terms
 
     design = build_design(mixes, None, formula="strength ~ fly_ash:curing_temp + cement_type")
     units = {"fly_ash": "share of binder", "curing_temp": "degC"}
-    asked = {t.column: t for t in interview_terms(design, units)}
+    asked = {t.column: t for t in interview_terms(design, units=units)}
     level = asked["cement_type[CEM-B]"]
     assert (level.name, level.level, level.units) == ("cement_type", "CEM-B", None)
     assert [v for _, v in level.reference] == [0.0, 1.0]

@@ -85,7 +85,7 @@ def model_options(f):
 
 
 def term_options(f):
-    """--formula and --reference: derived terms and categorical predictors (bayes.data.terms)."""
+    """--formula and --reference: derived terms and categorical predictors (bayes.data.formula)."""
     options = [
         click.option(
             "--formula",
@@ -149,8 +149,9 @@ def split_columns(text: str | None) -> list[str] | None:
 def design_from_options(data, response, predictors, prior_set, drop_missing, formula=None,
                         reference=()):  # fmt: skip
     """Read DATA and build the design the command line asks for (used by several commands)."""
+    from bayes.data.coding import reference_levels
     from bayes.data.design import build_design
-    from bayes.data.terms import formula_response, reference_levels
+    from bayes.data.formula import formula_response
     from elicit.io import read_table
 
     if formula_response(formula) is None:
@@ -158,8 +159,8 @@ def design_from_options(data, response, predictors, prior_set, drop_missing, for
         if not response:
             raise click.UsageError("give --response (or [study] response in the prior file)")
     return build_design(
-        read_table(data), response, split_columns(predictors), drop_missing, Path(data).name,
-        formula, reference_levels(reference),
+        read_table(data), response, split_columns(predictors), drop_missing=drop_missing,
+        source=Path(data).name, formula=formula, reference=reference_levels(reference),
     )  # fmt: skip
 
 
@@ -194,13 +195,15 @@ def streamed_fit_from_options(data, response, predictors, priors, formula, refer
         if engine == "dask":
             from bayes.data.distributed import dask_factor
 
-            streamed = dask_factor(data, response, split_columns(predictors), drop_missing,
-                                   chunk_rows, scheduler, progress)  # fmt: skip
+            streamed = dask_factor(data, response, split_columns(predictors),
+                                   drop_missing=drop_missing, chunk_rows=chunk_rows,
+                                   scheduler=scheduler, progress=progress)  # fmt: skip
         else:
             from bayes.data.stream import stream_factor
 
-            streamed = stream_factor(data, response, split_columns(predictors), drop_missing,
-                                     chunk_rows, progress)  # fmt: skip
+            streamed = stream_factor(data, response, split_columns(predictors),
+                                     drop_missing=drop_missing, chunk_rows=chunk_rows,
+                                     progress=progress)  # fmt: skip
     with progress_bar(fmt, "sampling") as progress:
         return fit_factor(
             streamed.factor, prior_set, response, level=level, method=method, sampler=sampler,
@@ -282,7 +285,7 @@ def fit_command(data, response, predictors, priors, formula, reference, drop_mis
         raise InputError("--scheduler is for --engine dask")
     if chunk_rows is not None and stream is None:
         stream = True  # --chunk-rows implies --stream
-    if engine == "dask" or should_stream(data, stream):
+    if engine == "dask" or should_stream(data, stream=stream):
         result = streamed_fit_from_options(data, response, predictors, priors, formula, reference,
                                            drop_missing, level, fmt, method, sampler,
                                            chunk_rows, engine, scheduler)  # fmt: skip
@@ -373,7 +376,7 @@ def compare_command(data, priors, response, predictors, formula, reference, drop
     """Compare prior files on DATA: evidence, Bayes factors, leave-one-out prediction."""
     from bayes.api import load_priors
     from bayes.compare import compare_priors
-    from bayes.data.terms import formula_response
+    from bayes.data.formula import formula_response
     from bayes.errors import InputError
     from bayes.store import compare_path
 

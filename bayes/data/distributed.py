@@ -5,9 +5,9 @@ The same reduction as :mod:`bayes.data.stream`, spread over a dask cluster (a
 cut into byte blocks at line ends with ``dask.bytes.read_bytes`` (the partitioning
 ``dask.dataframe.read_csv`` uses); a Parquet file gives one task per row group.
 Each worker parses its block with the same reader options and reduces it to
-:class:`bayes.data.stream.Moments` (validated with :mod:`bayes.data.design`'s checks); only
+:class:`bayes.data.moments.Moments` (validated with :mod:`bayes.data.columns`' checks); only
 these (p + 1) x (p + 1) summaries travel to the client, which merges them in file
-order with :func:`bayes.data.stream.combine` (exact). ``dask.dataframe.read_csv``
+order with :func:`bayes.data.moments.combine` (exact). ``dask.dataframe.read_csv``
 itself is not used: its dtype coercion turns a bad value into an error without
 a file row.
 
@@ -32,23 +32,24 @@ from pathlib import Path
 
 import pandas as pd
 
-from bayes.data.design import select_columns
+from bayes.data.columns import select_columns
+from bayes.data.formula import first_line
+from bayes.data.moments import Moments, block_moments, combine
 from bayes.data.stream import (
-    Moments,
     Progress,
     Streamed,
-    block_moments,
-    combine,
     default_chunk_rows,
+    finish,
+    fold,
+    parquet_batches,
     table_header,
-    to_factor,
 )
 from bayes.errors import InputError
 from elicit.io import CSV_OPTIONS, is_parquet, read_errors, unreadable
 
-# LocalCluster settings without --scheduler: dask's defaults, quiet, HTTP on a free port.
+# LocalCluster settings without a scheduler address: dask's defaults, quiet, HTTP on a free port.
 LOCAL_CLUSTER = {"silence_logs": logging.ERROR, "dashboard_address": ":0"}
-CONNECT_TIMEOUT = 10.0  # seconds to wait for a --scheduler
+CONNECT_TIMEOUT = 10.0  # seconds to wait for a given scheduler
 
 
 @dataclass(frozen=True)
@@ -86,7 +87,8 @@ def _csv_block(
     try:
         frame = pd.read_csv(io.BytesIO(block if first else header + block), **CSV_OPTIONS)
         frame.index = pd.RangeIndex(rows_before, rows_before + len(frame))
-        moments = block_moments(frame, response, predictors, source, drop_missing)
+        moments = block_moments(frame, response, predictors, source=source,
+                                drop_missing=drop_missing)  # fmt: skip
     except InputError as e:
         return _Block(None, 0, lines, str(e))
     except read_errors() as e:
@@ -108,21 +110,13 @@ def _parquet_group(
     chunk_rows: int,
 ) -> _Block:
     """Reduce one Parquet row group, batch by batch (its file rows are known)."""
-    import pyarrow.parquet as pq
-
-    state, rows = None, 0
-    batches = pq.ParquetFile(path).iter_batches(
-        batch_size=chunk_rows, row_groups=[group], columns=[response, *predictors]
-    )
+    batches = parquet_batches(Path(path), [response, *predictors], chunk_rows,
+                              row_groups=[group], first_row=rows_before)  # fmt: skip
     try:
-        for batch in batches:
-            frame = batch.to_pandas()
-            frame.index = pd.RangeIndex(rows_before + rows, rows_before + rows + len(frame))
-            block = block_moments(frame, response, predictors, source, drop_missing)
-            state = block if state is None else combine(state, block)
-            rows += len(frame)
+        state, rows, _ = fold(batches, response, predictors, source=source,
+                              drop_missing=drop_missing)  # fmt: skip
     except InputError as e:
-        return _Block(None, rows, 0, str(e))
+        return _Block(None, 0, 0, str(e))
     return _Block(state, rows, 0)
 
 
@@ -132,7 +126,7 @@ def _client(scheduler: str | None):
         from distributed import Client, LocalCluster
     except ImportError:
         raise InputError(
-            "--engine dask needs the optional extra: pip install 'bayes-elicit[dask]'"
+            "the dask engine needs the optional extra: pip install 'bayes-elicit[dask]'"
         ) from None
     if scheduler is None:
         cluster = LocalCluster(**LOCAL_CLUSTER)
@@ -140,14 +134,16 @@ def _client(scheduler: str | None):
     try:
         return Client(scheduler, timeout=CONNECT_TIMEOUT), None
     except (OSError, TimeoutError, ValueError) as e:
-        first = str(e).strip().splitlines()[0] if str(e).strip() else type(e).__name__
-        raise InputError(f"cannot reach the dask scheduler at {scheduler}: {first}") from None
+        raise InputError(
+            f"cannot reach the dask scheduler at {scheduler}: {first_line(e)}"
+        ) from None
 
 
 def dask_factor(
     path: str | Path,
     response: str,
     predictors: Sequence[str] | None = None,
+    *,
     drop_missing: bool = False,
     chunk_rows: int | None = None,
     scheduler: str | None = None,
@@ -170,9 +166,7 @@ def dask_factor(
         Equal to :func:`bayes.data.stream.stream_factor`'s result up to rounding.
     """
     given, path = Path(path), Path(path).resolve()
-    source = path.name
-    if not path.exists():
-        raise InputError(f"{given}: no such file")
+    source = given.name
     header = table_header(given)
     parquet = is_parquet(path)
     if chunk_rows is None:
@@ -184,7 +178,7 @@ def dask_factor(
             header = pd.read_csv(path, nrows=chunk_rows, **CSV_OPTIONS)
         except read_errors() as e:
             raise unreadable(given, e) from None
-    _, predictors = select_columns(header, response, predictors, source)
+    _, predictors = select_columns(header, response, predictors, source=source)
     args = (response, predictors, source, drop_missing)
     where = str(given)  # parse errors name the path as given, as in-memory reads do
 
@@ -239,6 +233,4 @@ def dask_factor(
         client.close()
         if cluster is not None:
             cluster.close()
-    if state is None:
-        raise InputError(f"{given}: no data rows")
-    return Streamed(to_factor(state, response, predictors, source), response, rows, state.dropped)
+    return finish(state, rows, response, predictors, path=given)

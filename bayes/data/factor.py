@@ -56,7 +56,7 @@ def _triangular(M: np.ndarray) -> np.ndarray:
 
 
 def factor_from_arrays(
-    X: np.ndarray, y: np.ndarray, names: Sequence[str], x_scale: np.ndarray | None = None
+    X: np.ndarray, y: np.ndarray, names: Sequence[str], *, x_scale: np.ndarray | None = None
 ) -> DataFactor:
     """Centre, scale and factorise an in-memory design.
 

@@ -34,10 +34,10 @@ def predict(
     """
     names = result.factor.names
     if result.terms is not None:
-        X = result.terms.matrix(frame, source)
+        X = result.terms.matrix(frame, source=source)
         names = result.terms.variables
     else:
-        X = predictor_matrix(frame, names, source)
+        X = predictor_matrix(frame, names, source=source)
     table = design_intervals(result.posterior, X, level)
     return pd.concat([frame[list(names)].reset_index(drop=True), table], axis=1)
 

@@ -1,0 +1,186 @@
+"""Checks on the columns of a table: names, numbers, missing values, distinct columns.
+
+One home for what the in-memory design (:mod:`bayes.data.design`), the model terms
+(:mod:`bayes.data.terms`) and the streamed and distributed reads
+(:mod:`bayes.data.stream`, :mod:`bayes.data.distributed`) check, so that each of them
+reports a bad file with the same message: the file, the row (a line of the file, the
+header being line 1) and the column.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Mapping, Sequence
+
+import numpy as np
+import pandas as pd
+
+from bayes.errors import InputError
+
+
+def file_row(frame: pd.DataFrame, i: int) -> int:
+    """Line number in a CSV file (header on line 1) of positional row ``i`` of ``frame``.
+
+    ``frame``'s index labels are data-row numbers (0 for the row after the header) when
+    it holds integers; otherwise the position counts.
+    """
+    label = frame.index[int(i)]
+    return int(label) + 2 if isinstance(label, (int, np.integer)) else int(i) + 2
+
+
+def file_rows(frame: pd.DataFrame, positions: Sequence[int] | np.ndarray) -> np.ndarray:
+    """:func:`file_row` of each of ``positions``, as an int array."""
+    return np.array([file_row(frame, i) for i in positions], dtype=int)
+
+
+def numeric_values(frame: pd.DataFrame, column: str, *, source: str) -> np.ndarray:
+    """Column ``column`` of ``frame`` as floats (booleans as 0/1).
+
+    Raises
+    ------
+    InputError
+        Naming the first value that is not a number and its file row.
+    """
+    s = frame[column]
+    if pd.api.types.is_bool_dtype(s) or pd.api.types.is_numeric_dtype(s):
+        return s.to_numpy(dtype=float)
+    values = pd.to_numeric(s, errors="coerce")
+    i = int(np.flatnonzero(values.isna().to_numpy() & s.notna().to_numpy())[0])
+    raise InputError(
+        f"{source}: column '{column}' is not numeric (row {file_row(frame, i)}: {s.iloc[i]!r})"
+    )
+
+
+def stack_columns(values: Mapping[str, np.ndarray], names: Sequence[str], n: int) -> np.ndarray:
+    """The columns ``names`` of ``values`` side by side, shape (n, len(names))."""
+    return np.column_stack([values[c] for c in names]) if names else np.empty((n, 0))
+
+
+def is_text(series: pd.Series) -> bool:
+    """Whether a column holds labels rather than numbers.
+
+    A column is text when fewer than half of its non-missing values read as
+    numbers: a numeric column with a stray typo stays numeric (and the typo is
+    reported with its row), a column of cement types becomes categorical.
+    """
+    if pd.api.types.is_numeric_dtype(series) or pd.api.types.is_bool_dtype(series):
+        return False
+    present = series.dropna()
+    if present.empty:
+        return False
+    numbers = pd.to_numeric(present, errors="coerce").notna()
+    return bool(numbers.mean() < 0.5)
+
+
+def string_columns(frame: pd.DataFrame) -> pd.DataFrame:
+    """``frame`` with its column names as str (a frame read from a file may hold others)."""
+    return frame.set_axis([str(c) for c in frame.columns], axis=1)
+
+
+def needed_columns(frame: pd.DataFrame, names: Sequence[str], *, source: str) -> pd.DataFrame:
+    """The columns ``names`` of new rows (prediction) that a fit needs, in that order.
+
+    Raises
+    ------
+    InputError
+        For a column ``frame`` does not have, with the list the fit needs.
+    """
+    frame = string_columns(frame)
+    for c in names:
+        if c not in frame.columns:
+            raise InputError(f"{source}: no column named '{c}' (the fit needs {', '.join(names)})")
+    return frame[list(names)]
+
+
+def select_columns(
+    frame: pd.DataFrame, response: str, predictors: Sequence[str] | None = None, *, source: str
+) -> tuple[pd.DataFrame, list[str]]:
+    """Check the response and predictor names against ``frame``'s columns.
+
+    Returns the frame with string column names and the predictor list (default:
+    every numeric column other than the response, judged from ``frame``'s dtypes).
+    """
+    frame = string_columns(frame)
+    columns = list(frame.columns)
+    dup_names = sorted({c for c in columns if columns.count(c) > 1})
+    if dup_names:
+        raise InputError(f"{source}: column name '{dup_names[0]}' appears more than once")
+    if response not in columns:
+        raise InputError(f"{source}: no column named '{response}' (columns: {', '.join(columns)})")
+    if predictors is None:
+        predictors = [
+            c for c in columns if c != response and pd.api.types.is_numeric_dtype(frame[c])
+        ]
+        if not predictors:
+            raise InputError(f"{source}: no numeric predictor columns besides '{response}'")
+    predictors = [str(c) for c in predictors]
+    for c in predictors:
+        if c not in columns:
+            raise InputError(f"{source}: no column named '{c}' (columns: {', '.join(columns)})")
+        if c == response:
+            raise InputError(f"{source}: '{c}' is the response and cannot also be a predictor")
+    if len(set(predictors)) != len(predictors):
+        twice = next(c for c in predictors if predictors.count(c) > 1)
+        raise InputError(f"{source}: predictor '{twice}' is listed twice")
+    return frame, predictors
+
+
+def checked_values(
+    sub: pd.DataFrame, *, source: str, drop_missing: bool = False, text: Sequence[str] = ()
+) -> tuple[dict[str, np.ndarray], int]:
+    """Missing-value, numeric and finiteness checks on the used columns of a block of rows.
+
+    Works on a whole table or on one chunk of a streamed file: row numbers in the
+    errors come from ``sub``'s index labels (row label i is file line i + 2).
+    Columns named in ``text`` (categorical labels) are returned as arrays of str.
+
+    Returns
+    -------
+    values : dict of column name -> ndarray, shape (n_kept,)
+    dropped : int
+        Rows dropped for missing values (``drop_missing=True``).
+    """
+    used = list(sub.columns)
+    missing = sub.isna().to_numpy()
+    dropped = 0
+    if missing.any():
+        rows, cols = np.nonzero(missing)
+        if not drop_missing:
+            raise InputError(
+                f"{source}: {missing.sum()} missing value(s) in {len(set(rows))} row(s), first at "
+                f"row {file_row(sub, rows[0])} column '{used[cols[0]]}' "
+                "(fix the file or set drop_missing=True)"
+            )
+        keep = ~missing.any(axis=1)
+        dropped = int((~keep).sum())
+        sub = sub.loc[keep]
+    labels = {c: np.array([str(v) for v in sub[c]], dtype=object) for c in text}
+    values = {c: numeric_values(sub, c, source=source) for c in used if c not in labels}
+    for c, v in values.items():
+        if not np.all(np.isfinite(v)):
+            i = int(np.flatnonzero(~np.isfinite(v))[0])
+            raise InputError(
+                f"{source}: column '{c}' has a non-finite value at row {file_row(sub, i)}"
+            )
+    return {c: labels[c] if c in labels else values[c] for c in used}, dropped
+
+
+def check_distinct(
+    X: np.ndarray, y: np.ndarray, predictors: Sequence[str], response: str, *, source: str
+) -> None:
+    """No constant predictor, no two identical predictors, no constant response.
+
+    Parameters
+    ----------
+    X : ndarray, shape (m, p)
+    y : ndarray, shape (m,)
+        All rows, or any subset of rows that keeps the first row and witnesses
+        every variation and every difference between columns (bayes.data.stream).
+    """
+    for j, c in enumerate(predictors):
+        if np.ptp(X[:, j]) == 0:
+            raise InputError(f"{source}: column '{c}' is constant ({X[0, j]:g}): it has no effect")
+        for k in range(j):
+            if np.array_equal(X[:, j], X[:, k]):
+                raise InputError(f"{source}: columns '{predictors[k]}' and '{c}' are identical")
+    if np.ptp(y) == 0:
+        raise InputError(f"{source}: response '{response}' is constant")
