@@ -1,80 +1,90 @@
-"""One-dimensional posterior distributions of a linear combination of coefficients.
+"""One-dimensional distributions of a linear combination of coefficients, behind one interface.
 
 Every engine's posterior reduces, for a contrast ``a' beta`` (a coefficient, a
-prediction), to one of four exact forms: a normal, a Student-t, a finite
-mixture of normals (the noise integrated out by quadrature) or a set of draws.
+prediction), to one of three exact forms: a finite mixture of normals (one
+component when the noise sd is known, the quadrature nodes when it is
+integrated out), a Student-t (the conjugate case) or a set of draws. Each form
+gives ``mean``, ``sd``, ``cdf``, ``sf``, ``ppf``, ``interval`` and ``pdf``.
 """
 
 from __future__ import annotations
 
+from abc import ABC, abstractmethod
 from dataclasses import dataclass
 
 import numpy as np
 from scipy import optimize, stats
 
+from bayes.engine.arrays import ReadOnlyArrays
 
-@dataclass(frozen=True)
-class Marginal:
-    """A univariate distribution with mean, sd, cdf and quantiles.
+
+class Distribution(ReadOnlyArrays, ABC):
+    """A univariate distribution: mean, sd, cdf, sf, quantiles, intervals, density."""
+
+    @property
+    @abstractmethod
+    def mean(self) -> float:
+        """The mean."""
+
+    @property
+    @abstractmethod
+    def sd(self) -> float:
+        """The standard deviation (inf when it does not exist)."""
+
+    @abstractmethod
+    def cdf(self, x: float) -> float:
+        """P(X <= x)."""
+
+    @abstractmethod
+    def sf(self, x: float) -> float:
+        """P(X > x), computed without cancellation in the upper tail."""
+
+    @abstractmethod
+    def ppf(self, q: float) -> float:
+        """The q-quantile."""
+
+    @abstractmethod
+    def pdf(self, x: np.ndarray) -> np.ndarray:
+        """Density on a grid."""
+
+    def interval(self, level: float) -> tuple[float, float]:
+        """Equal-tailed interval holding ``level`` of the probability."""
+        a = (1.0 - level) / 2.0
+        return self.ppf(a), self.ppf(1.0 - a)
+
+
+@dataclass(frozen=True, eq=False)
+class NormalMixture(Distribution):
+    """A finite mixture of normals ``sum_c weights[c] N(locs[c], scales[c]^2)``.
 
     Attributes
     ----------
-    kind : {"normal", "t", "mixture", "draws"}
     weights, locs, scales : ndarray, shape (K,)
-        Normal mixture components (K = 1 for "normal" and "t").
-    df : float
-        Degrees of freedom for "t" (inf otherwise).
-    draws : ndarray, shape (S,), optional
-        For "draws".
+        K = 1: a normal.
     """
 
-    kind: str
     weights: np.ndarray
     locs: np.ndarray
     scales: np.ndarray
-    df: float = np.inf
-    draws: np.ndarray | None = None
 
     @property
     def mean(self) -> float:
-        if self.kind == "draws":
-            return float(np.mean(self.draws))
         return float(np.dot(self.weights, self.locs))
 
     @property
     def sd(self) -> float:
-        if self.kind == "draws":
-            return float(np.std(self.draws, ddof=1))
-        if self.kind == "t":
-            if self.df <= 2:
-                return np.inf
-            return float(self.scales[0] * np.sqrt(self.df / (self.df - 2)))
         # about the mean, so a narrow posterior far from zero keeps its digits
         var = np.dot(self.weights, self.scales**2 + (self.locs - self.mean) ** 2)
         return float(np.sqrt(var))
 
     def cdf(self, x: float) -> float:
-        """P(X <= x)."""
-        if self.kind == "draws":
-            return float(np.mean(self.draws <= x))
-        if self.kind == "t":
-            return float(stats.t.cdf(x, self.df, self.locs[0], self.scales[0]))
         return float(np.dot(self.weights, stats.norm.cdf((x - self.locs) / self.scales)))
 
     def sf(self, x: float) -> float:
-        """P(X > x), computed without cancellation in the upper tail."""
-        if self.kind == "draws":
-            return float(np.mean(self.draws > x))
-        if self.kind == "t":
-            return float(stats.t.sf(x, self.df, self.locs[0], self.scales[0]))
         return float(np.dot(self.weights, stats.norm.sf((x - self.locs) / self.scales)))
 
     def ppf(self, q: float) -> float:
-        """The q-quantile (exact to about 1e-12 relative for the mixture)."""
-        if self.kind == "draws":
-            return float(np.quantile(self.draws, q))
-        if self.kind == "t":
-            return float(stats.t.ppf(q, self.df, self.locs[0], self.scales[0]))
+        """The q-quantile (exact to about 1e-12 relative for a mixture)."""
         if len(self.locs) == 1:
             return float(stats.norm.ppf(q, self.locs[0], self.scales[0]))
         z = stats.norm.ppf(q)
@@ -87,17 +97,71 @@ class Marginal:
             hi += width + 1e-300
         return float(optimize.brentq(lambda x: self.cdf(x) - q, lo, hi, xtol=1e-14, rtol=1e-15))
 
-    def interval(self, level: float) -> tuple[float, float]:
-        """Equal-tailed interval holding ``level`` of the probability."""
-        a = (1.0 - level) / 2.0
-        return self.ppf(a), self.ppf(1.0 - a)
-
     def pdf(self, x: np.ndarray) -> np.ndarray:
-        """Density on a grid (a kernel estimate for draws)."""
         x = np.asarray(x, dtype=float)
-        if self.kind == "draws":
-            return stats.gaussian_kde(self.draws)(x)
-        if self.kind == "t":
-            return stats.t.pdf(x, self.df, self.locs[0], self.scales[0])
         dens = stats.norm.pdf(x[None, :], self.locs[:, None], self.scales[:, None])
         return self.weights @ dens
+
+
+@dataclass(frozen=True, eq=False)
+class StudentT(Distribution):
+    """A Student-t with ``df`` degrees of freedom, location ``loc`` and scale ``scale``."""
+
+    loc: float
+    scale: float
+    df: float
+
+    @property
+    def mean(self) -> float:
+        return float(self.loc)
+
+    @property
+    def sd(self) -> float:
+        if self.df <= 2:
+            return np.inf
+        return float(self.scale * np.sqrt(self.df / (self.df - 2)))
+
+    def cdf(self, x: float) -> float:
+        return float(stats.t.cdf(x, self.df, self.loc, self.scale))
+
+    def sf(self, x: float) -> float:
+        return float(stats.t.sf(x, self.df, self.loc, self.scale))
+
+    def ppf(self, q: float) -> float:
+        return float(stats.t.ppf(q, self.df, self.loc, self.scale))
+
+    def pdf(self, x: np.ndarray) -> np.ndarray:
+        return stats.t.pdf(np.asarray(x, dtype=float), self.df, self.loc, self.scale)
+
+
+@dataclass(frozen=True, eq=False)
+class Empirical(Distribution):
+    """The distribution of a set of draws (sampled fits).
+
+    Attributes
+    ----------
+    draws : ndarray, shape (S,)
+    """
+
+    draws: np.ndarray
+
+    @property
+    def mean(self) -> float:
+        return float(np.mean(self.draws))
+
+    @property
+    def sd(self) -> float:
+        return float(np.std(self.draws, ddof=1))
+
+    def cdf(self, x: float) -> float:
+        return float(np.mean(self.draws <= x))
+
+    def sf(self, x: float) -> float:
+        return float(np.mean(self.draws > x))
+
+    def ppf(self, q: float) -> float:
+        return float(np.quantile(self.draws, q))
+
+    def pdf(self, x: np.ndarray) -> np.ndarray:
+        """A Gaussian kernel density estimate."""
+        return stats.gaussian_kde(self.draws)(np.asarray(x, dtype=float))

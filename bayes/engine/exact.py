@@ -20,7 +20,7 @@ from __future__ import annotations
 import numpy as np
 
 from bayes.engine.likelihood import coefficient_names
-from bayes.engine.posterior import Posterior
+from bayes.engine.posterior import MixturePosterior
 from bayes.engine.quadrature import QUADRATURE_NODES, StackedRows, noise_quadrature
 from bayes.problem import DataFactor, ScaledPrior, natural_transform
 
@@ -32,7 +32,7 @@ def _natural(factor: DataFactor, means: np.ndarray, covs: np.ndarray):
     return nat_means, T @ covs @ T.T
 
 
-def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> Posterior:
+def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> MixturePosterior:
     """The exact posterior, a scale mixture of Gaussians over the noise sd.
 
     Parameters
@@ -43,7 +43,7 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> Posterior:
 
     Returns
     -------
-    Posterior
+    MixturePosterior
         In natural units: one component (noise known), a Student-t (every coefficient
         flat, noise unknown) or the quadrature nodes over the noise sd.
     """
@@ -54,10 +54,11 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> Posterior:
     if noise.known:
         sol = rows.solve(noise.sd)
         means, covs = _natural(factor, sol.mean[None], sol.cov[None])
-        return Posterior(
-            names, "exact", "Gaussian posterior, noise sd known",
-            np.ones(1), np.array([noise.sd]), means, covs, means[0], "posterior mode",
-            float(noise.sd), noise_known=True,
+        return MixturePosterior(
+            names=names, method="exact", detail="Gaussian posterior, noise sd known",
+            mode=means[0], mode_kind="posterior mode", sigma_mode=float(noise.sd),
+            noise_known=True, weights=np.ones(1), sigma=np.array([noise.sd]), means=means,
+            covs=covs,
         )  # fmt: skip
 
     if rows.flat:
@@ -70,11 +71,12 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> Posterior:
         prior_word = "Jeffreys" if noise.jeffreys else "inverse-gamma"
         shape = noise.shape + (n - len(names)) / 2
         s2_mode = (noise.scale + rss / 2) / (shape + 1 + len(names) / 2)
-        return Posterior(
-            names, "exact", f"Student-t marginals, {df:g} degrees of freedom "
-            f"(flat coefficient priors, {prior_word} noise prior)",
-            np.ones(1), np.array([np.sqrt(s2)]), means, covs, means[0],
-            "joint mode of (beta, sigma^2)", float(np.sqrt(s2_mode)), df=float(df),
+        return MixturePosterior(
+            names=names, method="exact", detail=f"Student-t marginals, {df:g} degrees of "
+            f"freedom (flat coefficient priors, {prior_word} noise prior)",
+            mode=means[0], mode_kind="joint mode of (beta, sigma^2)",
+            sigma_mode=float(np.sqrt(s2_mode)), weights=np.ones(1),
+            sigma=np.array([np.sqrt(s2)]), means=means, covs=covs, df=float(df),
         )  # fmt: skip
 
     quad = noise_quadrature(factor, prior)
@@ -87,12 +89,12 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> Posterior:
     u_mode = _joint_mode(rows, quad.nodes[np.argmax(quad.log_density)])
     mode_sol = rows.solve(np.exp(u_mode))
     mode, _ = _natural(factor, mode_sol.mean[None], mode_sol.cov[None])
-    return Posterior(
-        names, "exact",
-        f"noise sd integrated out exactly ({QUADRATURE_NODES}-node Gauss-Legendre quadrature "
-        "in log sigma)",
-        weights, sigma, means, covs, mode[0], "joint mode of (beta, sigma)",
-        float(np.exp(u_mode)), sigma_cdf=quad.sigma_cdf(),
+    return MixturePosterior(
+        names=names, method="exact",
+        detail=f"noise sd integrated out exactly ({QUADRATURE_NODES}-node Gauss-Legendre "
+        "quadrature in log sigma)",
+        mode=mode[0], mode_kind="joint mode of (beta, sigma)", sigma_mode=float(np.exp(u_mode)),
+        weights=weights, sigma=sigma, means=means, covs=covs, sigma_cdf=quad.sigma_cdf(),
     )  # fmt: skip
 
 

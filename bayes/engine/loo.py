@@ -16,7 +16,7 @@ from scipy import special, stats
 
 from bayes.engine.arrays import ReadOnlyArrays
 from bayes.engine.evidence import log_marginal_likelihood
-from bayes.engine.posterior import Posterior
+from bayes.engine.posterior import MixturePosterior
 from bayes.errors import InputError
 
 
@@ -68,12 +68,12 @@ def _loo(pointwise: np.ndarray, lppd: float, method: str, **extra) -> LooResult:
     return LooResult(elpd, se, pointwise, float(lppd - elpd), method, **extra)
 
 
-def exact_loo(posterior: Posterior, X: np.ndarray, y: np.ndarray, priors) -> LooResult:
+def exact_loo(posterior: MixturePosterior, X: np.ndarray, y: np.ndarray, priors) -> LooResult:
     """Exact leave-one-out predictive densities of an exact (Gaussian/flat) fit, no refits.
 
     Parameters
     ----------
-    posterior : Posterior
+    posterior : MixturePosterior
         From :func:`bayes.engine.exact.exact_posterior` on the same rows.
     X : ndarray, shape (n, p)
         The fit's design columns, natural units.
@@ -101,7 +101,7 @@ def exact_loo(posterior: Posterior, X: np.ndarray, y: np.ndarray, priors) -> Loo
     the nodes), the row's value is computed instead as ``p(y) / p(y_-i)`` from two
     exact evidences.
     """
-    if posterior.draws is not None:
+    if not isinstance(posterior, MixturePosterior):
         raise ValueError("exact_loo needs an exact posterior (use psis_loo for draws)")
     A = _rows(X)
     y = np.asarray(y, dtype=float)

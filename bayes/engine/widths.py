@@ -43,7 +43,7 @@ from scipy import linalg, special, stats
 
 from bayes.engine.arrays import ReadOnlyArrays
 from bayes.engine.likelihood import coefficient_names
-from bayes.engine.posterior import Posterior
+from bayes.engine.posterior import MixturePosterior
 from bayes.engine.quadrature import StackedRows, log_sigma_quadrature
 from bayes.problem import DataFactor, ScaledPrior, natural_transform
 
@@ -263,9 +263,10 @@ class WidthPath(ReadOnlyArrays):
 class CoefficientMixtures(ReadOnlyArrays):
     """Every coefficient's marginal posterior as a scale mixture of normals (vectorised).
 
-    The same exact forms as :class:`bayes.distributions.Marginal`, for all k coefficients
-    at once: component ``c`` of coefficient ``j`` is ``N(locs[j, c], scales[j, c]^2)``
-    with weight ``weights[c]``; a finite ``df`` means one Student-t component.
+    The same exact forms as :class:`bayes.distributions.NormalMixture` and
+    :class:`bayes.distributions.StudentT`, for all k coefficients at once: component ``c``
+    of coefficient ``j`` is ``N(locs[j, c], scales[j, c]^2)`` with weight ``weights[c]``;
+    a finite ``df`` means one Student-t component.
 
     Attributes
     ----------
@@ -281,8 +282,8 @@ class CoefficientMixtures(ReadOnlyArrays):
     df: float = np.inf
 
     @classmethod
-    def from_posterior(cls, posterior: Posterior) -> CoefficientMixtures:
-        """The marginals of an exact :class:`Posterior`."""
+    def from_posterior(cls, posterior: MixturePosterior) -> CoefficientMixtures:
+        """The marginals of an exact posterior."""
         sd = np.sqrt(np.maximum(np.einsum("kjj->kj", posterior.covs), 0.0))
         return cls(posterior.weights, posterior.means.T, sd.T, posterior.df)
 
