@@ -36,11 +36,12 @@ mean and variance (``beta = offset + G eta + H eps``, natural units).
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
 from scipy import linalg, special, stats
 
+from bayes.distributions import mixture_quantile
 from bayes.engine.arrays import ReadOnlyArrays
 from bayes.engine.likelihood import coefficient_names
 from bayes.engine.posterior import MixturePosterior
@@ -342,31 +343,4 @@ class CoefficientMixtures(ReadOnlyArrays):
         """The q-quantile of every coefficient, shape (k,), to about 1e-13 relative."""
         if np.isfinite(self.df):
             return self.locs[:, 0] + self.scales[:, 0] * stats.t.ppf(q, self.df)
-        zq = special.ndtri(q)
-        if self.locs.shape[1] == 1:
-            return self.locs[:, 0] + self.scales[:, 0] * zq
-        if q > 0.5:  # the lower tail of -beta: its CDF resolves 1 - q to full precision
-            return -replace(self, locs=-self.locs).quantile(1.0 - q)
-        # Safeguarded Newton: the quantile lies between the components' own quantiles.
-        each = self.locs + zq * self.scales
-        lo, hi = each.min(axis=1), each.max(axis=1)
-        x = each @ self.weights
-        for _ in range(200):
-            z = (x[:, None] - self.locs) / self.scales
-            F = special.ndtr(z) @ self.weights - q
-            dens = (np.exp(-0.5 * z**2) / (np.sqrt(2 * np.pi) * self.scales)) @ self.weights
-            lo = np.where(F < 0, x, lo)
-            hi = np.where(F > 0, x, hi)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                step = np.where(dens > 0, F / dens, np.inf)
-            new = x - step
-            # Closed bracket: a converged step rounds to x, which may be a bracket end;
-            # sending it to the midpoint would restart the search by bisection.
-            outside = ~((new >= lo) & (new <= hi))
-            new = np.where(outside, 0.5 * (lo + hi), new)
-            tol = 1e-15 * (np.abs(new) + self.scales.min(axis=1))
-            done = (np.abs(new - x) <= tol) | (hi - lo <= tol)
-            x = new
-            if np.all(done):
-                break
-        return x
+        return mixture_quantile(self.weights, self.locs, self.scales, q)
