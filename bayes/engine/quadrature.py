@@ -179,7 +179,11 @@ class NoiseQuadrature(ReadOnlyArrays):
         from scipy.interpolate import BarycentricInterpolator
 
         grid = np.linspace(self.nodes[0], self.nodes[-1], points)
-        logf = BarycentricInterpolator(self.nodes, self.log_density - self.log_density.max())
+        # The interpolator orders the nodes at random to compute its weights: a fixed
+        # generator keeps the last bits of the cdf, and so the printed numbers, repeatable.
+        logf = BarycentricInterpolator(
+            self.nodes, self.log_density - self.log_density.max(), rng=np.random.default_rng(0)
+        )
         cdf = cumulative_simpson(np.exp(logf(grid)), x=grid, initial=0.0)
         return np.vstack([np.exp(grid), cdf / cdf[-1]])
 
