@@ -11,6 +11,7 @@ from conftest import DEMO, GAUSSIAN_PRIORS
 from scipy import integrate, linalg, optimize, special, stats
 
 import bayes
+import bayes.api
 from bayes.cli.app import main
 from bayes.compare import compare_priors, kass_raftery
 from bayes.data.design import build_design
