@@ -3,7 +3,7 @@
 Every set is fitted to the same design. The log marginal likelihoods give Bayes
 factors and the posterior probabilities of the sets under equal prior odds, read
 on the scale of Kass and Raftery (1995); the leave-one-out predictive densities
-(:mod:`bayes.engine.evidence`) compare the sets by how well they predict each row from
+(:mod:`bayes.engine.loo`) compare the sets by how well they predict each row from
 the others, which depends much less on the prior widths.
 """
 
@@ -17,14 +17,8 @@ from pathlib import Path
 import numpy as np
 
 from bayes.data.design import Design
-from bayes.engine.evidence import (
-    Evidence,
-    LooResult,
-    bridge_sampling,
-    exact_loo,
-    log_marginal_likelihood,
-    psis_loo,
-)
+from bayes.engine.evidence import Evidence, bridge_sampling, log_marginal_likelihood
+from bayes.engine.loo import LooResult, exact_loo, psis_loo
 from bayes.errors import InputError
 from bayes.results.format import fmt, format_table
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings

@@ -1,103 +1,213 @@
-"""One-dimensional posterior distributions of a linear combination of coefficients.
+"""One-dimensional distributions of a linear combination of coefficients, behind one interface.
 
 Every engine's posterior reduces, for a contrast ``a' beta`` (a coefficient, a
-prediction), to one of four exact forms: a normal, a Student-t, a finite
-mixture of normals (the noise integrated out by quadrature) or a set of draws.
+prediction), to one of three exact forms: a finite mixture of normals (one
+component when the noise sd is known, the quadrature nodes when it is
+integrated out), a Student-t (the conjugate case) or a set of draws. Each form
+gives ``mean``, ``sd``, ``cdf``, ``sf``, ``ppf``, ``interval`` and ``pdf``;
+:func:`mixture_quantile` is the one quantile solver for normal mixtures, for one
+distribution or for many at once.
 """
 
 from __future__ import annotations
 
+from abc import ABC, abstractmethod
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize, stats
+from scipy import special, stats
+
+from bayes.engine.arrays import ReadOnlyArrays
 
 
-@dataclass(frozen=True)
-class Marginal:
-    """A univariate distribution with mean, sd, cdf and quantiles.
-
-    Attributes
-    ----------
-    kind : {"normal", "t", "mixture", "draws"}
-    weights, locs, scales : ndarray, shape (K,)
-        Normal mixture components (K = 1 for "normal" and "t").
-    df : float
-        Degrees of freedom for "t" (inf otherwise).
-    draws : ndarray, shape (S,), optional
-        For "draws".
-    """
-
-    kind: str
-    weights: np.ndarray
-    locs: np.ndarray
-    scales: np.ndarray
-    df: float = np.inf
-    draws: np.ndarray | None = None
+class Distribution(ReadOnlyArrays, ABC):
+    """A univariate distribution: mean, sd, cdf, sf, quantiles, intervals, density."""
 
     @property
+    @abstractmethod
     def mean(self) -> float:
-        if self.kind == "draws":
-            return float(np.mean(self.draws))
-        return float(np.dot(self.weights, self.locs))
+        """The mean."""
 
     @property
+    @abstractmethod
     def sd(self) -> float:
-        if self.kind == "draws":
-            return float(np.std(self.draws, ddof=1))
-        if self.kind == "t":
-            if self.df <= 2:
-                return np.inf
-            return float(self.scales[0] * np.sqrt(self.df / (self.df - 2)))
-        # about the mean, so a narrow posterior far from zero keeps its digits
-        var = np.dot(self.weights, self.scales**2 + (self.locs - self.mean) ** 2)
-        return float(np.sqrt(var))
+        """The standard deviation (inf when it does not exist)."""
 
+    @abstractmethod
     def cdf(self, x: float) -> float:
         """P(X <= x)."""
-        if self.kind == "draws":
-            return float(np.mean(self.draws <= x))
-        if self.kind == "t":
-            return float(stats.t.cdf(x, self.df, self.locs[0], self.scales[0]))
-        return float(np.dot(self.weights, stats.norm.cdf((x - self.locs) / self.scales)))
 
+    @abstractmethod
     def sf(self, x: float) -> float:
         """P(X > x), computed without cancellation in the upper tail."""
-        if self.kind == "draws":
-            return float(np.mean(self.draws > x))
-        if self.kind == "t":
-            return float(stats.t.sf(x, self.df, self.locs[0], self.scales[0]))
-        return float(np.dot(self.weights, stats.norm.sf((x - self.locs) / self.scales)))
 
+    @abstractmethod
     def ppf(self, q: float) -> float:
-        """The q-quantile (exact to about 1e-12 relative for the mixture)."""
-        if self.kind == "draws":
-            return float(np.quantile(self.draws, q))
-        if self.kind == "t":
-            return float(stats.t.ppf(q, self.df, self.locs[0], self.scales[0]))
-        if len(self.locs) == 1:
-            return float(stats.norm.ppf(q, self.locs[0], self.scales[0]))
-        z = stats.norm.ppf(q)
-        lo = float(np.min(self.locs + z * self.scales)) - 1e-9 * (1 + abs(z))
-        hi = float(np.max(self.locs + z * self.scales)) + 1e-9 * (1 + abs(z))
-        width = hi - lo
-        while self.cdf(lo) > q:
-            lo -= width + 1e-300
-        while self.cdf(hi) < q:
-            hi += width + 1e-300
-        return float(optimize.brentq(lambda x: self.cdf(x) - q, lo, hi, xtol=1e-14, rtol=1e-15))
+        """The q-quantile."""
+
+    @abstractmethod
+    def pdf(self, x: np.ndarray) -> np.ndarray:
+        """Density on a grid."""
 
     def interval(self, level: float) -> tuple[float, float]:
         """Equal-tailed interval holding ``level`` of the probability."""
         a = (1.0 - level) / 2.0
         return self.ppf(a), self.ppf(1.0 - a)
 
+
+@dataclass(frozen=True, eq=False)
+class NormalMixture(Distribution):
+    """A finite mixture of normals ``sum_c weights[c] N(locs[c], scales[c]^2)``.
+
+    Attributes
+    ----------
+    weights, locs, scales : ndarray, shape (K,)
+        K = 1: a normal.
+    """
+
+    weights: np.ndarray
+    locs: np.ndarray
+    scales: np.ndarray
+
+    @property
+    def mean(self) -> float:
+        return float(np.dot(self.weights, self.locs))
+
+    @property
+    def sd(self) -> float:
+        # about the mean, so a narrow posterior far from zero keeps its digits
+        var = np.dot(self.weights, self.scales**2 + (self.locs - self.mean) ** 2)
+        return float(np.sqrt(var))
+
+    def cdf(self, x: float) -> float:
+        return float(np.dot(self.weights, stats.norm.cdf((x - self.locs) / self.scales)))
+
+    def sf(self, x: float) -> float:
+        return float(np.dot(self.weights, stats.norm.sf((x - self.locs) / self.scales)))
+
+    def ppf(self, q: float) -> float:
+        """The q-quantile (exact to about 1e-13 relative for a mixture)."""
+        return float(mixture_quantile(self.weights, self.locs[None], self.scales[None], q)[0])
+
     def pdf(self, x: np.ndarray) -> np.ndarray:
-        """Density on a grid (a kernel estimate for draws)."""
         x = np.asarray(x, dtype=float)
-        if self.kind == "draws":
-            return stats.gaussian_kde(self.draws)(x)
-        if self.kind == "t":
-            return stats.t.pdf(x, self.df, self.locs[0], self.scales[0])
         dens = stats.norm.pdf(x[None, :], self.locs[:, None], self.scales[:, None])
         return self.weights @ dens
+
+
+@dataclass(frozen=True, eq=False)
+class StudentT(Distribution):
+    """A Student-t with ``df`` degrees of freedom, location ``loc`` and scale ``scale``."""
+
+    loc: float
+    scale: float
+    df: float
+
+    @property
+    def mean(self) -> float:
+        return float(self.loc)
+
+    @property
+    def sd(self) -> float:
+        if self.df <= 2:
+            return np.inf
+        return float(self.scale * np.sqrt(self.df / (self.df - 2)))
+
+    def cdf(self, x: float) -> float:
+        return float(stats.t.cdf(x, self.df, self.loc, self.scale))
+
+    def sf(self, x: float) -> float:
+        return float(stats.t.sf(x, self.df, self.loc, self.scale))
+
+    def ppf(self, q: float) -> float:
+        return float(stats.t.ppf(q, self.df, self.loc, self.scale))
+
+    def pdf(self, x: np.ndarray) -> np.ndarray:
+        return stats.t.pdf(np.asarray(x, dtype=float), self.df, self.loc, self.scale)
+
+
+@dataclass(frozen=True, eq=False)
+class Empirical(Distribution):
+    """The distribution of a set of draws (sampled fits).
+
+    Attributes
+    ----------
+    draws : ndarray, shape (S,)
+    """
+
+    draws: np.ndarray
+
+    @property
+    def mean(self) -> float:
+        return float(np.mean(self.draws))
+
+    @property
+    def sd(self) -> float:
+        return float(np.std(self.draws, ddof=1))
+
+    def cdf(self, x: float) -> float:
+        return float(np.mean(self.draws <= x))
+
+    def sf(self, x: float) -> float:
+        return float(np.mean(self.draws > x))
+
+    def ppf(self, q: float) -> float:
+        return float(np.quantile(self.draws, q))
+
+    def pdf(self, x: np.ndarray) -> np.ndarray:
+        """A Gaussian kernel density estimate."""
+        return stats.gaussian_kde(self.draws)(np.asarray(x, dtype=float))
+
+
+def mixture_quantile(
+    weights: np.ndarray, locs: np.ndarray, scales: np.ndarray, q: float
+) -> np.ndarray:
+    """The q-quantile of each of k normal mixtures sharing their weights, to ~1e-13 relative.
+
+    Mixture ``j`` is ``sum_c weights[c] N(locs[j, c], scales[j, c]^2)``.
+
+    Parameters
+    ----------
+    weights : ndarray, shape (K,)
+    locs, scales : ndarray, shape (k, K)
+    q : float
+        Strictly between 0 and 1.
+
+    Returns
+    -------
+    ndarray, shape (k,)
+
+    Notes
+    -----
+    Safeguarded Newton, vectorised over the mixtures: the quantile lies between the
+    components' own quantiles, a bracket kept closed around every iterate. For q > 1/2
+    the lower tail of ``-beta`` is solved instead, whose cdf resolves ``1 - q`` to full
+    precision.
+    """
+    zq = special.ndtri(q)
+    if locs.shape[1] == 1:
+        return locs[:, 0] + scales[:, 0] * zq
+    if q > 0.5:
+        return -mixture_quantile(weights, -locs, scales, 1.0 - q)
+    each = locs + zq * scales
+    lo, hi = each.min(axis=1), each.max(axis=1)
+    x = each @ weights
+    for _ in range(200):
+        z = (x[:, None] - locs) / scales
+        F = special.ndtr(z) @ weights - q
+        dens = (np.exp(-0.5 * z**2) / (np.sqrt(2 * np.pi) * scales)) @ weights
+        lo = np.where(F < 0, x, lo)
+        hi = np.where(F > 0, x, hi)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            step = np.where(dens > 0, F / dens, np.inf)
+        new = x - step
+        # Closed bracket: a converged step rounds to x, which may be a bracket end;
+        # sending it to the midpoint would restart the search by bisection.
+        outside = ~((new >= lo) & (new <= hi))
+        new = np.where(outside, 0.5 * (lo + hi), new)
+        tol = 1e-15 * (np.abs(new) + scales.min(axis=1))
+        done = (np.abs(new - x) <= tol) | (hi - lo <= tol)
+        x = new
+        if np.all(done):
+            break
+    return x

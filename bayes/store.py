@@ -18,7 +18,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from bayes.engine.posterior import Posterior
+from bayes.engine.posterior import DrawsPosterior, MixturePosterior, Posterior
 from bayes.errors import InputError
 from bayes.problem import DataFactor
 from bayes.results.result import FitResult
@@ -55,19 +55,8 @@ def _write_fit(result: FitResult, tmp: Path) -> None:
         "x_scale": f.x_scale,
         "y_mean": np.array(f.y_mean),
         "R": f.R,
-        "names": np.array(post.names, dtype=str),
-        "weights": post.weights,
-        "sigma": post.sigma,
-        "means": post.means,
-        "covs": post.covs,
-        "mode": post.mode,
-        "scalars": np.array([post.sigma_mode, post.df, float(post.noise_known)]),
+        **_posterior_arrays(post),
     }
-    if post.draws is not None:
-        arrays["draws"] = post.draws
-        arrays["sigma_draws"] = post.sigma_draws
-    if post.sigma_cdf is not None:
-        arrays["sigma_cdf"] = post.sigma_cdf
     np.savez(tmp / "posterior.npz", **arrays)
     doc = result.to_dict()
     doc["labels"] = {"method": post.method, "detail": post.detail, "mode_kind": post.mode_kind}
@@ -82,6 +71,50 @@ def _write_fit(result: FitResult, tmp: Path) -> None:
         (tmp / "terms.json").write_text(json.dumps(coding, indent=2) + "\n")
     if result.inference is not None:
         result.inference.to_netcdf(str(tmp / "posterior.nc"), engine="h5netcdf")
+
+
+def _posterior_arrays(post: Posterior) -> dict[str, np.ndarray]:
+    """The posterior's arrays in ``posterior.npz``.
+
+    Both forms write the mixture keys (``weights``, ``sigma``, ``means``, ``covs`` and
+    ``df`` in ``scalars``), which older versions read unconditionally: a sampled fit
+    writes one component at the draws' mean and covariance and the noise draws' median.
+    """
+    if isinstance(post, DrawsPosterior):
+        mixture = {
+            "weights": np.ones(1),
+            "sigma": np.array([float(np.median(post.sigma_draws))]),
+            "means": post.mean[None],
+            "covs": post.cov[None],
+        }
+        df, extra = np.inf, {"draws": post.draws, "sigma_draws": post.sigma_draws}
+    else:
+        mixture = {"weights": post.weights, "sigma": post.sigma, "means": post.means,
+                   "covs": post.covs}  # fmt: skip
+        df, extra = post.df, {} if post.sigma_cdf is None else {"sigma_cdf": post.sigma_cdf}
+    return {
+        "names": np.array(post.names, dtype=str),
+        **mixture,
+        "mode": post.mode,
+        "scalars": np.array([post.sigma_mode, df, float(post.noise_known)]),
+        **extra,
+    }
+
+
+def _posterior_from_arrays(z, labels: dict) -> Posterior:
+    """The posterior of a ``posterior.npz`` (old or new): draws make a sampled posterior."""
+    sigma_mode, df, known = z["scalars"]
+    common = dict(
+        names=tuple(str(s) for s in z["names"]), method=labels["method"],
+        detail=labels["detail"], mode=z["mode"], mode_kind=labels["mode_kind"],
+        sigma_mode=float(sigma_mode), noise_known=bool(known),
+    )  # fmt: skip
+    if "draws" in z:
+        return DrawsPosterior(**common, draws=z["draws"], sigma_draws=z["sigma_draws"])
+    return MixturePosterior(
+        **common, weights=z["weights"], sigma=z["sigma"], means=z["means"], covs=z["covs"],
+        df=float(df), sigma_cdf=z["sigma_cdf"] if "sigma_cdf" in z else None,
+    )  # fmt: skip
 
 
 def load_fit(folder: str | Path) -> FitResult:
@@ -109,16 +142,7 @@ def load_fit(folder: str | Path) -> FitResult:
         tuple(str(s) for s in z["factor_names"]), int(z["factor_n"]), z["x_mean"], z["x_scale"],
         float(z["y_mean"]), z["R"],
     )  # fmt: skip
-    sigma_mode, df, known = z["scalars"]
-    labels = doc["labels"]
-    post = Posterior(
-        tuple(str(s) for s in z["names"]), labels["method"], labels["detail"], z["weights"],
-        z["sigma"], z["means"], z["covs"], z["mode"], labels["mode_kind"], float(sigma_mode),
-        df=float(df), noise_known=bool(known),
-        draws=z["draws"] if "draws" in z else None,
-        sigma_draws=z["sigma_draws"] if "sigma_draws" in z else None,
-        sigma_cdf=z["sigma_cdf"] if "sigma_cdf" in z else None,
-    )  # fmt: skip
+    post = _posterior_from_arrays(z, doc["labels"])
     text = (folder / "priors.toml").read_text()
     priors = (
         parse_priors(tomllib.loads(text), str(folder / "priors.toml")) if text else flat_priors()

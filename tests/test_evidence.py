@@ -1,4 +1,4 @@
-"""Evidence and leave-one-out (bayes.engine.evidence) and `bayes compare` (bayes.compare)."""
+"""Evidence and leave-one-out (bayes.engine.evidence, bayes.engine.loo) and `bayes compare`."""
 
 from __future__ import annotations
 
@@ -11,12 +11,14 @@ from conftest import DEMO, GAUSSIAN_PRIORS
 from scipy import integrate, linalg, optimize, special, stats
 
 import bayes
+import bayes.api
 from bayes.cli.app import main
 from bayes.compare import compare_priors, kass_raftery
 from bayes.data.design import build_design
 from bayes.data.factor import factor_from_arrays
-from bayes.engine.evidence import bridge_sampling, exact_loo, log_marginal_likelihood, psis_loo
+from bayes.engine.evidence import bridge_sampling, log_marginal_likelihood
 from bayes.engine.exact import exact_posterior
+from bayes.engine.loo import exact_loo, psis_loo
 from bayes.engine.scaled import scaled_prior
 from bayes.errors import InputError
 from bayes.problem import natural_transform

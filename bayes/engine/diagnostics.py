@@ -11,6 +11,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from bayes.engine.arrays import ReadOnlyArrays
+
 R_HAT_MAX = 1.01  # split R-hat above this: chains disagree (Vehtari et al., 2021)
 ESS_MIN = 400  # bulk or tail effective sample size below this: too few (Vehtari et al., 2021)
 
@@ -23,8 +25,8 @@ def _arviz():
     return arviz
 
 
-@dataclass(frozen=True)
-class DrawSummary:
+@dataclass(frozen=True, eq=False)
+class DrawSummary(ReadOnlyArrays):
     """Per-quantity convergence diagnostics.
 
     Attributes

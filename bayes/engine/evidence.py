@@ -1,34 +1,26 @@
-"""How well a prior set predicts the data: the evidence and leave-one-out predictive densities.
+"""How well a prior set predicts the data as a whole: the evidence (log marginal likelihood).
 
-Evidence (log marginal likelihood)
-    ``log p(y) = log of the integral of p(y | beta, sigma) p(beta) p(sigma^2)``, in natural
-    units. Exact for flat and Gaussian coefficient priors:
+``log p(y) = log of the integral of p(y | beta, sigma) p(beta) p(sigma^2)``, in natural
+units. Exact for flat and Gaussian coefficient priors:
 
-    * noise sd known: a Gaussian integral,
-      ``log p(y) = c - n log sigma - S(sigma) / 2 - log det R(sigma)``;
-    * unknown noise, flat coefficients, inverse-gamma or Jeffreys noise prior: the
-      conjugate closed form (a ratio of gamma functions);
-    * unknown noise with Gaussian priors: the one-dimensional integral over
-      ``u = log sigma`` that :func:`bayes.engine.exact.noise_quadrature` already computes,
-      ``log p(y) = c + log 2 + log_norm``,
+* noise sd known: a Gaussian integral,
+  ``log p(y) = c - n log sigma - S(sigma) / 2 - log det R(sigma)``;
+* unknown noise, flat coefficients, inverse-gamma or Jeffreys noise prior: the
+  conjugate closed form (a ratio of gamma functions);
+* unknown noise with Gaussian priors: the one-dimensional integral over
+  ``u = log sigma`` that :func:`bayes.engine.quadrature.noise_quadrature` computes,
+  ``log p(y) = c + log 2 + log_norm``,
 
-    with ``c = log C_G + log |det T| + (k - n) / 2 log(2 pi)``: ``C_G`` normalises the
-    Gaussian part of the prior in natural units and ``T`` maps the scaled coefficients
-    to natural ones (:func:`bayes.problem.natural_transform`). Laplace and Student-t
-    priors: bridge sampling (Meng and Wong, 1996) on posterior draws, with the Monte
-    Carlo error of Fruhwirth-Schnatter (2004).
+with ``c = log C_G + log |det T| + (k - n) / 2 log(2 pi)``: ``C_G`` normalises the
+Gaussian part of the prior in natural units and ``T`` maps the scaled coefficients
+to natural ones (:func:`bayes.problem.natural_transform`). Laplace and Student-t
+priors: bridge sampling (Meng and Wong, 1996) on posterior draws, with the Monte
+Carlo error of Fruhwirth-Schnatter (2004).
 
-    Improper parts: a flat coefficient prior has density 1 per natural unit of its
-    coefficient and the Jeffreys noise prior density 1 / sigma^2. The log marginal
-    likelihoods of prior sets that share the same improper parts carry the same
-    arbitrary constant, so their differences (log Bayes factors) are meaningful.
-
-Leave-one-out predictive density
-    ``elpd_loo = sum_i log p(y_i | y_-i)``. Exact fits: in closed form, no refits (a
-    Student-t for the conjugate case; for a Gaussian posterior at each noise value, the
-    identity ``1 / p(y_i | y_-i) = E[1 / p(y_i | beta, sigma) | y]``, a Gaussian
-    integral per quadrature node). Sampled fits: Pareto-smoothed importance sampling
-    (PSIS-LOO, from arviz) with its Pareto-k diagnostics.
+Improper parts: a flat coefficient prior has density 1 per natural unit of its
+coefficient and the Jeffreys noise prior density 1 / sigma^2. The log marginal
+likelihoods of prior sets that share the same improper parts carry the same
+arbitrary constant, so their differences (log Bayes factors) are meaningful.
 """
 
 from __future__ import annotations
@@ -38,9 +30,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import linalg, special, stats
 
-from bayes.engine.exact import _log_noise_prior, _solve, noise_quadrature
-from bayes.engine.likelihood import check_identified, data_rows
-from bayes.engine.posterior import Posterior
+from bayes.engine.quadrature import StackedRows, log_noise_prior, noise_quadrature
 from bayes.errors import InputError
 from bayes.problem import DataFactor, ScaledPrior, natural_transform
 
@@ -70,42 +60,6 @@ class Evidence:
         return self.mc_se == 0.0
 
 
-@dataclass(frozen=True)
-class LooResult:
-    """Leave-one-out expected log predictive density.
-
-    Attributes
-    ----------
-    elpd : float
-        ``sum_i log p(y_i | y_-i)`` (log density in 1 / response units).
-    se : float
-        Its usual standard error, ``sqrt(n) * sd(pointwise)``.
-    pointwise : ndarray, shape (n,)
-    p_loo : float
-        Effective number of parameters, ``lppd - elpd``.
-    method : str
-    pareto_k : ndarray, shape (n,), optional
-        PSIS only.
-    good_k : float, optional
-        Threshold above which a Pareto k makes the estimate for that row unreliable.
-    """
-
-    elpd: float
-    se: float
-    pointwise: np.ndarray
-    p_loo: float
-    method: str
-    pareto_k: np.ndarray | None = None
-    good_k: float | None = None
-
-    @property
-    def bad_rows(self) -> np.ndarray:
-        """Positions of rows whose Pareto k exceeds ``good_k`` (empty for exact LOO)."""
-        if self.pareto_k is None:
-            return np.array([], dtype=int)
-        return np.flatnonzero(self.pareto_k > self.good_k)
-
-
 # ----------------------------------------------------------------------------- exact evidence
 
 
@@ -130,34 +84,21 @@ def _gaussian_part(factor: DataFactor, prior: ScaledPrior) -> float:
 
 
 def log_marginal_likelihood(factor: DataFactor, prior: ScaledPrior) -> Evidence:
-    """Exact log marginal likelihood for flat and Gaussian coefficient priors.
+    """Exact log marginal likelihood of the data factor under flat and Gaussian priors.
 
-    Parameters
-    ----------
-    factor : DataFactor
-    prior : ScaledPrior
-        Only "flat" and "normal" families.
-
-    Returns
-    -------
-    Evidence
-        ``mc_se`` is 0.
+    ``prior`` holds flat and normal coefficient priors only (:meth:`StackedRows.checked`
+    says so otherwise). The result's ``mc_se`` is 0.
     """
-    if not prior.gaussian_only:
-        raise ValueError("the exact evidence needs flat and normal priors only")
-    check_identified(factor, prior)
+    rows = StackedRows.checked(factor, prior, caller="log_marginal_likelihood")
     n, k = factor.n, factor.p + 1
     base = _gaussian_part(factor, prior) + (k - n) / 2 * LOG_2PI
-    D, d = data_rows(factor)
-    W = prior.root_precision
-    w = W @ prior.mean
     noise = prior.noise
     if noise.known:
-        sol = _solve(D, d, W, w, noise.sd)
+        sol = rows.solve(noise.sd)
         value = base - n * np.log(noise.sd) - sol.quad / 2 - sol.logdet
         return Evidence(float(value), 0.0, "exact (Gaussian integral, noise sd known)")
-    if W.shape[0] == 0:
-        sol = _solve(D, d, W, w, 1.0)  # quad = residual sum of squares, logdet = log det R
+    if rows.flat:
+        sol = rows.solve(1.0)  # quad = residual sum of squares, logdet = log det R
         a, b = noise.shape, noise.scale
         a_post = a + (n - k) / 2
         if a_post <= 0:
@@ -235,7 +176,7 @@ def log_posterior_kernel(
         extra = 0.0
     else:
         s2 = np.exp(2 * log_sigma)
-        extra = _log_noise_prior(prior, s2) + np.log(2 * s2)  # d sigma^2 = 2 sigma^2 d log sigma
+        extra = log_noise_prior(prior, s2) + np.log(2 * s2)  # d sigma^2 = 2 sigma^2 d log sigma
     loglik = -n / 2 * LOG_2PI - n * log_sigma - rss / (2 * np.exp(2 * log_sigma))
     return loglik + log_prior(factor, prior, gamma) + extra
 
@@ -323,161 +264,4 @@ def bridge_sampling(
         float(np.log(r) + shift),
         float(np.sqrt(re2)),
         "estimated by bridge sampling (Meng and Wong, 1996) from posterior draws",
-    )
-
-
-# ----------------------------------------------------------------------------- leave-one-out
-
-
-def _rows(X: np.ndarray) -> np.ndarray:
-    X = np.asarray(X, dtype=float)
-    return np.column_stack([np.ones(len(X)), X])
-
-
-def _loo(pointwise: np.ndarray, lppd: float, method: str, **extra) -> LooResult:
-    n = len(pointwise)
-    elpd = float(np.sum(pointwise))
-    se = float(np.sqrt(n) * np.std(pointwise, ddof=1)) if n > 1 else np.nan
-    return LooResult(elpd, se, pointwise, float(lppd - elpd), method, **extra)
-
-
-def exact_loo(posterior: Posterior, X: np.ndarray, y: np.ndarray, priors) -> LooResult:
-    """Exact leave-one-out predictive densities of an exact (Gaussian/flat) fit, no refits.
-
-    Parameters
-    ----------
-    posterior : Posterior
-        From :func:`bayes.engine.exact.exact_posterior` on the same rows.
-    X : ndarray, shape (n, p)
-        The fit's design columns, natural units.
-    y : ndarray, shape (n,)
-    priors : elicit.spec.PriorSet
-        The fit's priors (used only in the rare case described below).
-
-    Returns
-    -------
-    LooResult
-
-    Notes
-    -----
-    Conjugate case (Student-t posterior with ``df`` degrees of freedom and scale
-    ``s``): with the leverage ``h_i`` and residual ``e_i`` of the full fit, row i
-    left out gives a Student-t predictive with ``df - 1`` degrees of freedom,
-    location residual ``e_i / (1 - h_i)`` and squared scale
-    ``(df s^2 - e_i^2 / (1 - h_i)) / ((df - 1)(1 - h_i))``.
-
-    Gaussian posterior ``N(m_k, V_k)`` at each noise value ``sigma_k`` (weight
-    ``w_k``): ``1 / p(y_i | y_-i) = sum_k w_k sqrt(2 pi sigma_k^2 / (1 - h_ik))
-    exp(e_ik^2 / (2 sigma_k^2 (1 - h_ik)))`` with ``h_ik = a_i' V_k a_i / sigma_k^2``.
-    When that sum is carried by the first or last quadrature node (an
-    observation far out, so that the noise posterior without it lies outside
-    the nodes), the row's value is computed instead as ``p(y) / p(y_-i)`` from two
-    exact evidences.
-    """
-    if posterior.draws is not None:
-        raise ValueError("exact_loo needs an exact posterior (use psis_loo for draws)")
-    A = _rows(X)
-    y = np.asarray(y, dtype=float)
-    if np.isfinite(posterior.df):
-        df, s2 = posterior.df, posterior.sigma[0] ** 2
-        H = posterior.covs[0] / s2
-        h = np.einsum("ij,jk,ik->i", A, H, A)
-        e = y - A @ posterior.means[0]
-        _check_leverage(h, df - 1)
-        s2_i = (df * s2 - e**2 / (1 - h)) / (df - 1)
-        point = stats.t.logpdf(e / (1 - h), df - 1, 0.0, np.sqrt(s2_i / (1 - h)))
-        lppd = float(np.sum(stats.t.logpdf(e, df, 0.0, np.sqrt(s2 * (1 + h)))))
-        return _loo(point, lppd, "exact (closed form, Student-t predictive)")
-    sig2 = posterior.sigma**2  # (K,)
-    mu = A @ posterior.means.T  # (n, K)
-    v = np.einsum("ij,kjl,il->ik", A, posterior.covs, A)  # (n, K)
-    h = v / sig2
-    _check_leverage(h.max(axis=1), np.inf)
-    e = y[:, None] - mu
-    terms = (
-        np.log(posterior.weights)
-        + 0.5 * np.log(2 * np.pi * sig2 / (1 - h))
-        + e**2 / (2 * sig2 * (1 - h))
-    )
-    point = -special.logsumexp(terms, axis=1)
-    lppd_terms = np.log(posterior.weights) + stats.norm.logpdf(e, 0.0, np.sqrt(sig2 + v))
-    lppd = float(np.sum(special.logsumexp(lppd_terms, axis=1)))
-    if len(sig2) > 1:
-        top = terms.max(axis=1)
-        edge = np.maximum(terms[:, 0], terms[:, -1]) > top - 30.0
-        for i in np.flatnonzero(edge):
-            point[i] = _loo_by_evidence(posterior.names[1:], X, y, i, priors)
-    return _loo(point, lppd, "exact (closed form, no refits)")
-
-
-def _check_leverage(h: np.ndarray, df: float) -> None:
-    if np.any(h >= 1 - 1e-12) or df <= 0:
-        i = int(np.argmax(h))
-        raise InputError(
-            f"row {i + 1} of the data alone determines part of the fit: its leave-one-out "
-            "predictive distribution is improper (give priors or more data)"
-        )
-
-
-def _loo_by_evidence(names, X: np.ndarray, y: np.ndarray, i: int, priors) -> float:
-    """log p(y_i | y_-i) = log p(y) - log p(y_-i), from two exact evidences (used rarely).
-
-    The evidence in natural units does not depend on the centring and scaling, so
-    each data set gets its own factor.
-    """
-    from bayes.data.factor import factor_from_arrays
-    from bayes.engine.scaled import scaled_prior
-
-    values = []
-    for rows in (np.arange(len(y)), np.delete(np.arange(len(y)), i)):
-        factor = factor_from_arrays(X[rows], y[rows], names)
-        values.append(log_marginal_likelihood(factor, scaled_prior(factor, priors)).log_ml)
-    return values[0] - values[1]
-
-
-def psis_loo(
-    beta: np.ndarray, sigma: np.ndarray, X: np.ndarray, y: np.ndarray, max_draws: int = 4000
-) -> LooResult:
-    """PSIS-LOO (Pareto-smoothed importance sampling, arviz) from posterior draws.
-
-    Parameters
-    ----------
-    beta : ndarray, shape (chains, draws, p + 1)
-        Natural-unit coefficient draws (intercept first).
-    sigma : ndarray, shape (chains, draws)
-        Noise sd draws.
-    X : ndarray, shape (n, p)
-    y : ndarray, shape (n,)
-    max_draws : int
-        Draws are thinned evenly to at most this many in all.
-
-    Returns
-    -------
-    LooResult
-        With ``pareto_k`` and ``good_k`` (rows above it are flagged).
-    """
-    import warnings
-
-    import arviz as az
-
-    chains, draws, _ = beta.shape
-    step = max(1, int(np.ceil(chains * draws / max_draws)))
-    beta, sigma = beta[:, ::step], sigma[:, ::step]
-    A = _rows(X)
-    y = np.asarray(y, dtype=float)
-    mu = beta @ A.T  # (chains, draws, n)
-    ll = stats.norm.logpdf(y, mu, sigma[..., None])
-    idata = az.from_dict(posterior={"sigma": sigma}, log_likelihood={"y": ll})
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore")  # the Pareto k values are reported instead
-        res = az.loo(idata, pointwise=True)
-    point = np.asarray(res.loo_i, dtype=float)
-    flat = ll.reshape(-1, len(y))
-    lppd = float(np.sum(special.logsumexp(flat, axis=0) - np.log(len(flat))))
-    return _loo(
-        point,
-        lppd,
-        "PSIS-LOO (Pareto-smoothed importance sampling, arviz)",
-        pareto_k=np.asarray(res.pareto_k, dtype=float),
-        good_k=float(res.good_k),
     )

@@ -36,6 +36,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import linalg
 
+from bayes.engine.arrays import ReadOnlyArrays
 from bayes.engine.likelihood import check_prior, data_rows, residual_ss
 from bayes.problem import DataFactor, ScaledPrior
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
@@ -45,8 +46,8 @@ _geqrf, _geqrf_lwork, _trtrs = linalg.get_lapack_funcs(
 )
 
 
-@dataclass(frozen=True)
-class Draws:
+@dataclass(frozen=True, eq=False)
+class Draws(ReadOnlyArrays):
     """Posterior (and prior) draws of the scaled problem.
 
     Attributes
@@ -90,8 +91,8 @@ def inverse_gaussian(rng: np.random.Generator, mean: np.ndarray, shape: np.ndarr
     return np.where(u * (1.0 + 1.0 / ratio) <= 1.0, mean / ratio, mean * ratio)
 
 
-@dataclass(frozen=True)
-class _Model:
+@dataclass(frozen=True, eq=False)
+class _Model(ReadOnlyArrays):
     """Everything a sweep needs, computed once."""
 
     factor: DataFactor

@@ -24,6 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import linalg
 
+from bayes.engine.arrays import ReadOnlyArrays
 from bayes.engine.likelihood import check_prior, data_rows, residual_ss
 from bayes.problem import DataFactor, ScaledPrior
 
@@ -33,8 +34,8 @@ MODE_KIND = "joint mode of (gamma, sigma^2)"
 """Which mode is reported when the noise is unknown: the maximiser of p(gamma, sigma^2 | y)."""
 
 
-@dataclass(frozen=True)
-class ModeResult:
+@dataclass(frozen=True, eq=False)
+class ModeResult(ReadOnlyArrays):
     """A posterior mode of the scaled problem.
 
     Attributes
@@ -60,8 +61,8 @@ class ModeResult:
     gap: float
 
 
-@dataclass(frozen=True)
-class _Profile:
+@dataclass(frozen=True, eq=False)
+class _Profile(ReadOnlyArrays):
     """The quadratic part after eliminating the unpenalised coordinates exactly."""
 
     T_uu: np.ndarray  # (ku, ku) upper triangular

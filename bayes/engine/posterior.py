@@ -1,25 +1,32 @@
-"""The posterior of the coefficients, in natural units, as one immutable object.
+"""The posterior of the coefficients, in natural units, as one immutable object per form.
 
-Exact fits hold a scale mixture of Gaussians over the noise sd: one component
-when the noise is known, a Student-t in the conjugate case, and quadrature
-nodes when the noise is integrated out numerically. Sampled fits hold draws.
-Either way :meth:`Posterior.marginal` gives the exact one-dimensional
-distribution of any contrast ``a' beta``.
+Exact fits give a :class:`MixturePosterior`, a scale mixture of Gaussians over the
+noise sd: one component when the noise is known, a Student-t in the conjugate
+case, and quadrature nodes when the noise is integrated out numerically. Sampled
+fits give a :class:`DrawsPosterior`, which holds the draws. Both are a
+:class:`Posterior` with one interface: ``k``, ``mean``, ``cov``,
+:meth:`~Posterior.marginal` (the exact one-dimensional distribution of any
+contrast ``a' beta``), :meth:`~Posterior.coefficient` and
+:meth:`~Posterior.sigma_quantile`.
 """
 
 from __future__ import annotations
 
+from abc import ABC, abstractmethod
 from dataclasses import dataclass
 
 import numpy as np
 from scipy import stats
 
-from bayes.distributions import Marginal
+from bayes.distributions import Distribution, Empirical, NormalMixture, StudentT
+from bayes.engine.arrays import ReadOnlyArrays
+
+PREDICTIVE_SEED = 20260  # seed of the new-noise draws added to a sampled predictive
 
 
-@dataclass(frozen=True)
-class Posterior:
-    """Posterior of beta = (intercept, slopes) in natural units.
+@dataclass(frozen=True, eq=False, kw_only=True)
+class Posterior(ReadOnlyArrays, ABC):
+    """Posterior of beta = (intercept, slopes) in natural units: what every form shares.
 
     Attributes
     ----------
@@ -28,56 +35,39 @@ class Posterior:
     method : {"exact", "sampled"}
     detail : str
         How it was computed, in words (shown in the output and the report).
-    weights : ndarray, shape (K,)
-        Mixture weights over noise values (exact fits).
-    sigma : ndarray, shape (K,)
-        Noise sd at each component; for a Student-t posterior the t scale s.
-    means : ndarray, shape (K, k)
-    covs : ndarray, shape (K, k, k)
-        Conditional posterior mean and covariance at each component; for a
-        Student-t posterior ``covs[0]`` is the t scale matrix.
-    df : float
-        Degrees of freedom of a Student-t posterior (inf otherwise).
     mode : ndarray, shape (k,)
         The reported posterior mode (see ``mode_kind``).
     mode_kind : str
         Which mode: "posterior mode" (known noise) or "joint mode of (beta, sigma)".
     sigma_mode : float
         Noise sd at the reported mode.
-    draws : ndarray, shape (chains, draws, k), optional
-        Sampled fits.
-    sigma_draws : ndarray, shape (chains, draws), optional
-    sigma_cdf : ndarray, shape (2, G), optional
-        The noise sd's posterior cdf on a fine grid (sigma, cdf) when the noise was
-        integrated out by quadrature.
+    noise_known : bool
     """
 
     names: tuple[str, ...]
     method: str
     detail: str
-    weights: np.ndarray
-    sigma: np.ndarray
-    means: np.ndarray
-    covs: np.ndarray
     mode: np.ndarray
     mode_kind: str
     sigma_mode: float
-    df: float = np.inf
     noise_known: bool = False
-    draws: np.ndarray | None = None
-    sigma_draws: np.ndarray | None = None
-    sigma_cdf: np.ndarray | None = None
 
     @property
     def k(self) -> int:
         return len(self.names)
 
     @property
-    def flat_draws(self) -> np.ndarray:
-        """Draws with chains stacked, shape (chains * draws, k)."""
-        return self.draws.reshape(-1, self.k)
+    @abstractmethod
+    def mean(self) -> np.ndarray:
+        """Posterior mean vector, shape (k,)."""
 
-    def marginal(self, a: np.ndarray, offset: float = 0.0, noise: bool = False) -> Marginal:
+    @property
+    @abstractmethod
+    def cov(self) -> np.ndarray:
+        """Posterior covariance matrix, shape (k, k)."""
+
+    @abstractmethod
+    def marginal(self, a: np.ndarray, offset: float = 0.0, noise: bool = False) -> Distribution:
         """Distribution of ``offset + a' beta`` (plus a new noise term when ``noise``).
 
         Parameters
@@ -87,37 +77,61 @@ class Posterior:
         noise : bool
             Add the observation noise: the posterior predictive of a new response.
         """
+
+    @abstractmethod
+    def sigma_quantile(self, q: float) -> float:
+        """Quantile of the posterior of the noise sd (the value itself when known)."""
+
+    def coefficient(self, j: int) -> Distribution:
+        """Marginal posterior of coefficient j."""
+        return self.marginal(np.eye(self.k)[j])
+
+
+@dataclass(frozen=True, eq=False, kw_only=True)
+class MixturePosterior(Posterior):
+    """An exact posterior: a scale mixture of Gaussians over the noise sd.
+
+    Attributes
+    ----------
+    weights : ndarray, shape (K,)
+        Mixture weights over noise values.
+    sigma : ndarray, shape (K,)
+        Noise sd at each component; for a Student-t posterior the t scale s.
+    means : ndarray, shape (K, k)
+    covs : ndarray, shape (K, k, k)
+        Conditional posterior mean and covariance at each component; for a
+        Student-t posterior ``covs[0]`` is the t scale matrix.
+    df : float
+        Degrees of freedom of a Student-t posterior (inf otherwise).
+    sigma_cdf : ndarray, shape (2, G), optional
+        The noise sd's posterior cdf on a fine grid (sigma, cdf) when the noise was
+        integrated out by quadrature.
+    """
+
+    weights: np.ndarray
+    sigma: np.ndarray
+    means: np.ndarray
+    covs: np.ndarray
+    df: float = np.inf
+    sigma_cdf: np.ndarray | None = None
+
+    def marginal(self, a: np.ndarray, offset: float = 0.0, noise: bool = False) -> Distribution:
         a = np.asarray(a, dtype=float)
-        if self.draws is not None:
-            values = offset + self.flat_draws @ a
-            if noise:
-                rng = np.random.default_rng(20260)
-                values = values + self.sigma_draws.reshape(-1) * rng.standard_normal(values.size)
-            return Marginal("draws", np.ones(1), np.zeros(1), np.ones(1), draws=values)
         locs = offset + self.means @ a
         var = np.einsum("i,kij,j->k", a, self.covs, a)
         if noise:
             var = var + self.sigma**2
         scales = np.sqrt(np.maximum(var, 0.0))
-        kind = "t" if np.isfinite(self.df) else ("normal" if len(locs) == 1 else "mixture")
-        return Marginal(kind, self.weights, locs, scales, df=self.df)
-
-    def coefficient(self, j: int) -> Marginal:
-        """Marginal posterior of coefficient j."""
-        return self.marginal(np.eye(self.k)[j])
+        if np.isfinite(self.df):
+            return StudentT(float(locs[0]), float(scales[0]), self.df)
+        return NormalMixture(self.weights, locs, scales)
 
     @property
     def mean(self) -> np.ndarray:
-        """Posterior mean vector, shape (k,)."""
-        if self.draws is not None:
-            return self.flat_draws.mean(axis=0)
         return self.weights @ self.means
 
     @property
     def cov(self) -> np.ndarray:
-        """Posterior covariance matrix, shape (k, k)."""
-        if self.draws is not None:
-            return np.cov(self.flat_draws, rowvar=False)
         if np.isfinite(self.df):
             return self.covs[0] * self.df / (self.df - 2) if self.df > 2 else self.covs[0] * np.inf
         dev = self.means - self.mean  # about the mean: no cancellation
@@ -126,11 +140,8 @@ class Posterior:
         )
 
     def sigma_quantile(self, q: float) -> float:
-        """Quantile of the posterior of the noise sd (the value itself when known)."""
         if self.noise_known:
             return float(self.sigma[0])
-        if self.sigma_draws is not None:
-            return float(np.quantile(self.sigma_draws, q))
         if np.isfinite(self.df):
             # sigma^2 ~ InvGamma(df/2, df s^2/2): the conjugate case
             s2 = stats.invgamma.ppf(q, self.df / 2, scale=self.df * self.sigma[0] ** 2 / 2)
@@ -141,3 +152,54 @@ class Posterior:
         order = np.argsort(self.sigma)
         cum = np.cumsum(self.weights[order])
         return float(np.interp(q, cum - self.weights[order] / 2, self.sigma[order]))
+
+
+@dataclass(frozen=True, eq=False, kw_only=True)
+class DrawsPosterior(Posterior):
+    """A sampled posterior: the draws of the coefficients and of the noise sd.
+
+    Attributes
+    ----------
+    draws : ndarray, shape (chains, draws, k)
+        Natural units.
+    sigma_draws : ndarray, shape (chains, draws)
+        Noise sd draws (constant when the noise sd is known).
+    """
+
+    draws: np.ndarray
+    sigma_draws: np.ndarray
+
+    @property
+    def flat_draws(self) -> np.ndarray:
+        """Draws with chains stacked, shape (chains * draws, k)."""
+        return self.draws.reshape(-1, self.k)
+
+    @property
+    def sigma(self) -> np.ndarray:
+        """Noise sd of each draw with chains stacked, shape (chains * draws,).
+
+        Paired with :attr:`flat_draws`, as ``sigma`` of a :class:`MixturePosterior` is
+        with its components; every value is the known sd when the noise is known.
+        """
+        return self.sigma_draws.reshape(-1)
+
+    def marginal(self, a: np.ndarray, offset: float = 0.0, noise: bool = False) -> Distribution:
+        a = np.asarray(a, dtype=float)
+        values = offset + self.flat_draws @ a
+        if noise:
+            rng = np.random.default_rng(PREDICTIVE_SEED)
+            values = values + self.sigma * rng.standard_normal(values.size)
+        return Empirical(values)
+
+    @property
+    def mean(self) -> np.ndarray:
+        return self.flat_draws.mean(axis=0)
+
+    @property
+    def cov(self) -> np.ndarray:
+        return np.cov(self.flat_draws, rowvar=False)
+
+    def sigma_quantile(self, q: float) -> float:
+        if self.noise_known:
+            return float(self.sigma[0])
+        return float(np.quantile(self.sigma_draws, q))

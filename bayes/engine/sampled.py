@@ -8,9 +8,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 
-import numpy as np
-
-from bayes.engine.posterior import Posterior
+from bayes.engine.posterior import DrawsPosterior
 from bayes.problem import DataFactor, ScaledPrior, to_natural
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
 
@@ -24,13 +22,13 @@ def sampled_posterior(
     sampler: SamplerSettings = DEFAULT_SAMPLER,
     *,
     progress: Callable[[int, int], None] | None = None,
-) -> tuple[Posterior, dict[str, list], tuple[str, ...], object]:
+) -> tuple[DrawsPosterior, dict[str, list], tuple[str, ...], object]:
     """Sample the posterior and compute its mode and convergence diagnostics.
 
     Returns
     -------
-    posterior : Posterior
-        With ``draws`` (chains, draws, k) in natural units.
+    posterior : DrawsPosterior
+        The draws (chains, draws, k) in natural units.
     columns : dict
         Per-coefficient ``r_hat``, ``ess_bulk``, ``ess_tail`` for the table.
     notes : tuple of str
@@ -52,18 +50,13 @@ def sampled_posterior(
     nat = to_natural(factor, d.gamma)
     mode = posterior_mode(factor, prior)
     known = prior.noise.known
-    flat = nat.reshape(-1, len(names))
-    post = Posterior(
-        names,
-        "sampled",
-        f"Gibbs sampling, {sampler.describe()}",
-        np.ones(1),
-        np.array([float(np.median(d.sigma))]),
-        flat.mean(axis=0)[None],
-        np.cov(flat, rowvar=False)[None],
-        to_natural(factor, mode.gamma),
-        "posterior mode" if known else MODE_KIND.replace("gamma", "beta"),
-        float(mode.sigma),
+    post = DrawsPosterior(
+        names=names,
+        method="sampled",
+        detail=f"Gibbs sampling, {sampler.describe()}",
+        mode=to_natural(factor, mode.gamma),
+        mode_kind="posterior mode" if known else MODE_KIND.replace("gamma", "beta"),
+        sigma_mode=float(mode.sigma),
         noise_known=known,
         draws=nat,
         sigma_draws=d.sigma,

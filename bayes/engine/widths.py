@@ -36,21 +36,23 @@ mean and variance (``beta = offset + G eta + H eps``, natural units).
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import numpy as np
 from scipy import linalg, special, stats
 
-from bayes.engine.exact import _TAIL, _quadrature
-from bayes.engine.likelihood import check_identified, coefficient_names, data_rows
-from bayes.engine.posterior import Posterior
+from bayes.distributions import mixture_quantile
+from bayes.engine.arrays import ReadOnlyArrays
+from bayes.engine.likelihood import coefficient_names
+from bayes.engine.posterior import MixturePosterior
+from bayes.engine.quadrature import StackedRows, log_sigma_quadrature
 from bayes.problem import DataFactor, ScaledPrior, natural_transform
 
 _RANK_TOL = 1e-12  # singular values below this times the largest carry no data
 
 
-@dataclass(frozen=True)
-class WidthPath:
+@dataclass(frozen=True, eq=False)
+class WidthPath(ReadOnlyArrays):
     """The decomposed Gaussian-prior problem (see the module docstring).
 
     Attributes
@@ -62,7 +64,7 @@ class WidthPath:
     n : float
         Number of rows.
     u0 : float
-        Starting point (log sigma) of the noise quadrature, as in :mod:`bayes.engine.exact`.
+        Starting point (log sigma) of the search for the peak of the noise density.
     s, z, t : ndarray, shape (r,)
         Singular values (zero beyond the data's rank), data and prior centre in the
         eigen directions.
@@ -111,12 +113,11 @@ class WidthPath:
         ------
         InputError
             When a flat prior leaves a direction the data cannot determine.
+        ValueError
+            When a prior is neither flat nor normal, or none is normal.
         """
-        if not prior.gaussian_only:
-            raise ValueError("WidthPath handles flat and normal priors only")
-        check_identified(factor, prior)
-        D, d = data_rows(factor)
-        W = prior.root_precision
+        rows = StackedRows.checked(factor, prior, caller="WidthPath")
+        D, d, W = rows.D, rows.d, rows.W
         k, r = D.shape[1], W.shape[0]
         if r == 0:
             raise ValueError("no informative prior to rescale")
@@ -188,15 +189,6 @@ class WidthPath:
         var = var_eta @ (self.G**2).T + s2 * np.sum(self.H**2, axis=1)
         return means, var
 
-    def covariances(self, sigma: np.ndarray, lam: float) -> tuple[np.ndarray, np.ndarray]:
-        """Full conditional means (K, k) and covariances (K, k, k), natural units."""
-        means, _ = self.conditional(sigma, lam)
-        s2 = np.asarray(sigma, dtype=float) ** 2
-        var_eta = s2[:, None] / (self.s**2 + lam * s2[:, None])
-        covs = np.einsum("ir,kr,jr->kij", self.G, var_eta, self.G)
-        covs += s2[:, None, None] * (self.H @ self.H.T)
-        return means, covs
-
     def prior_share(self, sigma: np.ndarray, lam: float) -> np.ndarray:
         """Diagonal of ``Sigma_post P_prior`` (natural units), shape (K, k).
 
@@ -251,10 +243,8 @@ class WidthPath:
     def noise_mixture(self, lam: float, alpha: float = 1.0) -> tuple[np.ndarray, np.ndarray]:
         """Weights and noise sd values of the posterior's scale mixture.
 
-        Known noise: one component. Otherwise the Gauss-Legendre quadrature of
-        :mod:`bayes.engine.exact` over log sigma, without the nodes where the density is below
-        exp(-_TAIL) of its peak: the quadrature covers only where it is above, and such a
-        node's weight is of order 1e-20 or less.
+        Known noise: one component. Otherwise the Gauss-Legendre quadrature over log sigma
+        of :mod:`bayes.engine.quadrature`, trimmed (:meth:`NoiseQuadrature.mixture`).
 
         Returns
         -------
@@ -264,32 +254,20 @@ class WidthPath:
         """
         if self.known:
             return np.ones(1), np.array([self.prior.noise.sd])
-        nodes, gl, logf = _quadrature(
+        quad = log_sigma_quadrature(
             lambda u: self.log_density(u, lam, alpha), self.u0, vectorised=True
         )
-        keep = logf >= logf.max() - _TAIL
-        weights = gl[keep] * np.exp(logf[keep] - logf.max())
-        return weights / weights.sum(), np.exp(nodes[keep])
-
-    def posterior(self, lam: float) -> Posterior:
-        """The full :class:`Posterior` at prior precision multiplier ``lam`` (natural units)."""
-        weights, sigma = self.noise_mixture(lam)
-        means, covs = self.covariances(sigma, lam)
-        detail = "Gaussian posterior, noise sd known" if self.known else "noise sd integrated out"
-        mode = weights @ means
-        return Posterior(
-            self.names, "exact", detail, weights, sigma, means, covs, mode, "posterior mean",
-            float(sigma[np.argmax(weights)]), noise_known=self.known,
-        )  # fmt: skip
+        return quad.mixture(trim=True)
 
 
-@dataclass(frozen=True)
-class CoefficientMixtures:
+@dataclass(frozen=True, eq=False)
+class CoefficientMixtures(ReadOnlyArrays):
     """Every coefficient's marginal posterior as a scale mixture of normals (vectorised).
 
-    The same exact forms as :class:`bayes.distributions.Marginal`, for all k coefficients
-    at once: component ``c`` of coefficient ``j`` is ``N(locs[j, c], scales[j, c]^2)``
-    with weight ``weights[c]``; a finite ``df`` means one Student-t component.
+    The same exact forms as :class:`bayes.distributions.NormalMixture` and
+    :class:`bayes.distributions.StudentT`, for all k coefficients at once: component ``c``
+    of coefficient ``j`` is ``N(locs[j, c], scales[j, c]^2)`` with weight ``weights[c]``;
+    a finite ``df`` means one Student-t component.
 
     Attributes
     ----------
@@ -305,8 +283,8 @@ class CoefficientMixtures:
     df: float = np.inf
 
     @classmethod
-    def from_posterior(cls, posterior: Posterior) -> CoefficientMixtures:
-        """The marginals of an exact :class:`Posterior`."""
+    def from_posterior(cls, posterior: MixturePosterior) -> CoefficientMixtures:
+        """The marginals of an exact posterior."""
         sd = np.sqrt(np.maximum(np.einsum("kjj->kj", posterior.covs), 0.0))
         return cls(posterior.weights, posterior.means.T, sd.T, posterior.df)
 
@@ -365,31 +343,4 @@ class CoefficientMixtures:
         """The q-quantile of every coefficient, shape (k,), to about 1e-13 relative."""
         if np.isfinite(self.df):
             return self.locs[:, 0] + self.scales[:, 0] * stats.t.ppf(q, self.df)
-        zq = special.ndtri(q)
-        if self.locs.shape[1] == 1:
-            return self.locs[:, 0] + self.scales[:, 0] * zq
-        if q > 0.5:  # the lower tail of -beta: its CDF resolves 1 - q to full precision
-            return -replace(self, locs=-self.locs).quantile(1.0 - q)
-        # Safeguarded Newton: the quantile lies between the components' own quantiles.
-        each = self.locs + zq * self.scales
-        lo, hi = each.min(axis=1), each.max(axis=1)
-        x = each @ self.weights
-        for _ in range(200):
-            z = (x[:, None] - self.locs) / self.scales
-            F = special.ndtr(z) @ self.weights - q
-            dens = (np.exp(-0.5 * z**2) / (np.sqrt(2 * np.pi) * self.scales)) @ self.weights
-            lo = np.where(F < 0, x, lo)
-            hi = np.where(F > 0, x, hi)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                step = np.where(dens > 0, F / dens, np.inf)
-            new = x - step
-            # Closed bracket: a converged step rounds to x, which may be a bracket end;
-            # sending it to the midpoint would restart the search by bisection.
-            outside = ~((new >= lo) & (new <= hi))
-            new = np.where(outside, 0.5 * (lo + hi), new)
-            tol = 1e-15 * (np.abs(new) + self.scales.min(axis=1))
-            done = (np.abs(new - x) <= tol) | (hi - lo <= tol)
-            x = new
-            if np.all(done):
-                break
-        return x
+        return mixture_quantile(self.weights, self.locs, self.scales, q)
