@@ -16,16 +16,51 @@ from pathlib import Path
 
 import numpy as np
 
+from bayes.compare_wording import cautions, comparison_text, readings
 from bayes.data.design import Design
 from bayes.engine.evidence import Evidence, bridge_sampling, log_marginal_likelihood
 from bayes.engine.loo import LooResult, exact_loo, psis_loo
 from bayes.errors import InputError
-from bayes.results.format import fmt, format_table
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
 
-# Kass and Raftery (1995), section 3.2: evidence against the other set, on 2 ln B.
-KASS_RAFTERY = ((2.0, "not worth more than a bare mention"), (6.0, "positive"),
-                (10.0, "strong"), (math.inf, "very strong"))  # fmt: skip
+
+@dataclass(frozen=True)
+class LooSummary:
+    """A prior set's leave-one-out numbers, as the comparison keeps and saves them.
+
+    Attributes
+    ----------
+    elpd : float
+        Expected log predictive density, ``sum_i log p(y_i | y_-i)``.
+    se : float
+        Its standard error (nan when there are too few rows for one).
+    p_loo : float
+        Effective number of parameters.
+    method : str
+        How it was computed, in words.
+    pareto_k_max : float or None
+        Largest Pareto k (PSIS-LOO only).
+    bad_rows : tuple of int
+        Positions (from 0) of the rows whose Pareto k exceeds ``good_k``.
+    good_k : float or None
+        The Pareto k above which a row's estimate is unreliable (PSIS-LOO only; None also for a
+        comparison saved before it was kept).
+    """
+
+    elpd: float
+    se: float
+    p_loo: float
+    method: str
+    pareto_k_max: float | None = None
+    bad_rows: tuple[int, ...] = ()
+    good_k: float | None = None
+
+    @classmethod
+    def of(cls, loo: LooResult) -> LooSummary:
+        """The summary of an engine result (:class:`bayes.engine.evidence.LooResult`)."""
+        k_max = None if loo.pareto_k is None else float(loo.pareto_k.max())
+        return cls(loo.elpd, loo.se, loo.p_loo, loo.method, k_max,
+                   tuple(int(i) for i in loo.bad_rows), loo.good_k)  # fmt: skip
 
 
 @dataclass(frozen=True)
@@ -39,11 +74,16 @@ class SetResult:
     title : str or None
     method : {"exact", "sampled"}
     evidence : Evidence
-    loo : LooResult
+    loo : LooSummary
     flat : tuple of str
         Coefficients with a flat prior.
     jeffreys : bool
         Jeffreys prior on the noise.
+    elpd_diff : float
+        elpd of this set minus that of the set that predicts the left-out rows best (0 for it).
+    elpd_diff_se : float or None
+        Standard error of ``elpd_diff``, ``sqrt(n) sd(pointwise differences)`` (None with
+        fewer than two rows).
     r_hat : float or None
         Largest R-hat of the coefficient draws (sampled sets).
     """
@@ -52,24 +92,80 @@ class SetResult:
     title: str | None
     method: str
     evidence: Evidence
-    loo: LooResult
+    loo: LooSummary
     flat: tuple[str, ...]
     jeffreys: bool
+    elpd_diff: float
+    elpd_diff_se: float | None
     r_hat: float | None = None
 
     @property
     def label(self) -> str:
         return Path(self.path).name
 
+    @classmethod
+    def from_dict(cls, doc: dict) -> SetResult:
+        """One set back from its object in ``compare.json`` (see :meth:`Comparison.to_dict`)."""
+        good_k = doc.get("pareto_k_good")  # absent from files saved before it was kept
+        loo = LooSummary(
+            float(doc["elpd_loo"]), _nan_for_none(doc["elpd_loo_se"]), float(doc["p_loo"]),
+            doc["loo_method"], doc["pareto_k_max"],
+            tuple(int(i) - 1 for i in doc["pareto_k_bad_rows"]),
+            None if good_k is None else float(good_k),
+        )  # fmt: skip
+        evidence = Evidence(float(doc["log_marginal_likelihood"]),
+                            float(doc["log_marginal_likelihood_mc_se"]),
+                            doc["evidence_method"])  # fmt: skip
+        return cls(
+            doc["path"], doc["title"], doc["method"], evidence, loo, tuple(doc["flat"]),
+            bool(doc["jeffreys_noise"]), float(doc["elpd_diff_vs_best"]), doc["elpd_diff_se"],
+            doc["r_hat_max"],
+        )  # fmt: skip
+
+    def to_dict(self, probability: float | None, log_bayes_factor: float | None) -> dict:
+        """Its object in ``compare.json``, given what the comparison says of it."""
+        return {
+            "path": self.path,
+            "title": self.title,
+            "method": self.method,
+            "log_marginal_likelihood": self.evidence.log_ml,
+            "log_marginal_likelihood_mc_se": self.evidence.mc_se,
+            "evidence_method": self.evidence.method,
+            "posterior_probability": probability,
+            "log_bayes_factor_vs_best": log_bayes_factor,
+            "elpd_loo": self.loo.elpd,
+            "elpd_loo_se": _finite(self.loo.se),
+            "p_loo": self.loo.p_loo,
+            "loo_method": self.loo.method,
+            "elpd_diff_vs_best": self.elpd_diff,
+            "elpd_diff_se": _finite(self.elpd_diff_se),
+            "pareto_k_max": self.loo.pareto_k_max,
+            "pareto_k_bad_rows": [i + 1 for i in self.loo.bad_rows],
+            "pareto_k_good": self.loo.good_k,
+            "flat": list(self.flat),
+            "jeffreys_noise": self.jeffreys,
+            "r_hat_max": self.r_hat,
+        }
+
 
 @dataclass(frozen=True)
 class Comparison:
-    """The comparison of several prior sets on one design; summarises itself."""
+    """The comparison of several prior sets on one design (numbers; the words are made by
+    :mod:`bayes.compare_wording`)."""
 
     response: str
     n: int
     sets: tuple[SetResult, ...]
     provenance: dict
+
+    @classmethod
+    def from_dict(cls, doc: dict) -> Comparison:
+        """The comparison back from its JSON object (``compare.json``), as :meth:`to_dict`
+        wrote it; the derived fields (probabilities, readings, cautions) are derived again."""
+        sets = tuple(SetResult.from_dict(s) for s in doc["sets"])
+        if len(sets) < 2:
+            raise ValueError(f"a comparison needs at least two sets, got {len(sets)}")
+        return cls(doc["response"], int(doc["n"]), sets, dict(doc["provenance"]))
 
     @property
     def log_ml(self) -> np.ndarray:
@@ -90,6 +186,13 @@ class Comparison:
         return np.exp(z) / np.sum(np.exp(z))
 
     @property
+    def log_bayes_factors_vs_best(self) -> np.ndarray | None:
+        """``ln B`` of each set against the set with the most evidence (None if not comparable)."""
+        if not self.comparable:
+            return None
+        return self.log_ml - self.log_ml.max()
+
+    @property
     def best(self) -> int:
         return int(np.argmax(self.log_ml))
 
@@ -97,121 +200,14 @@ class Comparison:
     def best_loo(self) -> int:
         return int(np.argmax([s.loo.elpd for s in self.sets]))
 
-    def readings(self) -> list[str]:
-        """The best set against each other one, on the Kass and Raftery (1995) scale."""
-        if not self.comparable:
-            return []
-        b = self.sets[self.best]
-        out = []
-        for s in self.sets:
-            if s is b:
-                continue
-            two_ln_b = 2 * (b.evidence.log_ml - s.evidence.log_ml)
-            err = 2 * math.hypot(b.evidence.mc_se, s.evidence.mc_se)
-            pm = f" +- {fmt(err, 2)} (Monte Carlo sd)" if err > 0 else ""
-            out.append(
-                f"{b.label} against {s.label}: 2 ln B = {fmt(two_ln_b, 3)}{pm}, Bayes factor "
-                f"{fmt(math.exp(min(two_ln_b / 2, 700)), 3)}: {kass_raftery(two_ln_b)} "
-                "(Kass and Raftery, 1995)"
-            )
-        return out
-
-    def cautions(self) -> list[str]:
-        """What the numbers do not say."""
-        out = [
-            "A Bayes factor depends on the prior widths: widening a prior the data do not need "
-            "lowers its set's evidence even when the fit hardly changes. Read it beside the "
-            "width sweep (bayes sweep) and the leave-one-out comparison, which depends much "
-            "less on the widths."
-        ]
-        first = self.sets[0]
-        improper = [*first.flat, *(["the noise sd (Jeffreys prior)"] if first.jeffreys else [])]
-        if self.comparable and improper:
-            density = "flat priors have density 1 per natural unit of their coefficient" + (
-                ", the Jeffreys prior 1/sigma^2" if first.jeffreys else ""
-            )
-            out.append(
-                f"Improper parts shared by all sets ({', '.join(improper)}): {density}, so every "
-                "log marginal likelihood here carries the same arbitrary constant: only "
-                "differences between the sets are meaningful."
-            )
-        if not self.comparable:
-            diff = [
-                f"{s.label}: flat on {', '.join(s.flat) or 'nothing'}"
-                + ("; Jeffreys noise prior" if s.jeffreys else "")
-                for s in self.sets
-            ]
-            out.append(
-                "NOT COMPARABLE by the evidence: the sets differ in their improper parts ("
-                + "; ".join(diff)
-                + "), so a Bayes factor between them depends on the arbitrary scale of a flat "
-                "prior and none is given. Compare them by leave-one-out, or give every set "
-                "the same flat parts."
-            )
-        for s in self.sets:
-            if not s.evidence.exact:
-                out.append(
-                    f"{s.label}: the log marginal likelihood is {s.evidence.method}, Monte "
-                    f"Carlo sd {fmt(s.evidence.mc_se, 2)}."
-                )
-            if s.r_hat is not None and s.r_hat > 1.01:
-                out.append(
-                    f"{s.label}: the chains have not mixed (largest R-hat {s.r_hat:.3f} > 1.01): "
-                    "run more draws before trusting its numbers."
-                )
-            bad = s.loo.bad_rows
-            if len(bad):
-                out.append(
-                    f"{s.label}: PSIS-LOO is unreliable for {len(bad)} row(s) (Pareto k above "
-                    f"{s.loo.good_k:.2f}; data rows {', '.join(str(i + 1) for i in bad[:10])}): "
-                    "those rows sway the fit strongly."
-                )
-        return out
-
-    def loo_lines(self) -> list[str]:
-        b = self.sets[self.best_loo]
-        out = [f"Leave-one-out: {b.label} predicts the left-out rows best."]
-        for s in self.sets:
-            if s is b:
-                continue
-            d = s.loo.pointwise - b.loo.pointwise
-            se = math.sqrt(len(d)) * float(np.std(d, ddof=1)) if len(d) > 1 else math.nan
-            out.append(f"  {s.label}: elpd difference {fmt(float(d.sum()), 3)} (se {fmt(se, 2)})")
-        return out
-
     def to_dict(self) -> dict:
         """One JSON-ready object (``bayes compare --format json``, ``compare.json``)."""
-        probs = self.probabilities
-        best = self.sets[self.best_loo]
-        sets = []
-        for i, s in enumerate(self.sets):
-            d = s.loo.pointwise - best.loo.pointwise
-            se_d = math.sqrt(len(d)) * float(np.std(d, ddof=1)) if len(d) > 1 else None
-            sets.append(
-                {
-                    "path": s.path,
-                    "title": s.title,
-                    "method": s.method,
-                    "log_marginal_likelihood": s.evidence.log_ml,
-                    "log_marginal_likelihood_mc_se": s.evidence.mc_se,
-                    "evidence_method": s.evidence.method,
-                    "posterior_probability": None if probs is None else float(probs[i]),
-                    "log_bayes_factor_vs_best": (
-                        float(s.evidence.log_ml - self.log_ml.max()) if self.comparable else None
-                    ),
-                    "elpd_loo": s.loo.elpd,
-                    "elpd_loo_se": _finite(s.loo.se),
-                    "p_loo": s.loo.p_loo,
-                    "loo_method": s.loo.method,
-                    "elpd_diff_vs_best": float(d.sum()),
-                    "elpd_diff_se": _finite(se_d),
-                    "pareto_k_max": None if s.loo.pareto_k is None else float(s.loo.pareto_k.max()),
-                    "pareto_k_bad_rows": [int(i) + 1 for i in s.loo.bad_rows],
-                    "flat": list(s.flat),
-                    "jeffreys_noise": s.jeffreys,
-                    "r_hat_max": s.r_hat,
-                }
-            )
+        probs, log_b = self.probabilities, self.log_bayes_factors_vs_best
+        sets = [
+            s.to_dict(None if probs is None else float(probs[i]),
+                      None if log_b is None else float(log_b[i]))
+            for i, s in enumerate(self.sets)
+        ]  # fmt: skip
         lml = self.log_ml
         return {
             "response": self.response,
@@ -222,53 +218,40 @@ class Comparison:
             if self.comparable
             else None,
             "best_by_evidence": self.sets[self.best].path if self.comparable else None,
-            "best_by_loo": best.path,
-            "readings": self.readings(),
-            "cautions": self.cautions(),
+            "best_by_loo": self.sets[self.best_loo].path,
+            "readings": readings(self),
+            "cautions": cautions(self),
             "provenance": self.provenance,
         }
 
     def text(self) -> str:
         """The terminal form."""
-        probs = self.probabilities
-        top = self.log_ml.max()
-        headers = ["prior set", "log evidence", "MC sd", "2 ln B vs best", "P(set | data)",
-                   "elpd_loo", "se", "p_loo"]  # fmt: skip
-        body = []
-        for i, s in enumerate(self.sets):
-            body.append([
-                s.label, fmt(s.evidence.log_ml, 7),
-                "exact" if s.evidence.exact else fmt(s.evidence.mc_se, 2),
-                fmt(2 * (top - s.evidence.log_ml), 4) if self.comparable else "-",
-                f"{probs[i]:.3f}" if probs is not None else "-",
-                fmt(s.loo.elpd, 6), fmt(s.loo.se, 3), fmt(s.loo.p_loo, 3),
-            ])  # fmt: skip
-        lines = [
-            f"Prior sets compared on '{self.response}' (n = {self.n}; the same model and data "
-            "for each set; posterior probabilities under equal prior odds).",
-            "",
-            format_table(headers, body),
-            "",
-        ]
-        readings = self.readings()
-        if readings:
-            lines.append("Evidence, on the scale of Kass and Raftery (1995):")
-            lines += [f"  {r}" for r in readings]
-        lines += self.loo_lines()
-        lines += [f"Note: {c}" for c in self.cautions()]
-        return "\n".join(lines)
+        return comparison_text(self)
 
 
 def _finite(x):
     return None if x is None or not math.isfinite(x) else float(x)
 
 
-def kass_raftery(two_ln_b: float) -> str:
-    """The plain-language strength of evidence for ``2 ln B`` >= 0 (Kass and Raftery, 1995)."""
-    for bound, words in KASS_RAFTERY:
-        if two_ln_b < bound:
-            return words
-    return KASS_RAFTERY[-1][1]
+def _nan_for_none(x) -> float:
+    return math.nan if x is None else float(x)
+
+
+def _against_best(fits: list[tuple]) -> tuple[SetResult, ...]:
+    """The sets, each with its elpd difference to the set that predicts best.
+
+    ``fits`` holds, per set, the arguments of :class:`SetResult` with the engine's
+    :class:`bayes.engine.evidence.LooResult` in place of the summary and without the
+    differences.
+    """
+    best = max((fit[4] for fit in fits), key=lambda loo: loo.elpd)
+    out = []
+    for path, title, method, ev, loo, flat, jeffreys, r_hat in fits:
+        d = loo.pointwise - best.pointwise
+        se = math.sqrt(len(d)) * float(np.std(d, ddof=1)) if len(d) > 1 else None
+        out.append(SetResult(path, title, method, ev, LooSummary.of(loo), flat, jeffreys,
+                             float(d.sum()), se, r_hat))  # fmt: skip
+    return tuple(out)
 
 
 def compare_priors(
@@ -304,11 +287,11 @@ def compare_priors(
 
     if len(prior_sets) < 2:
         raise InputError(
-            "give at least two prior files to compare (--priors a.toml --priors b.toml)"
+            f"prior_sets must hold at least two prior files to compare, got {len(prior_sets)}"
         )
     factor = factor_from_arrays(design.X, design.y, design.names)
     names = ("intercept", *design.names)
-    results = []
+    fits = []  # the arguments of each SetResult, the engine's LooResult for its summary
     for ps in prior_sets:
         if design.terms is not None:
             design.terms.check_priors(ps)
@@ -316,14 +299,15 @@ def compare_priors(
         flat = tuple(c for c, f in zip(names, scaled.family, strict=True) if f == "flat")
         label = ps.path or "priors"
         if method == "exact" and not scaled.gaussian_only:
-            raise InputError(f"{label}: priors that are not Gaussian need --method sample or auto")
+            raise InputError(
+                f"{label}: priors that are not Gaussian need method 'sample' or 'auto', "
+                f"got method {method!r}"
+            )
         if method != "sample" and scaled.gaussian_only:
             post = exact_posterior(factor, scaled)
             ev = log_marginal_likelihood(factor, scaled)
             loo = exact_loo(post, design.X, design.y, ps)
-            results.append(
-                SetResult(label, ps.title, "exact", ev, loo, flat, scaled.noise.jeffreys)
-            )
+            fits.append((label, ps.title, "exact", ev, loo, flat, scaled.noise.jeffreys, None))
             continue
         import arviz as az
 
@@ -338,7 +322,5 @@ def compare_priors(
             if sampler.chains > 1
             else None
         )
-        results.append(
-            SetResult(label, ps.title, "sampled", ev, loo, flat, scaled.noise.jeffreys, r_hat)
-        )
-    return Comparison(design.response, design.n, tuple(results), provenance or {})
+        fits.append((label, ps.title, "sampled", ev, loo, flat, scaled.noise.jeffreys, r_hat))
+    return Comparison(design.response, design.n, _against_best(fits), provenance or {})

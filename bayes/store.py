@@ -12,9 +12,10 @@ written beside its final place and swapped in only when complete.
 from __future__ import annotations
 
 import json
+from collections.abc import Callable
 from dataclasses import replace
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, TypeVar
 
 import numpy as np
 
@@ -29,6 +30,7 @@ if TYPE_CHECKING:  # annotations only: loading a fit needs neither
     from bayes.sensitivity.sweep import SweepResult
 
 FILES = ("fit.json", "posterior.npz", "priors.toml")
+_T = TypeVar("_T")
 
 
 def save_fit(result: FitResult, folder: str | Path) -> Path:
@@ -195,13 +197,7 @@ def load_sweep(folder: str | Path) -> SweepResult | None:
     """
     from bayes.sensitivity.sweep import SweepResult
 
-    path = Path(folder) / "sweep.json"
-    if not path.exists():
-        return None
-    try:
-        return SweepResult.from_dict(json.loads(path.read_text()))
-    except (ValueError, KeyError, TypeError, IndexError) as e:
-        raise InputError(f"{path}: not a readable sweep ({type(e).__name__}: {e})") from None
+    return load_saved(Path(folder) / "sweep.json", SweepResult.from_dict, what="sweep")
 
 
 # ----------------------------------------------------------------------------- compare.json
@@ -220,3 +216,39 @@ def save_comparison(comparison: Comparison, fit_dir: str | Path) -> Path:
     target = compare_path(fit_dir)
     atomic_write_text(target, json.dumps(comparison.to_dict(), indent=2, allow_nan=False) + "\n")
     return target
+
+
+def load_comparison(folder: str | Path) -> Comparison | None:
+    """The comparison saved in ``folder/compare.json`` by :func:`save_comparison`, or None
+    when none is; an InputError when the file is there but not a readable comparison."""
+    from bayes.compare import Comparison
+
+    return load_saved(Path(folder) / "compare.json", Comparison.from_dict, what="comparison")
+
+
+def load_saved(path: Path, from_dict: Callable[[dict], _T], *, what: str) -> _T | None:
+    """The object saved as JSON in ``path`` (sweep.json, compare.json), or None when absent.
+
+    Parameters
+    ----------
+    path : Path
+    from_dict : callable
+        Makes the object from the JSON document (``SweepResult.from_dict``).
+    what : str
+        What the file holds, for the message ("sweep").
+
+    Raises
+    ------
+    InputError
+        When the file is not UTF-8 JSON or not a readable ``what``.
+    """
+    if not path.exists():
+        return None
+    try:
+        doc = json.loads(path.read_text(encoding="utf-8"))
+    except (json.JSONDecodeError, UnicodeDecodeError) as e:
+        raise InputError(f"{path}: not readable JSON ({e})") from None
+    try:
+        return from_dict(doc)
+    except (ValueError, KeyError, TypeError, IndexError) as e:
+        raise InputError(f"{path}: not a readable {what} ({type(e).__name__}: {e})") from None

@@ -10,10 +10,10 @@ from click.testing import CliRunner
 from conftest import DEMO, GAUSSIAN_PRIORS
 from scipy import integrate, linalg, optimize, special, stats
 
-import bayes
 import bayes.api
 from bayes.cli.app import main
-from bayes.compare import compare_priors, kass_raftery
+from bayes.compare import compare_priors
+from bayes.compare_wording import kass_raftery
 from bayes.data.design import build_design
 from bayes.data.factor import factor_from_arrays
 from bayes.engine.evidence import bridge_sampling, log_marginal_likelihood
@@ -527,3 +527,51 @@ def test_sampled_comparison_agrees_with_the_exact_one(demo_frame, tmp_path):
         assert abs(s.evidence.log_ml - e.evidence.log_ml) < 3 * s.evidence.mc_se
         assert abs(s.loo.elpd - e.loo.elpd) < s.loo.se
         assert s.r_hat < 1.01
+
+
+def test_a_saved_comparison_loads_back_the_same(demo_frame, tmp_path):
+    # save_comparison then load_comparison: the same JSON object and the same terminal text,
+    # for exact sets and for sampled ones (PSIS-LOO with unreliable rows and their threshold).
+    from bayes.store import load_comparison, save_comparison
+
+    design = build_design(demo_frame, "strength")
+    fit_dir = tmp_path / "fit"
+    fit_dir.mkdir()
+    (fit_dir / "fit.json").write_text("{}")  # save_comparison only needs a fit folder
+    assert load_comparison(fit_dir) is None
+    gaussian = [bayes.api.load_priors(path) for path in _gaussian_demo_sets(tmp_path)]
+    laplace = [bayes.api.load_priors(DEMO / "priors.toml"), gaussian[1]]
+    small = SamplerSettings(chains=2, draws=150, warmup=100, seed=5)
+    for sets, method in ((gaussian, "auto"), (laplace, "sample")):
+        comparison = compare_priors(design, sets, method=method, sampler=small)
+        save_comparison(comparison, fit_dir)
+        loaded = load_comparison(fit_dir)
+        assert loaded.to_dict() == comparison.to_dict()
+        assert loaded.text() == comparison.text()
+    assert any(s.loo.bad_rows for s in comparison.sets)  # the Pareto k caution was compared
+    assert "Pareto k above 0." in comparison.text()
+
+
+def test_a_comparison_saved_before_the_pareto_threshold_was_kept_still_loads(demo_frame):
+    from bayes.compare import Comparison
+
+    design = build_design(demo_frame, "strength")
+    sets = [bayes.api.load_priors(DEMO / "priors.toml"), bayes.api.load_priors(GAUSSIAN_PRIORS)]
+    small = SamplerSettings(chains=2, draws=150, warmup=100, seed=5)
+    doc = compare_priors(design, sets, method="sample", sampler=small).to_dict()
+    for s in doc["sets"]:
+        del s["pareto_k_good"]
+    old = Comparison.from_dict(doc)
+    assert [s.loo.good_k for s in old.sets] == [None, None]
+    assert "Pareto k above its threshold" in old.text()
+
+
+def test_an_unreadable_comparison_is_bad_input(tmp_path):
+    from bayes.store import load_comparison
+
+    (tmp_path / "compare.json").write_text("{not json")
+    with pytest.raises(InputError, match="compare.json: not readable JSON"):
+        load_comparison(tmp_path)
+    (tmp_path / "compare.json").write_text('{"response": "strength", "sets": []}')
+    with pytest.raises(InputError, match="compare.json: not a readable comparison"):
+        load_comparison(tmp_path)

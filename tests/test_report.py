@@ -18,7 +18,8 @@ from hypothesis import strategies as st
 import bayes
 from bayes.cli.app import main
 from bayes.errors import InputError
-from bayes.report.build import build_report, collinearity, report_from_result
+from bayes.report.build import build_report, report_from_result
+from bayes.report.quantities import collinearity
 from bayes.report.render import render_html, render_markdown, write_report
 from bayes.results.format import fmt_by_sd
 from bayes.settings import SamplerSettings
@@ -100,18 +101,20 @@ def test_collinearity_matches_numpy_and_statsmodels(demo_result):
 def test_least_squares_marks_and_standardized_forest_match_lstsq(demo_result):
     # Source: numpy.linalg.lstsq on the raw design (marks) and on z-scored columns (the
     # forest plot's standardized least-squares estimates).
-    from bayes.report.build import _Context, _forest_rows, _least_squares
+    from bayes.report.context import Context
+    from bayes.report.quantities import least_squares
+    from bayes.report.sections_figures import forest_rows
 
     frame = pd.read_csv(DEMO / "trial_mix.csv")
     X = frame[NAMES].to_numpy()
     y = frame["strength"].to_numpy()
     coef, *_ = np.linalg.lstsq(np.column_stack([np.ones(len(y)), X]), y, rcond=None)
-    ls = _least_squares(demo_result)
+    ls = least_squares(demo_result)
     np.testing.assert_allclose(ls.mean, coef, rtol=1e-9)
     Z = (X - X.mean(0)) / X.std(0)
     z_coef, *_ = np.linalg.lstsq(Z, (y - y.mean()) / y.std(), rcond=None)
-    ctx = _Context(demo_result, "MPa", {}, ls, None, None)
-    rows = _forest_rows(ctx)
+    ctx = Context(demo_result, "MPa", {}, ls, None, None)
+    rows = forest_rows(ctx)
     np.testing.assert_allclose([r.least_squares.center for r in rows], z_coef, rtol=1e-9)
     # A standardized interval is the natural interval times sd(x)/sd(y): the posterior mean row.
     scale = X.std(0) / y.std()
@@ -329,6 +332,28 @@ def test_report_of_a_formula_fit_with_a_categorical_predictor(tmp_path):
     predictor_units = {row[0]: row[1] for row in data_table.rows}
     assert predictor_units["fly_ash:curing_temp"] == "share of binder × degC"
     assert predictor_units["cement_type[CEM-C]"] == "indicator (0/1)"
+
+
+def test_a_derived_term_has_the_units_of_its_arithmetic(tmp_path):
+    # The one units grammar (elicit.units) for the data table and the posterior table alike:
+    # I(water_cement ** 2) is in ratio^2, its coefficient in MPa per ratio^2.
+    from conftest import ROOT
+
+    priors = tmp_path / "priors.toml"
+    priors.write_text('[study]\nresponse_units = "MPa"\n[units]\nwater_cement = "ratio"\n')
+    res = CliRunner().invoke(main, [
+        "fit", str(ROOT / "tests" / "data" / "saved_fits" / "terms_data.csv"), "--formula",
+        "strength ~ water_cement + cement_type + I(water_cement**2)", "--reference",
+        "cement_type=CEM I", "--priors", str(priors), "--save", str(tmp_path / "fit"),
+    ])  # fmt: skip
+    assert res.exit_code == 0, res.output
+    report = build_report(tmp_path / "fit", figures=False)
+    tables = {b.key: b for s in report.sections for b in s.blocks if b.kind == "table"}
+    assert dict(r[:2] for r in tables["data"].rows)["I(water_cement ** 2)"] == "ratio^2"
+    assert dict(r[:2] for r in tables["posterior"].rows)["I(water_cement ** 2)"] == (
+        "MPa per ratio^2"
+    )
+    assert dict(r[:2] for r in tables["data"].rows)["cement_type[CEM II]"] == "indicator (0/1)"
 
 
 def test_report_of_a_sampled_fit_shows_convergence(tmp_path):

@@ -11,6 +11,7 @@ from threadpoolctl import threadpool_limits
 
 from bayes.cli.app import main
 from bayes.report.sweep_chart import plot_sweep
+from bayes.sensitivity.result import SweepResult
 
 DATA, PRIORS = DEMO / "trial_mix.csv", GAUSSIAN_PRIORS
 
@@ -122,7 +123,7 @@ def test_no_prior_file_is_bad_input():
 
 def test_plot_from_the_saved_json(saved, tmp_path):
     doc, _, _ = saved
-    fig = plot_sweep(doc)
+    fig = plot_sweep(SweepResult.from_dict(doc))
     titles = [ax.get_title() for ax in fig.axes if ax.get_visible() and ax.axison]
     assert titles == ["water_cement", "fly_ash", "curing_temp",
                       "superplasticizer (prior not widened)"]  # fmt: skip

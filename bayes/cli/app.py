@@ -344,8 +344,8 @@ def report_command(fit_dir, out, markdown, csv_dir):
     from bayes.report.render import outputs_text, write_report
 
     report = build_report(fit_dir)
-    write_report(report, out, markdown, csv_dir)
-    click.echo(outputs_text(report, out, markdown, csv_dir))
+    write_report(report, html=out, markdown=markdown, csv_dir=csv_dir)
+    click.echo(outputs_text(report, html=out, markdown=markdown, csv_dir=csv_dir))
 
 
 @main.command("demo")

@@ -57,7 +57,7 @@ def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
     echo(f"Comparison with a second engineer's prior file ({other.name}):")
     echo(comparison.text())
     echo("")
-    report = report_from_result(result, swept.to_dict(), comparison.to_dict())
+    report = report_from_result(result, sweep=swept, comparison=comparison)
     html, markdown, tables = out / "report.html", out / "report.md", out / "tables"
-    write_report(report, html, markdown, tables)
-    echo(outputs_text(report, html, markdown, tables))
+    write_report(report, html=html, markdown=markdown, csv_dir=tables)
+    echo(outputs_text(report, html=html, markdown=markdown, csv_dir=tables))

@@ -1,7 +1,7 @@
 """The plain objects of a written document: sections of paragraphs, lists, tables, figures.
 
-:mod:`bayes.report.build` fills them; :mod:`bayes.report.render` turns them into HTML,
-Markdown and CSV.
+The section builders (``bayes.report.sections_*``, assembled by :mod:`bayes.report.build`) fill
+them; :mod:`bayes.report.render` turns them into HTML, Markdown and CSV.
 """
 
 from __future__ import annotations

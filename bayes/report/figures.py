@@ -47,7 +47,7 @@ _STYLE = {
 }
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, eq=False)
 class DensityPanel:
     """One coefficient's prior and posterior densities on a common grid.
 
@@ -76,6 +76,14 @@ class DensityPanel:
     prior: np.ndarray | None
     stated: tuple[tuple[str, float, float], ...]
     least_squares: float | None
+
+    def __post_init__(self) -> None:
+        for name in ("x", "posterior", "prior"):
+            value = getattr(self, name)
+            if value is not None:
+                frozen = np.array(value, dtype=float)  # a copy: the caller's array stays writable
+                frozen.flags.writeable = False
+                object.__setattr__(self, name, frozen)
 
 
 @dataclass(frozen=True)

@@ -15,6 +15,7 @@ from elicit.io import atomic_write_bytes
 
 def write_report(
     report: Report,
+    *,
     html: str | Path | None = None,
     markdown: str | Path | None = None,
     csv_dir: str | Path | None = None,
@@ -46,7 +47,7 @@ def write_report(
     if csv_dir is not None:
         folder = Path(csv_dir)
         if folder.exists() and not folder.is_dir():
-            raise InputError(f"{folder}: exists and is not a folder (--csv-dir)")
+            raise InputError(f"csv_dir must be a folder, got {folder} (a file)")
         for table in report.tables:
             files[folder / f"{table.key}.csv"] = table_csv(table).encode("utf-8")
     for path, content in files.items():
@@ -57,6 +58,7 @@ def write_report(
 
 def outputs_text(
     report: Report,
+    *,
     html: str | Path | None = None,
     markdown: str | Path | None = None,
     csv_dir: str | Path | None = None,

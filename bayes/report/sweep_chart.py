@@ -12,23 +12,29 @@ from pathlib import Path
 
 import numpy as np
 
+from elicit.units import term_units
+
 # Okabe and Ito's colour-blind-safe palette.
 _BLUE, _ORANGE, _GREEN, _PURPLE, _GREY = "#0072B2", "#E69F00", "#009E73", "#CC79A7", "#555555"
 
 
-def _label(name: str, units: dict) -> str:
+def axis_label(name: str, units: dict) -> str:
+    """A coefficient's axis label with its units, e.g. ``"fly_ash (MPa per share of binder)"``.
+
+    ``units`` is the sweep's: ``"response"`` and the predictors' units. Only a plain predictor
+    with a unit gets it (elicit.units grammar); a term's full units would not fit beside a panel.
+    """
     resp = units.get("response")
+    if not resp:
+        return name
     if name == "intercept":
-        return f"intercept ({resp})" if resp else "intercept"
-    pred = units.get(name)
-    if resp and pred:
-        return f"{name} ({resp} per {pred})"
-    if resp:
-        return f"{name} ({resp} per unit)"
-    return name
+        return f"intercept ({resp})"
+    if name in units:
+        return f"{name} ({term_units(name, units, resp)})"
+    return f"{name} ({resp} per unit)"
 
 
-def plot_sweep(sweep, path_or_axes=None, intercept: bool = False):
+def plot_sweep(sweep, path_or_axes=None, *, intercept: bool = False):
     """Draw the sweep: per coefficient, mean and interval against the prior-width factor.
 
     The stated priors (factor 1) are marked by a dashed line, the flat-prior
@@ -37,8 +43,9 @@ def plot_sweep(sweep, path_or_axes=None, intercept: bool = False):
 
     Parameters
     ----------
-    sweep : SweepResult or dict
-        A :class:`bayes.sensitivity.sweep.SweepResult` or its JSON form (``sweep.json``).
+    sweep : SweepResult
+        A :class:`bayes.sensitivity.sweep.SweepResult` (:func:`bayes.store.load_sweep` reads a
+        saved one).
     path_or_axes : str, PathLike, Figure, sequence of Axes, or None
         A file name (PNG, SVG, PDF: written atomically), a Figure to draw into, or
         one Axes per coefficient drawn; None returns a new Figure.
@@ -51,14 +58,9 @@ def plot_sweep(sweep, path_or_axes=None, intercept: bool = False):
     """
     from matplotlib.figure import Figure
 
-    doc = sweep if isinstance(sweep, dict) else sweep.to_dict()
-    coefs = [c for c in doc["coefficients"] if intercept or c["name"] != "intercept"]
-    factors = doc["factors"]
-    finite = [i for i, f in enumerate(factors) if f is not None]
-    flat = next((i for i, f in enumerate(factors) if f is None), None)
-    x = np.array([factors[i] for i in finite], dtype=float)
-    units = doc.get("units") or {}
-    pct = f"{100 * doc.get('level', 0.95):g}%"
+    coefs = [c for c in sweep.coefficients if intercept or c.name != "intercept"]
+    x = np.asarray(sweep.factors, dtype=float)  # the finite factors; the flat limit comes last
+    pct = f"{100 * sweep.level:g}%"
 
     target = path_or_axes
     if target is None or isinstance(target, (str, os.PathLike)):
@@ -76,37 +78,35 @@ def plot_sweep(sweep, path_or_axes=None, intercept: bool = False):
     for ax in axes[len(coefs) :]:
         ax.set_axis_off()
 
-    def values(c, key, idx):
-        return np.array([np.nan if c[key][i] is None else c[key][i] for i in idx], dtype=float)
-
     for ax, c in zip(axes, coefs, strict=False):
-        mean, lo, hi = (values(c, k, finite) for k in ("mean", "lower", "upper"))
-        ax.fill_between(x, lo, hi, color=_BLUE, alpha=0.22, lw=0, label=f"{pct} interval")
-        ax.plot(x, mean, color=_BLUE, lw=1.8, label="posterior mean")
-        if "mode" in c:
-            ax.plot(x, values(c, "mode", finite), color=_BLUE, lw=1.0, ls="--",
+        mine = [k for k in sweep.conclusions if k.name == c.name]
+        ax.fill_between(x, c.lower[:-1], c.upper[:-1], color=_BLUE, alpha=0.22, lw=0,
+                        label=f"{pct} interval")  # fmt: skip
+        ax.plot(x, c.mean[:-1], color=_BLUE, lw=1.8, label="posterior mean")
+        if c.mode is not None:
+            ax.plot(x, c.mode[:-1], color=_BLUE, lw=1.0, ls="--",
                     label="posterior mode")  # fmt: skip
-        if flat is not None and c["mean"][flat] is not None:
+        if not np.isnan(c.mean[-1]):
             right = x.max() * 1.7
-            m, l, u = (c[k][flat] for k in ("mean", "lower", "upper"))
+            m, l, u = (float(v[-1]) for v in (c.mean, c.lower, c.upper))
             ax.errorbar([right], [m], yerr=[[m - l], [u - m]], fmt="D", color=_ORANGE, ms=5,
                         capsize=3, label="flat priors")  # fmt: skip
         ax.axvline(1.0, color=_GREEN, ls="--", lw=1.2, label="priors as stated")
-        if c.get("prior_interval"):
-            l, u = c["prior_interval"]
+        if c.prior_interval:
+            l, u = c.prior_interval
             ax.errorbar([x.min() / 1.7], [(l + u) / 2], yerr=[[(u - l) / 2]], fmt="s",
                         color=_GREEN, ms=4, capsize=3, label=f"stated prior ({pct})")  # fmt: skip
-        for k, f in enumerate(c.get("flip_factors") or []):
+        flips = sorted(f for k in mine for f in (k.narrower, k.wider) if f is not None)
+        for i, f in enumerate(flips):
             ax.axvline(f, color=_PURPLE, ls=":", lw=1.8,
-                       label="conclusion flips" if k == 0 else None)  # fmt: skip
-        for con in c.get("conclusions", []):
-            ax.axhline(con["value"], color=_GREY, lw=0.7)
+                       label="conclusion flips" if i == 0 else None)  # fmt: skip
+        for con in mine:
+            ax.axhline(con.value, color=_GREY, lw=0.7)
         ax.set_xscale("log")
-        ax.set_title(c["name"] + ("" if c.get("swept", True) else " (prior not widened)"),
-                     fontsize=10)  # fmt: skip
+        ax.set_title(c.name + ("" if c.swept else " (prior not widened)"), fontsize=10)
         ax.set_xlabel("prior width factor (1 = as stated)", fontsize=8)
         ax.tick_params(labelsize=8)
-        ax.set_ylabel(_label(c["name"], units), fontsize=8)
+        ax.set_ylabel(axis_label(c.name, sweep.units), fontsize=8)
     from bayes.report.figures import legend_entries
 
     handles, labels = legend_entries(axes[: len(coefs)])

@@ -1,0 +1,119 @@
+"""Section 6 of the report: sensitivity to the priors, from the saved width sweep."""
+
+from __future__ import annotations
+
+import math
+
+from bayes.report import wording as W
+from bayes.report.context import Context, coefficient_units, number_cell, prob_cell
+from bayes.report.document import Block, Bullets, Paragraph, Section, Table
+from bayes.results.format import fmt, fmt_by_sd
+
+TITLE = "Sensitivity to the priors"
+
+
+def sensitivity_section(ctx: Context) -> Section:
+    """6. Sensitivity: conclusions along the sweep, data dominance, conflict, power scaling,
+    family swap (or what to run when no sweep was saved)."""
+    sweep = ctx.sweep
+    if sweep is None:
+        return Section("sensitivity", TITLE, (Paragraph(W.NO_SWEEP),))
+    factors = sweep.factors
+    blocks: list[Block] = [
+        Paragraph(W.sweep_intro(sweep.selection, len(factors), min(factors), max(factors),
+                                sweep.detail, sweep.conclusion_level)),
+        Bullets(tuple(sweep.headline) or (W.NO_CONCLUSIONS,)),
+    ]  # fmt: skip
+    rows = _conclusion_rows(sweep)
+    if rows:
+        blocks.append(Table("conclusions", "Conclusions along the width sweep",
+                            ("conclusion", "P at stated priors", "status",
+                             "flips when narrower by factor", "flips when wider by factor",
+                             "P with flat priors"), rows))  # fmt: skip
+    influence = tuple(
+        (c.name, fmt(c.variance_ratio, 2), fmt(_finite(c.prior_share), 2))
+        for c in sweep.coefficients if _finite(c.variance_ratio) is not None
+    )  # fmt: skip
+    if influence:
+        blocks.append(Table("influence", "How much the data dominate the priors (at the stated "
+                            "priors)", ("coefficient", "posterior / prior variance",
+                                        "prior's share of the posterior precision"),
+                            influence))  # fmt: skip
+    blocks += _conflict_blocks(sweep.conflict)
+    blocks += _power_blocks(sweep.power_scaling)
+    blocks += _swap_blocks(ctx, sweep.family_swap)
+    if sweep.notes:
+        blocks.append(Bullets(tuple(sweep.notes)))
+    return Section("sensitivity", TITLE, tuple(blocks))
+
+
+def _conclusion_rows(sweep) -> tuple:
+    """One row per conclusion, in the order of the coefficients."""
+    rows = []
+    for c in sweep.coefficients:
+        for k in (k for k in sweep.conclusions if k.name == c.name):
+            flat = _finite(float(k.probability[-1]))
+            status = k.status  # the sweep's own words
+            rows.append((k.statement, prob_cell(k.stated), status, _flip_cell(k.narrower),
+                         _flip_cell(k.wider), prob_cell(flat)))  # fmt: skip
+    return tuple(rows)
+
+
+def _conflict_blocks(conflict: dict) -> list[Block]:
+    """Prior-data conflict: the joint check in words and the per-coefficient table."""
+    if not conflict:
+        return []
+    text = W.conflict_text(conflict["joint"]["sentence"], conflict["method"],
+                           conflict["threshold"])  # fmt: skip
+    blocks: list[Block] = [Paragraph(text)]
+    rows = tuple((x["name"], fmt(x["tail_probability"], 2), "yes" if x["flag"] else "no")
+                 for x in conflict["coefficients"])  # fmt: skip
+    if rows:
+        blocks.append(Table("conflict", "Prior-data conflict per coefficient",
+                            ("coefficient", "tail probability", "conflict"), rows))  # fmt: skip
+    return blocks
+
+
+def _power_blocks(power: dict) -> list[Block]:
+    """Power-scaling sensitivity: what it measures and the per-coefficient table."""
+    if not power:
+        return []
+    rows = tuple((x["name"], f"{x['prior']:.3f}", f"{x['likelihood']:.3f}",
+                  x["diagnosis"] or "none") for x in power["coefficients"])  # fmt: skip
+    return [
+        Paragraph(W.power_scaling_text(power["measure"], power["method"], power["threshold"])),
+        Table("power_scaling", "Power-scaling sensitivity",
+              ("coefficient", "prior", "likelihood", "diagnosis"), rows),
+    ]  # fmt: skip
+
+
+def _swap_blocks(ctx: Context, swap: dict | None) -> list[Block]:
+    """The family swap: each coefficient's posterior under each family reading."""
+    if not swap:
+        return []
+    sd = {row["name"]: row["sd"] for row in ctx.result.rows}
+    fams = swap["families"]
+    rows = []
+    for c in swap["coefficients"]:
+        s = sd.get(c["name"])
+        rows.append((c["name"], coefficient_units(ctx, c["name"]), *(
+            f"{fmt_by_sd(c[f]['mean'], s)} ({fmt_by_sd(c[f]['lower'], s)} to "
+            f"{fmt_by_sd(c[f]['upper'], s)})" for f in fams)))  # fmt: skip
+    how = "; ".join(f"{f}: {m}" for f, m in swap["method"].items())
+    level_text = f"{100 * ctx.sweep.level:g}%"
+    return [
+        Paragraph(W.family_swap_text(level_text, how)),
+        Table("family_swap", "Family swap", ("coefficient", "units", *fams), tuple(rows)),
+    ]
+
+
+def _flip_cell(f: float | None) -> str:
+    """A flip point as the factor by which the prior is narrowed or widened ('-' for none)."""
+    if f is None:
+        return "-"
+    return number_cell(1 / f) if f < 1 else number_cell(f)
+
+
+def _finite(x: float | None) -> float | None:
+    """None for a missing or non-finite number (as the saved sweep holds it)."""
+    return None if x is None or not math.isfinite(x) else x
