@@ -10,7 +10,8 @@ from pathlib import Path
 import pytest
 
 from elicit.interview import Interview, Term
-from elicit.spec import parse_priors, read_prior_file
+from elicit.read import read_prior_file
+from elicit.validate import parse_priors
 
 ROOT = Path(__file__).resolve().parents[1]
 # Invented data for the test.
@@ -93,7 +94,7 @@ def test_kill_midway_then_resume(tmp_path):
     assert "not accepted:" in resumed.stdout and "field 'high'" in resumed.stdout
     assert "P(positive)" in resumed.stdout and "implied response" in resumed.stdout
     final = read_prior_file(out)
-    assert final == parse_priors(expected_doc(), str(out))
+    assert final == parse_priors(expected_doc(), source=str(out))
 
     # a third start has nothing left to ask (in-process: no prompt may be reached)
     said = []
@@ -133,7 +134,7 @@ def test_interview_api_with_scripted_answers(tmp_path):
         {"study": {"response": "y"}, "coefficient": [
             {"name": "x1", "family": "student_t", "df": 3.0, "per": 10.0, "low": -5.0,
              "high": 5.0, "mass": 0.95, "expert": "C", "rationale": "why not"}]},
-        str(tmp_path / "q.toml"),
+        source=str(tmp_path / "q.toml"),
     )  # fmt: skip
     assert any("kg of x1" in s or "student_t" in s for s in said)
 
@@ -166,8 +167,8 @@ def test_conditional_interview_reproduces_the_stated_rows_and_fits(tmp_path):
     from scipy import stats
 
     from bayes.api import fit
-    from elicit.feedback import prior_predictive
     from elicit.interview import terms_from_data
+    from elicit.predictive import prior_predictive
 
     frame = pd.read_csv(io.StringIO(DATA))
     # expert; rows (means, x1 high, x2 high): low, high, mass; accept; noise; accept
@@ -189,7 +190,7 @@ def test_conditional_interview_reproduces_the_stated_rows_and_fits(tmp_path):
         "a",
     ]
     out = tmp_path / "c.toml"
-    session = Interview(out, "y", scripted(answers), lambda text: None, frame)
+    session = Interview(out, "y", scripted(answers), lambda text: None, frame=frame)
     priors = session.run(terms_from_data(frame, "y"), conditional=True)
     assert read_prior_file(out) == priors
     block = priors.block

@@ -470,8 +470,8 @@ def flat_limit(priors, columns=None, expert=None):
     experts' statements (exactly so for normal pools); a linear pool widens without bound
     and becomes flat.
     """
+    from elicit.conditional import CorrelatedBlock
     from elicit.pool import pool
-    from elicit.spec import CorrelatedBlock
 
     chosen = None if columns is None else set(columns)
     coefs = []
@@ -491,7 +491,7 @@ def flat_limit(priors, columns=None, expert=None):
             # statements' factors tend to constants, the others keep their exponents
             # w_i / sum(all w): the pool of the others with precision times sum(w_others) /
             # sum(all w) (exact for normal pools).
-            pooled = pool(others, "log", c.family, c.df)
+            pooled = pool(others, method="log", family=c.family, df=c.df)
             share = sum(s.weight for s in others) / sum(s.weight for s in c.statements)
             coefs.append(replace(c, center=pooled.center, scale=pooled.scale / math.sqrt(share),
                                  pool_misfit=pooled.misfit))  # fmt: skip
@@ -538,7 +538,7 @@ class _GaussianEngine:
             return CoefficientMixtures.from_path(self.stated, 1.0 / f**2)
         if f == 1.0:
             return CoefficientMixtures.from_path(self.stated, 1.0)
-        rescaled = self.priors.rescaled(f, self.columns, self.expert)
+        rescaled = self.priors.rescaled(f, columns=self.columns, expert=self.expert)
         path = WidthPath.build(self.factor, scaled_prior(self.factor, rescaled))
         return CoefficientMixtures.from_path(path, 1.0)
 
