@@ -120,9 +120,10 @@ def test_input_ending_early_keeps_accepted_answers(tmp_path):
 
 def test_interview_api_with_scripted_answers(tmp_path):
     answers = iter(["student_t", "3", "10", "-5", "5", "0.95", "C", "why not", "a"])
-    said = []
+    said, prompts = [], []
 
     def ask(prompt, type=None, default=None):
+        prompts.append(prompt)
         value = next(answers)
         return type(value) if callable(type) and not hasattr(type, "choices") else value
 
@@ -136,7 +137,11 @@ def test_interview_api_with_scripted_answers(tmp_path):
              "high": 5.0, "mass": 0.95, "expert": "C", "rationale": "why not"}]},
         source=str(tmp_path / "q.toml"),
     )  # fmt: skip
-    assert any("kg of x1" in s or "student_t" in s for s in said)
+    # the predictor's units, in the heading and in the questions about the range
+    assert "\n[1/1] x1 (kg)" in said
+    assert prompts[2] == "The range is for a change of how many kg of x1"
+    assert prompts[3] == "Lowest plausible change in y per 10 kg of x1"
+    assert prompts[4] == "Highest plausible change in y per 10 kg of x1"
 
 
 def test_resume_refuses_a_file_for_another_response(tmp_path):
