@@ -5,7 +5,7 @@ import math
 import numpy as np
 import pytest
 
-from elicit.conditional import conditional_means_prior, from_stated_rows
+from elicit.conditional import CorrelatedBlock, conditional_means_prior, from_stated_rows
 from elicit.errors import PriorFileError
 from elicit.validate import parse_priors
 
@@ -84,3 +84,14 @@ def test_dependent_rows_in_file():
     rows = [CORRELATION["row"][1], CORRELATION["row"][1]]
     with pytest.raises(PriorFileError, match="linearly dependent"):
         parse_priors({"correlation": {"names": ["intercept", "x"], "row": rows}}, source="p.toml")
+
+
+def test_block_arrays_are_read_only_copies():
+    mean, cov = np.array([1.0, 2.0]), np.eye(2)
+    block = CorrelatedBlock(("intercept", "x"), mean, cov)
+    with pytest.raises(ValueError, match="read-only"):
+        block.cov[0, 0] = 5.0
+    mean[0] = 9.0  # the caller's array stays its own, and writable
+    assert block.mean[0] == 1.0 and mean.flags.writeable
+    assert block == CorrelatedBlock(("intercept", "x"), [1.0, 2.0], [[1.0, 0.0], [0.0, 1.0]])
+    assert block != CorrelatedBlock(("intercept", "x"), [1.0, 2.5], np.eye(2))

@@ -7,6 +7,7 @@ import pandas as pd
 import pytest
 from scipy import optimize, stats
 
+from elicit.errors import InputError
 from elicit.feedback import coefficient_feedback, feedback
 from elicit.predictive import prior_predictive
 from elicit.show import format_text, intercept_note, to_json, unavailable_note, unbounded_note
@@ -188,3 +189,10 @@ def test_feedback_with_data_and_json():
     assert len(out["predictive"]["rows"]) == 3
     text = format_text(fb)
     assert "P(positive)" in text and "implied response" in text
+
+
+@pytest.mark.parametrize("noise_sd", [-1.0, 0.0, math.inf])
+def test_feedback_names_the_parameter_not_a_flag(noise_sd):
+    priors = parse_priors({"coefficient": [NORMAL_90]})
+    with pytest.raises(InputError, match=f"^noise_sd must be positive, got {noise_sd:g}$"):
+        feedback(priors, noise_sd=noise_sd)

@@ -93,6 +93,9 @@ def test_kill_midway_then_resume(tmp_path):
     assert "already answered: x1" in resumed.stdout
     assert "not accepted:" in resumed.stdout and "field 'high'" in resumed.stdout
     assert "P(positive)" in resumed.stdout and "implied response" in resumed.stdout
+    # the noise feedback of the interview: median and 90% interval of the sd, and the shape
+    assert ("\nnoise sd: median 0.5547, 90% interval 0.3 .. 1.5 (inverse gamma on the variance, "
+            "shape 1.415)\n") in resumed.stdout  # fmt: skip
     final = read_prior_file(out)
     assert final == parse_priors(expected_doc(), source=str(out))
 
@@ -150,6 +153,15 @@ def test_resume_refuses_a_file_for_another_response(tmp_path):
 
     with pytest.raises(PriorFileError, match="field 'response'"):
         Interview(tmp_path / "q.toml", "y", None, None)
+
+
+def test_conditional_questions_need_the_data(tmp_path):
+    from elicit.errors import InputError
+
+    session = Interview(tmp_path / "c.toml", "y", None, lambda text: None)
+    with pytest.raises(InputError, match="need the data"):
+        session.run([Term("x1")], conditional=True)
+    assert not (tmp_path / "c.toml").exists()
 
 
 def scripted(answers):
