@@ -26,7 +26,8 @@ METHODS = ("auto", "exact", "sample")
 
 def load_priors(priors):
     """A PriorSet from a PriorSet, a path to a prior file, or None (flat priors)."""
-    from elicit.spec import PriorSet, flat_priors, read_prior_file
+    from elicit.read import read_prior_file
+    from elicit.spec import PriorSet, flat_priors
 
     if priors is None:
         return flat_priors()

@@ -132,7 +132,8 @@ def load_fit(folder: str | Path) -> FitResult:
     import pandas as pd
 
     from bayes.data.design import Design
-    from elicit.spec import flat_priors, parse_priors
+    from elicit.spec import flat_priors
+    from elicit.validate import parse_priors
 
     folder = Path(folder)
     missing = [f for f in FILES if not (folder / f).exists()]
@@ -147,7 +148,9 @@ def load_fit(folder: str | Path) -> FitResult:
     post = _posterior_from_arrays(z, doc["labels"])
     text = (folder / "priors.toml").read_text()
     priors = (
-        parse_priors(tomllib.loads(text), str(folder / "priors.toml")) if text else flat_priors()
+        parse_priors(tomllib.loads(text), source=str(folder / "priors.toml"))
+        if text
+        else flat_priors()
     )
     terms, coding = None, None
     if (folder / "terms.json").exists():

@@ -244,7 +244,7 @@ def laplace_vs_lasso(repeats: int) -> dict:
     from bayes.data.factor import factor_from_arrays
     from bayes.engine.scaled import scaled_prior
     from bayes.problem import to_natural
-    from elicit.spec import parse_priors
+    from elicit.validate import parse_priors
 
     n, p, sigma, b = 100_000, 200, 2.0, 0.002
     rng = np.random.default_rng(4)
@@ -255,7 +255,7 @@ def laplace_vs_lasso(repeats: int) -> dict:
     names = [f"x{j}" for j in range(p)]
     priors = parse_priors({"noise": {"sd": sigma}, "coefficient": [
         {"name": c, "family": "laplace", "center": 0.0, "scale": b} for c in names]},
-        "invented")  # fmt: skip
+        source="invented")  # fmt: skip
     # Both stop on the duality gap: scikit-learn when gap <= tol ||y - mean y||^2, ours
     # when gap <= tol' * 0.5 ||target||^2; tol' = 2 tol is the same criterion.
     tol = 1e-8
@@ -317,7 +317,7 @@ def gibbs_rate(repeats: int) -> dict:
     from bayes.data.factor import factor_from_arrays
     from bayes.engine.scaled import scaled_prior
     from bayes.problem import to_natural
-    from elicit.spec import parse_priors
+    from elicit.validate import parse_priors
 
     p, small, large = 20, 10_000, 1_000_000
     runs = {}
@@ -326,7 +326,7 @@ def gibbs_rate(repeats: int) -> dict:
         factor = factor_from_arrays(X, y, names)
         priors = parse_priors({"noise": {"low": 1.0, "high": 4.0, "mass": 0.9}, "coefficient": [
             {"name": c, "family": "laplace", "center": 0.0, "scale": 1.0} for c in names]},
-            "invented")  # fmt: skip
+            source="invented")  # fmt: skip
         scaled = scaled_prior(factor, priors)
         runs[n] = functools.partial(sample, factor, scaled, chains=4, draws=1000, warmup=500,
                                     seed=1)  # fmt: skip

@@ -21,7 +21,7 @@ import numpy as np
 from bayes.api import fit
 from bayes.data.design import Design
 from bayes.sensitivity.sweep import sweep_design
-from elicit.spec import parse_priors
+from elicit.validate import parse_priors
 
 N, P, WIDTHS = 10_000, 100, 200
 
@@ -40,7 +40,7 @@ def problem(noise: dict) -> tuple[Design, object]:
             for n, b in zip(names, beta, strict=True)
         ],
     }
-    return Design("y", names, X, y), parse_priors(doc, "invented")
+    return Design("y", names, X, y), parse_priors(doc, source="invented")
 
 
 def best(fn, repeats: int) -> float:

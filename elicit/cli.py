@@ -87,8 +87,9 @@ def main() -> None:
 @click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text")
 def show(priors: str, noise_sd: float | None, data: str | None, response: str | None, fmt: str):
     """Show each prior's parameters and what it implies."""
-    from elicit.feedback import feedback, format_text, to_json
-    from elicit.spec import read_prior_file
+    from elicit.feedback import feedback
+    from elicit.read import read_prior_file
+    from elicit.show import format_text, to_json
 
     if noise_sd is not None and not noise_sd > 0:
         raise BadInput(f"--noise-sd: must be positive, got {noise_sd:g}")
@@ -99,7 +100,7 @@ def show(priors: str, noise_sd: float | None, data: str | None, response: str | 
         response = response or prior_set.response
         if response is not None and response not in frame:
             raise BadInput(f"{data}: no response column {response!r}")
-    fb = feedback(prior_set, noise_sd, frame, response)
+    fb = feedback(prior_set, noise_sd=noise_sd, frame=frame, response=response)
     if fmt == "json":
         click.echo(json.dumps(to_json(fb), allow_nan=False))
     else:
@@ -115,7 +116,8 @@ def show(priors: str, noise_sd: float | None, data: str | None, response: str | 
 @click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text")
 def pool(priors: str, out: str, method: str | None, family: str | None, fmt: str):
     """Pool several experts' entries per coefficient; keep their statements in OUT."""
-    from elicit.spec import load_document, parse_priors
+    from elicit.read import load_document
+    from elicit.validate import parse_priors
     from elicit.write import write_prior_file
 
     doc = load_document(priors)
@@ -123,7 +125,7 @@ def pool(priors: str, out: str, method: str | None, family: str | None, fmt: str
         table = dict(doc.get("pool", {}))
         table.update({k: v for k, v in (("method", method), ("family", family)) if v})
         doc = {**doc, "pool": table}
-    prior_set = parse_priors(doc, priors)
+    prior_set = parse_priors(doc, source=priors)
     write_prior_file(
         prior_set, _out_path(out), header=f"Pooled by `elicit pool` from {Path(priors).name}."
     )
@@ -215,11 +217,12 @@ def interview(
         except InputError as exc:
             raise BadInput(str(exc)) from None
         frame = design.frame()
-    session = Interview(Path(out), response, ask, click.echo, frame, response_units, expert)
+    session = Interview(Path(out), response, ask, click.echo, frame=frame,
+                        response_units=response_units, expert=expert)  # fmt: skip
     if design is not None:
         terms = interview_terms(design, units=session.priors.units)
     else:
-        terms = terms_from_data(frame, response, session.priors.units)
+        terms = terms_from_data(frame, response, units=session.priors.units)
     try:
         session.run(terms, noise=not no_noise, conditional=conditional)
     except click.Abort:

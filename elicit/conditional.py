@@ -8,16 +8,19 @@ independent normal beliefs ``m~_i ~ N(mu_i, s_i^2)`` about the conditional means
 
     beta = X~^-1 m~  ~  N(X~^-1 mu,  X~^-1 diag(s^2) X~^-T),
 
-a correlated Gaussian prior written to the prior file as a ``[correlation]`` block.
+a correlated Gaussian prior written to the prior file as a ``[correlation]`` block. The block
+itself, as validated from the file, is a :class:`CorrelatedBlock`.
 """
 
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from elicit.convert import from_range
+from elicit.errors import InputError
 
 #: Reference rows whose design has a larger condition number are called linearly dependent.
 MAX_CONDITION = 1e12
@@ -56,15 +59,15 @@ def conditional_means_prior(
 
     Raises
     ------
-    ValueError
+    InputError
         If the reference rows are not square or are (nearly) linearly dependent.
     """
     design = np.asarray(design, dtype=float)
     k = design.shape[0]
     if design.shape != (k, k):
-        raise ValueError(f"need as many reference rows as coefficients, got {design.shape}")
+        raise InputError(f"need as many reference rows as coefficients, got {design.shape}")
     if not np.linalg.cond(design) < MAX_CONDITION:
-        raise ValueError("reference rows are linearly dependent: choose rows that differ more")
+        raise InputError("reference rows are linearly dependent: choose rows that differ more")
     beta = np.linalg.solve(design, np.asarray(mean, dtype=float))
     root = np.linalg.solve(design, np.diag(np.asarray(sd, dtype=float)))
     cov = root @ root.T
@@ -95,3 +98,91 @@ def from_stated_rows(
     """
     beliefs = np.array([from_range("normal", lo, hi, mass) for lo, hi, mass in ranges])
     return conditional_means_prior(reference_design(names, rows), beliefs[:, 0], beliefs[:, 1])
+
+
+@dataclass(frozen=True)
+class RowStatement:
+    """A stated range of the expected response at one reference row (conditional means)."""
+
+    at: tuple[tuple[str, float], ...]
+    low: float
+    high: float
+    mass: float
+    expert: str | None = None
+    rationale: str | None = None
+
+
+def _read_only(values) -> np.ndarray:
+    out = np.array(values, dtype=float)  # a copy: the caller's array stays writable
+    out.flags.writeable = False
+    return out
+
+
+@dataclass(frozen=True, eq=False)
+class CorrelatedBlock:
+    """Conditional-means prior: a correlated Gaussian on some coefficients, natural units.
+
+    Equal blocks have the same names, rows and, element by element, the same mean and
+    covariance. The arrays are read-only copies.
+
+    Attributes
+    ----------
+    names : tuple of str, length k
+        Coefficient columns, may include "intercept".
+    mean : ndarray, shape (k,)
+    cov : ndarray, shape (k, k)
+        Positive definite.
+    rows : tuple of RowStatement
+        The stated rows it was derived from (empty if given directly).
+    """
+
+    names: tuple[str, ...]
+    mean: np.ndarray
+    cov: np.ndarray
+    rows: tuple[RowStatement, ...] = ()
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "mean", _read_only(self.mean))
+        object.__setattr__(self, "cov", _read_only(self.cov))
+
+    def __eq__(self, other: object) -> bool:
+        if not isinstance(other, CorrelatedBlock):
+            return NotImplemented
+        return (
+            self.names == other.names
+            and np.array_equal(self.mean, other.mean)
+            and np.array_equal(self.cov, other.cov)
+            and self.rows == other.rows
+        )
+
+    __hash__ = None  # type: ignore[assignment]
+
+    @classmethod
+    def from_rows(cls, names: Sequence[str], rows: Sequence[RowStatement]) -> CorrelatedBlock:
+        """The block the stated rows imply (:func:`from_stated_rows`), keeping the rows."""
+        mean, cov = from_stated_rows(
+            names, [dict(r.at) for r in rows], [(r.low, r.high, r.mass) for r in rows]
+        )
+        return cls(tuple(names), mean, cov, tuple(rows))
+
+    def rescaled(self, factor: float, *, columns: set[str] | None = None) -> CorrelatedBlock:
+        """Covariance rows and columns of ``columns`` (default all) multiplied by ``factor``.
+
+        Rescaling all of it widens each stated row's range about its midpoint and derives the
+        block again; rescaling part of it keeps mean and covariance and drops the rows (they no
+        longer describe the block).
+        """
+        if columns is None or set(self.names) <= columns:
+            if self.rows:
+                rows = tuple(
+                    replace(
+                        r,
+                        low=0.5 * (r.low + r.high) - 0.5 * factor * (r.high - r.low),
+                        high=0.5 * (r.low + r.high) + 0.5 * factor * (r.high - r.low),
+                    )
+                    for r in self.rows
+                )
+                return CorrelatedBlock.from_rows(self.names, rows)
+            return replace(self, cov=self.cov * factor**2)
+        d = np.array([factor if n in columns else 1.0 for n in self.names])
+        return CorrelatedBlock(self.names, self.mean, self.cov * np.outer(d, d))

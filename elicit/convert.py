@@ -30,6 +30,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import optimize, stats
 
+from elicit.errors import InputError
+
 SHAPED_FAMILIES = ("normal", "laplace", "student_t")
 DEFAULT_DF = 5.0
 
@@ -38,7 +40,7 @@ DEFAULT_DF = 5.0
 ASYMMETRY_TOLERANCE = 1.1
 
 
-def standard(family: str, df: float | None = None):
+def standard(family: str, *, df: float | None = None):
     """The unit-scale, zero-centred member of ``family`` as a frozen scipy distribution."""
     if family == "normal":
         return stats.norm()
@@ -46,10 +48,10 @@ def standard(family: str, df: float | None = None):
         return stats.laplace()
     if family == "student_t":
         return stats.t(DEFAULT_DF if df is None else df)
-    raise ValueError(f"unknown family {family!r} (expected one of {', '.join(SHAPED_FAMILIES)})")
+    raise InputError(f"unknown family {family!r} (expected one of {', '.join(SHAPED_FAMILIES)})")
 
 
-def distribution(family: str, center: float, scale: float, df: float | None = None):
+def distribution(family: str, center: float, scale: float, *, df: float | None = None):
     """Frozen scipy distribution of a coefficient prior.
 
     Parameters
@@ -68,12 +70,12 @@ def distribution(family: str, center: float, scale: float, df: float | None = No
         return stats.laplace(center, scale)
     if family == "student_t":
         return stats.t(DEFAULT_DF if df is None else df, center, scale)
-    raise ValueError(f"unknown family {family!r} (expected one of {', '.join(SHAPED_FAMILIES)})")
+    raise InputError(f"unknown family {family!r} (expected one of {', '.join(SHAPED_FAMILIES)})")
 
 
 def _check_mass(mass: float) -> None:
     if not 0.0 < mass < 1.0:
-        raise ValueError(f"mass must be in (0, 1), got {mass}")
+        raise InputError(f"mass must be in (0, 1), got {mass}")
 
 
 def from_range(
@@ -81,6 +83,7 @@ def from_range(
     low: float,
     high: float,
     mass: float,
+    *,
     per: float = 1.0,
     df: float | None = None,
 ) -> tuple[float, float]:
@@ -107,25 +110,25 @@ def from_range(
         with ``w = (high - low) / 2``.
     """
     if not low < high:
-        raise ValueError(f"low must be below high, got low={low}, high={high}")
+        raise InputError(f"low must be below high, got low={low}, high={high}")
     _check_mass(mass)
     if not per > 0:
-        raise ValueError(f"per must be positive, got {per}")
+        raise InputError(f"per must be positive, got {per}")
     half = 0.5 * (high - low)
     if family == "laplace":
         # P(|X - m| <= w) = 1 - exp(-w / b)  =>  b = w / -log(1 - mass)
         scale = half / -math.log1p(-mass)
     else:
-        scale = half / float(standard(family, df).ppf(0.5 * (1.0 + mass)))
+        scale = half / float(standard(family, df=df).ppf(0.5 * (1.0 + mass)))
     return 0.5 * (low + high) / per, scale / per
 
 
 def central_range(
-    family: str, center: float, scale: float, mass: float, df: float | None = None
+    family: str, center: float, scale: float, mass: float, *, df: float | None = None
 ) -> tuple[float, float]:
     """The central interval holding probability ``mass`` (inverse of :func:`from_range`)."""
     _check_mass(mass)
-    half = scale * float(standard(family, df).ppf(0.5 * (1.0 + mass)))
+    half = scale * float(standard(family, df=df).ppf(0.5 * (1.0 + mass)))
     return center - half, center + half
 
 
@@ -158,6 +161,7 @@ class QuantileFit:
 def fit_quantiles(
     family: str,
     quantiles: Sequence[tuple[float, float]],
+    *,
     per: float = 1.0,
     df: float | None = None,
 ) -> QuantileFit:
@@ -179,18 +183,18 @@ def fit_quantiles(
     """
     pairs = sorted((float(p), float(v)) for p, v in quantiles)
     if len(pairs) < 2:
-        raise ValueError("need at least two quantiles")
+        raise InputError("need at least two quantiles")
     probs = np.array([p for p, _ in pairs])
     values = np.array([v for _, v in pairs])
     if np.any(probs <= 0) or np.any(probs >= 1):
-        raise ValueError("quantile probabilities must be in (0, 1)")
+        raise InputError("quantile probabilities must be in (0, 1)")
     if np.any(np.diff(probs) <= 0):
-        raise ValueError("quantile probabilities must be distinct")
+        raise InputError("quantile probabilities must be distinct")
     if np.any(np.diff(values) <= 0):
-        raise ValueError("quantile values must increase with probability")
+        raise InputError("quantile values must increase with probability")
     if not per > 0:
-        raise ValueError(f"per must be positive, got {per}")
-    z = standard(family, df).ppf(probs)
+        raise InputError(f"per must be positive, got {per}")
+    z = standard(family, df=df).ppf(probs)
     design = np.column_stack([np.ones_like(z), z])
     (center, scale), *_ = np.linalg.lstsq(design, values, rcond=None)
     residual = values - design @ np.array([center, scale])
@@ -239,7 +243,7 @@ def noise_from_range(low: float, high: float, mass: float) -> tuple[float, float
         ``scale`` is in response units squared.
     """
     if not 0 < low < high:
-        raise ValueError(f"need 0 < low < high for the noise sd, got low={low}, high={high}")
+        raise InputError(f"need 0 < low < high for the noise sd, got low={low}, high={high}")
     p_low, p_high = _noise_tails(mass)
     target = 2.0 * math.log(high / low)
 
@@ -252,7 +256,7 @@ def noise_from_range(low: float, high: float, mass: float) -> tuple[float, float
     # shape 0.01 already fits high / low of about exp(150) at mass 0.9
     lo, hi = math.log(1e-2), math.log(1e12)
     if not gap(lo) > 0 > gap(hi):
-        raise ValueError(f"noise range {low}..{high} is too wide or too narrow to fit")
+        raise InputError(f"noise range {low}..{high} is too wide or too narrow to fit")
     shape = math.exp(optimize.brentq(gap, lo, hi, xtol=1e-14, rtol=1e-14))
     scale = high**2 * float(stats.gamma.ppf(p_low, shape))
     return shape, scale

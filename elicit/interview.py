@@ -6,7 +6,7 @@ output go through two callables, ``ask(prompt, type, default)`` and ``say(text)`
 command line uses :func:`click.prompt` (line based, works with stdin not a terminal) and tests
 can script them.
 
-Each accepted answer is validated by :func:`elicit.spec.parse_priors` (the one validator) and
+Each accepted answer is validated by :func:`elicit.validate.parse_priors` (the one validator) and
 the whole prior file is rewritten atomically, so killing the process at any prompt loses at most
 the answer being typed. Started again with the same output file, the interview skips every
 column the file already answers and carries on.
@@ -21,15 +21,13 @@ from typing import Any
 
 import click
 
-from elicit import convert, feedback
-from elicit.spec import (
-    FAMILIES,
-    INTERCEPT,
-    PriorFileError,
-    PriorSet,
-    parse_priors,
-    read_prior_file,
-)
+from elicit import convert, show
+from elicit.errors import InputError, PriorFileError
+from elicit.feedback import block_feedback, coefficient_feedback, noise_feedback
+from elicit.predictive import predictor_means, prior_predictive
+from elicit.read import read_prior_file
+from elicit.spec import FAMILIES, INTERCEPT, PriorSet
+from elicit.validate import parse_priors
 from elicit.write import prior_doc, write_prior_file
 
 Ask = Callable[..., Any]
@@ -46,7 +44,8 @@ class Term:
         Name in the prior file (the data column).
     level : str or None
         Categorical level: the question is about its difference from the reference level
-        (written as the prior file's ``level`` key); see ``bayes.terms.interview_terms``.
+        (written as the prior file's ``level`` key); the ``elicit`` command makes these terms
+        from a model formula.
     units : str or None
         Units of the predictor, shown in the questions.
     describe : str
@@ -66,7 +65,7 @@ class Term:
         return self.name if self.level is None else f"{self.name}[{self.level}]"
 
 
-def terms_from_data(frame, response: str, units: Mapping[str, str] | None = None) -> list[Term]:
+def terms_from_data(frame, response: str, *, units: Mapping[str, str] | None = None) -> list[Term]:
     """One :class:`Term` per numeric predictor column of ``frame`` (all but ``response``)."""
     units = units or {}
     terms = []
@@ -111,6 +110,7 @@ class Interview:
         response: str,
         ask: Ask,
         say: Say,
+        *,
         frame=None,
         response_units: str | None = None,
         expert: str | None = None,
@@ -134,7 +134,7 @@ class Interview:
             if response_units:
                 study["response_units"] = response_units
             self.doc = {"study": study}
-        self.priors = parse_priors(self.doc, str(self.out))
+        self.priors = parse_priors(self.doc, source=str(self.out))
         self.response = response
         if self.expert is None:  # on resume, the last expert named is the default
             named = [s.expert for c in self.priors.coefficients for s in c.statements if s.expert]
@@ -154,7 +154,7 @@ class Interview:
             doc["coefficient"] = [*self.doc.get("coefficient", []), value]
         else:
             doc[key] = value
-        return parse_priors(doc, str(self.out))
+        return parse_priors(doc, source=str(self.out))
 
     def _save(self, priors: PriorSet) -> None:
         write_prior_file(priors, self.out, header="Prior file written by `elicit interview`.")
@@ -210,16 +210,15 @@ class Interview:
 
     def _show_term(self, priors: PriorSet, term: Term) -> None:
         noise_sd = priors.noise.median if priors.noise is not None else None
-        info = feedback.coefficient_feedback(priors.get(term.column), noise_sd)
-        self.say("\n".join(feedback.format_coefficient(info, noise_sd)))
+        info = coefficient_feedback(priors.get(term.column), noise_sd=noise_sd)
+        self.say("\n".join(show.format_coefficient(info, noise_sd=noise_sd)))
         if self.frame is None or not term.reference or info.family == "flat":
             return
-        numeric = self.frame.select_dtypes("number")
-        means = {c: float(numeric[c].mean()) for c in numeric.columns if c != self.response}
+        means = predictor_means(self.frame, self.response)
         y_mean = float(self.frame[self.response].mean())
         rows = [(label, {term.column: value}) for label, value in term.reference]
-        implied = feedback.prior_predictive(priors, rows, means, y_mean)
-        self.say("\n".join(feedback.format_predictive(implied, priors.response_units)))
+        implied = prior_predictive(priors, rows, means=means, y_mean=y_mean)
+        self.say("\n".join(show.format_predictive(implied, units=priors.response_units)))
 
     def _ask_range(self, what: str, subject: str, last: Mapping[str, Any]) -> dict[str, float]:
         """Lowest and highest plausible ``what``, and the probability of that range."""
@@ -237,10 +236,10 @@ class Interview:
         self,
         key: str,
         answer: Callable[[Any], Any],
-        show: Callable[[PriorSet], None],
+        present: Callable[[PriorSet], None],
         saved: str,
     ) -> None:
-        """Ask (``answer(previous)``), validate, show, and repeat until accepted; then save."""
+        """Ask (``answer(previous)``), validate, present, and repeat until accepted; then save."""
         last = None
         while True:
             value = last = answer(last)
@@ -249,7 +248,7 @@ class Interview:
             except PriorFileError as exc:
                 self.say(f"not accepted: {exc}")
                 continue
-            show(candidate)
+            present(candidate)
             choice = self.ask(
                 "Accept (a) or revise (r)?", type=click.Choice(["a", "r"]), default="a"
             )
@@ -275,16 +274,14 @@ class Interview:
         self.say(f"\nNoise: the scatter of {self.response} around its expected value")
         what = f"residual standard deviation of {self.response}{self._units()}"
 
-        def show(priors: PriorSet) -> None:
-            noise = feedback.noise_feedback(priors.noise)
-            q = noise["quantiles"]
-            self.say(
-                f"noise sd: median {noise['median']:.4g}, 90% interval {q['0.05']:.4g} .. "
-                f"{q['0.95']:.4g} (inverse gamma on the variance, shape {noise['shape']:.4g})"
-            )
+        def show_noise(priors: PriorSet) -> None:
+            self.say(show.format_noise(noise_feedback(priors.noise), with_scale=False))
 
         self._until_accepted(
-            "noise", lambda last: self._ask_range(what, "it", last or {}), show, "the noise range"
+            "noise",
+            lambda last: self._ask_range(what, "it", last or {}),
+            show_noise,
+            "the noise range",
         )
 
     def run_conditional(self, terms: Sequence[Term]) -> None:
@@ -293,7 +290,14 @@ class Interview:
         The rows are the data means, then each term's last reference value (its 90% quantile)
         with the others at their means; k = len(terms) + 1 (the intercept). The block is one
         answer: it is saved when all its rows are accepted together.
+
+        Raises
+        ------
+        InputError
+            If the interview was started without the data (``frame``).
         """
+        if self.frame is None:
+            raise InputError("conditional-means questions need the data: give frame")
         numeric = self.frame.select_dtypes("number")
         means = {t.column: float(numeric[t.column].mean()) for t in terms}
         rows = [("all predictors at their data means", dict(means))]
@@ -322,11 +326,13 @@ class Interview:
         self._until_accepted(
             "correlation",
             answer,
-            lambda priors: self.say("\n".join(feedback.format_block(priors.block))),
+            lambda priors: self.say("\n".join(show.format_block(block_feedback(priors.block)))),
             "the conditional-means prior",
         )
 
-    def run(self, terms: Sequence[Term], noise: bool = True, conditional: bool = False) -> PriorSet:
+    def run(
+        self, terms: Sequence[Term], *, noise: bool = True, conditional: bool = False
+    ) -> PriorSet:
         """Ask every unanswered term (or, with ``conditional``, the conditional-means rows for
         all of them), then the noise; return the saved priors."""
         done = self.answered

@@ -73,7 +73,7 @@ def atomic_write_bytes(path: str | os.PathLike[str], content: bytes) -> None:
         tmp.write_bytes(content)
 
 
-def atomic_write_text(path: str | os.PathLike[str], text: str, encoding: str = "utf-8") -> None:
+def atomic_write_text(path: str | os.PathLike[str], text: str, *, encoding: str = "utf-8") -> None:
     """Write ``text`` to ``path`` atomically (see :func:`atomic_output`).
 
     Parameters

@@ -26,6 +26,7 @@ import numpy as np
 from scipy import optimize
 
 from elicit.convert import distribution, fit_quantiles
+from elicit.errors import InputError
 
 METHODS = ("linear", "log")
 DEFAULT_METHOD = "linear"
@@ -60,13 +61,17 @@ class PoolResult:
     misfit: float
 
 
+def _distribution(o: Opinion):
+    return distribution(o.family, o.center, o.scale, df=o.df)
+
+
 def _weights(opinions: Sequence[Opinion]) -> np.ndarray:
     w = np.array([o.weight for o in opinions], dtype=float)
     return w / w.sum()
 
 
 def _grid(opinions: Sequence[Opinion], size: int = 4001) -> np.ndarray:
-    dists = [distribution(o.family, o.center, o.scale, o.df) for o in opinions]
+    dists = [_distribution(o) for o in opinions]
     lo = min(float(d.ppf(1e-6)) for d in dists)
     hi = max(float(d.ppf(1 - 1e-6)) for d in dists)
     return np.linspace(lo, hi, size)
@@ -75,15 +80,12 @@ def _grid(opinions: Sequence[Opinion], size: int = 4001) -> np.ndarray:
 def mixture_cdf(opinions: Sequence[Opinion], x: np.ndarray) -> np.ndarray:
     """Cumulative probability of the linear pool at ``x`` (any shape)."""
     w = _weights(opinions)
-    return sum(
-        wi * distribution(o.family, o.center, o.scale, o.df).cdf(x)
-        for wi, o in zip(w, opinions, strict=True)
-    )
+    return sum(wi * _distribution(o).cdf(x) for wi, o in zip(w, opinions, strict=True))
 
 
 def mixture_ppf(opinions: Sequence[Opinion], p: float) -> float:
     """Quantile of the linear pool at probability ``p`` (root of the mixture cdf)."""
-    each = [float(distribution(o.family, o.center, o.scale, o.df).ppf(p)) for o in opinions]
+    each = [float(_distribution(o).ppf(p)) for o in opinions]
     lo, hi = min(each), max(each)
     if lo == hi:
         return lo
@@ -92,11 +94,13 @@ def mixture_ppf(opinions: Sequence[Opinion], p: float) -> float:
 
 def _match(family: str, df: float | None, grid: np.ndarray, cdf: np.ndarray, quantiles):
     fit = fit_quantiles(family, quantiles, df=df)
-    misfit = float(np.max(np.abs(cdf - distribution(family, fit.center, fit.scale, df).cdf(grid))))
+    misfit = float(
+        np.max(np.abs(cdf - distribution(family, fit.center, fit.scale, df=df).cdf(grid)))
+    )
     return PoolResult(fit.center, fit.scale, misfit)
 
 
-def linear_pool(opinions: Sequence[Opinion], family: str, df: float | None = None) -> PoolResult:
+def linear_pool(opinions: Sequence[Opinion], family: str, *, df: float | None = None) -> PoolResult:
     """Linear opinion pool (weighted mixture) matched to ``family`` by quantiles.
 
     Parameters
@@ -113,7 +117,7 @@ def linear_pool(opinions: Sequence[Opinion], family: str, df: float | None = Non
     return _match(family, df, grid, mixture_cdf(opinions, grid), quantiles)
 
 
-def log_pool(opinions: Sequence[Opinion], family: str, df: float | None = None) -> PoolResult:
+def log_pool(opinions: Sequence[Opinion], family: str, *, df: float | None = None) -> PoolResult:
     """Logarithmic opinion pool (weighted geometric mean of densities) matched to ``family``.
 
     All-normal statements pooled to a normal are exact: precision ``sum w_i / s_i^2`` and the
@@ -126,10 +130,7 @@ def log_pool(opinions: Sequence[Opinion], family: str, df: float | None = None) 
         center = float(precision @ np.array([o.center for o in opinions]) / precision.sum())
         return PoolResult(center, float(1.0 / np.sqrt(precision.sum())), 0.0)
     grid = _grid(opinions)
-    logpdf = sum(
-        wi * distribution(o.family, o.center, o.scale, o.df).logpdf(grid)
-        for wi, o in zip(w, opinions, strict=True)
-    )
+    logpdf = sum(wi * _distribution(o).logpdf(grid) for wi, o in zip(w, opinions, strict=True))
     density = np.exp(logpdf - logpdf.max())
     cdf = np.concatenate([[0.0], np.cumsum(0.5 * (density[1:] + density[:-1]) * np.diff(grid))])
     cdf /= cdf[-1]
@@ -138,11 +139,11 @@ def log_pool(opinions: Sequence[Opinion], family: str, df: float | None = None) 
 
 
 def pool(
-    opinions: Sequence[Opinion], method: str, family: str, df: float | None = None
+    opinions: Sequence[Opinion], *, method: str, family: str, df: float | None = None
 ) -> PoolResult:
     """Pool ``opinions`` with ``method`` ("linear" or "log") into one ``family`` prior."""
     if method == "linear":
-        return linear_pool(opinions, family, df)
+        return linear_pool(opinions, family, df=df)
     if method == "log":
-        return log_pool(opinions, family, df)
-    raise ValueError(f"unknown pool method {method!r} (expected 'linear' or 'log')")
+        return log_pool(opinions, family, df=df)
+    raise InputError(f"unknown pool method {method!r} (expected 'linear' or 'log')")

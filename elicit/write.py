@@ -1,6 +1,6 @@
-"""Writing prior files: a validated PriorSet back to the TOML format of :mod:`elicit.spec`.
+"""Writing prior files: a validated PriorSet back to the TOML format of :mod:`elicit.read`.
 
-What :func:`write_prior_file` writes, :func:`elicit.spec.read_prior_file` reads back to an equal
+What :func:`write_prior_file` writes, :func:`elicit.read.read_prior_file` reads back to an equal
 PriorSet (floats are written with ``repr``, which round-trips exactly). A column with one
 statement is written as the statement itself; a pooled (or otherwise changed) column is written
 as a pooled entry with its statements in ``[[coefficient.statement]]`` tables.
@@ -64,7 +64,7 @@ def _emit(lines: list[str], path: tuple[str, ...], table: Mapping[str, Any]) -> 
                 _emit(lines, (*path, key), item)
 
 
-def dump_toml(doc: Mapping[str, Any], header: str | None = None) -> str:
+def dump_toml(doc: Mapping[str, Any], *, header: str | None = None) -> str:
     """TOML text of ``doc``: top-level mappings as tables, lists of mappings as arrays of
     tables, deeper mappings inline. ``header`` becomes leading comment lines."""
     lines = [f"# {line}".rstrip() for line in (header or "").splitlines()]
@@ -170,7 +170,7 @@ def prior_doc(priors: PriorSet) -> dict[str, Any]:
     return doc
 
 
-def write_prior_file(priors: PriorSet, path: str | Path, header: str | None = None) -> None:
+def write_prior_file(priors: PriorSet, path: str | Path, *, header: str | None = None) -> None:
     """Write ``priors`` to ``path`` atomically (see :func:`elicit.io.atomic_write_text`).
 
     Parameters
@@ -180,4 +180,4 @@ def write_prior_file(priors: PriorSet, path: str | Path, header: str | None = No
     header : str, optional
         Comment lines written at the top of the file.
     """
-    atomic_write_text(path, dump_toml(prior_doc(priors), header))
+    atomic_write_text(path, dump_toml(prior_doc(priors), header=header))

@@ -8,7 +8,8 @@ import numpy as np
 
 from bayes.engine.scaled import scaled_prior
 from bayes.problem import DataFactor, ScaledPrior
-from elicit.spec import CoefficientPrior, CorrelatedBlock, NoisePrior, PriorSet
+from elicit.conditional import CorrelatedBlock
+from elicit.spec import CoefficientPrior, NoisePrior, PriorSet
 
 
 def natural_prior(

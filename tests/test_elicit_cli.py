@@ -7,7 +7,7 @@ import pytest
 from click.testing import CliRunner
 
 from elicit.cli import main
-from elicit.spec import read_prior_file
+from elicit.read import read_prior_file
 
 PRIORS = """
 [study]

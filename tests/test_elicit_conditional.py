@@ -5,9 +5,9 @@ import math
 import numpy as np
 import pytest
 
-from elicit.conditional import conditional_means_prior, from_stated_rows
+from elicit.conditional import CorrelatedBlock, conditional_means_prior, from_stated_rows
 from elicit.errors import PriorFileError
-from elicit.spec import parse_priors
+from elicit.validate import parse_priors
 
 # Source: standard normal table (handbook value), z(0.95) = 1.6449; used with 4 digits below.
 Z95 = 1.6449
@@ -62,7 +62,7 @@ def test_block_in_the_prior_file_is_derived_from_rows():
 def test_written_mean_must_agree_with_rows():
     doc = {"correlation": CORRELATION | {"mean": [10.0, 2.5], "cov": [[1, 0], [0, 1]]}}
     with pytest.raises(PriorFileError, match=r"\[correlation\]: field 'mean': .*do not match"):
-        parse_priors(doc, "p.toml")
+        parse_priors(doc, source="p.toml")
 
 
 @pytest.mark.parametrize(
@@ -77,10 +77,21 @@ def test_written_mean_must_agree_with_rows():
 def test_bad_rows(row, field):
     doc = {"correlation": {"names": ["intercept", "x"], "row": [row, CORRELATION["row"][1]]}}
     with pytest.raises(PriorFileError, match=rf"\[correlation\] row 1: field '{field}'"):
-        parse_priors(doc, "p.toml")
+        parse_priors(doc, source="p.toml")
 
 
 def test_dependent_rows_in_file():
     rows = [CORRELATION["row"][1], CORRELATION["row"][1]]
     with pytest.raises(PriorFileError, match="linearly dependent"):
-        parse_priors({"correlation": {"names": ["intercept", "x"], "row": rows}}, "p.toml")
+        parse_priors({"correlation": {"names": ["intercept", "x"], "row": rows}}, source="p.toml")
+
+
+def test_block_arrays_are_read_only_copies():
+    mean, cov = np.array([1.0, 2.0]), np.eye(2)
+    block = CorrelatedBlock(("intercept", "x"), mean, cov)
+    with pytest.raises(ValueError, match="read-only"):
+        block.cov[0, 0] = 5.0
+    mean[0] = 9.0  # the caller's array stays its own, and writable
+    assert block.mean[0] == 1.0 and mean.flags.writeable
+    assert block == CorrelatedBlock(("intercept", "x"), [1.0, 2.0], [[1.0, 0.0], [0.0, 1.0]])
+    assert block != CorrelatedBlock(("intercept", "x"), [1.0, 2.5], np.eye(2))

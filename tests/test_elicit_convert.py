@@ -156,7 +156,7 @@ masses = st.floats(0.01, 0.99)
 @settings(max_examples=200, deadline=None)
 @given(families, centers, scales, masses, st.floats(1.5, 50))
 def test_round_trip_distribution_interval_distribution(family, center, scale, mass, df):
-    low, high = convert.central_range(family, center, scale, mass, df)
+    low, high = convert.central_range(family, center, scale, mass, df=df)
     c2, s2 = convert.from_range(family, low, high, mass, df=df)
     # rounding: low and high carry an absolute error of about eps * |bound| each
     rounding = 8 * np.finfo(float).eps * (abs(low) + abs(high))

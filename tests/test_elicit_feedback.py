@@ -7,14 +7,11 @@ import pandas as pd
 import pytest
 from scipy import optimize, stats
 
-from elicit.feedback import (
-    coefficient_feedback,
-    feedback,
-    format_text,
-    prior_predictive,
-    to_json,
-)
-from elicit.spec import parse_priors
+from elicit.errors import InputError
+from elicit.feedback import coefficient_feedback, feedback
+from elicit.predictive import prior_predictive
+from elicit.show import format_text, intercept_note, to_json, unavailable_note, unbounded_note
+from elicit.validate import parse_priors
 
 NORMAL_90 = {"name": "x", "low": -90.0, "high": -30.0, "mass": 0.9}
 
@@ -100,10 +97,10 @@ def test_lasso_penalty_is_the_lasso_of_scikit_learn():
 
 def test_student_t_and_flat_have_no_penalty():
     t = coefficient_feedback(
-        one({"name": "x", "family": "student_t", "center": 0.0, "scale": 1.0}), 1.0
+        one({"name": "x", "family": "student_t", "center": 0.0, "scale": 1.0}), noise_sd=1.0
     )
     assert t.penalty is None
-    flat = coefficient_feedback(one({"name": "x", "family": "flat"}), 1.0)
+    flat = coefficient_feedback(one({"name": "x", "family": "flat"}), noise_sd=1.0)
     assert flat.quantiles is None and flat.family == "flat"
 
 
@@ -124,7 +121,7 @@ def test_prior_predictive_all_normal_against_exact():
         }
     )
     means = {"a": 1.0, "b": 3.0}
-    p = prior_predictive(priors, [("row", {"a": 3.0, "b": 1.0})], means, y_mean=10.0)
+    p = prior_predictive(priors, [("row", {"a": 3.0, "b": 1.0})], means=means, y_mean=10.0)
     # y = 10 + a (3 - 1) + b (1 - 3): mean 10 + 4 + 2 = 16, sd sqrt((2 * .5)^2 + (2 * .25)^2)
     sd = math.sqrt(1.0 + 0.25)
     row = p.rows[0]
@@ -132,7 +129,8 @@ def test_prior_predictive_all_normal_against_exact():
     # Source: scipy.stats.norm ppf.
     assert row.low == pytest.approx(stats.norm.ppf(0.05, 16, sd), abs=mc_tolerance(sd))
     assert row.high == pytest.approx(stats.norm.ppf(0.95, 16, sd), abs=mc_tolerance(sd))
-    assert "data" in p.intercept and row.obs_low is None
+    assert "data" in intercept_note(p) and row.obs_low is None
+    assert p.y_mean == 10.0
 
 
 def test_prior_predictive_with_block_and_noise():
@@ -147,7 +145,7 @@ def test_prior_predictive_with_block_and_noise():
     p = prior_predictive(parse_priors(doc), [("x=2", {"x": 2.0})])
     # y = b0 + 2 b1: mean 5, var 1 + 4 - 2 * 2 * 0.5 = 3; a new observation adds 4.
     row = p.rows[0]
-    assert "from its prior" in p.intercept
+    assert "from its prior" in intercept_note(p) and p.y_mean is None
     assert row.median == pytest.approx(5.0, abs=mc_tolerance(math.sqrt(3)))
     assert row.high == pytest.approx(stats.norm.ppf(0.95, 5, math.sqrt(3)), abs=mc_tolerance(2))
     assert row.obs_high == pytest.approx(stats.norm.ppf(0.95, 5, math.sqrt(7)), abs=mc_tolerance(3))
@@ -162,9 +160,12 @@ def test_prior_predictive_needs_an_intercept_and_flags_flat():
             ]
         }
     )
-    assert "intercept" in prior_predictive(priors, [("r", {"a": 1.0})])
-    p = prior_predictive(priors, [("r", {"a": 1.0, "f": 5.0})], {"a": 0.0, "f": 1.0}, y_mean=0.0)
-    assert p.rows[0].median is None and "flat prior on f" in p.rows[0].unbounded
+    assert "intercept" in unavailable_note(prior_predictive(priors, [("r", {"a": 1.0})]))
+    p = prior_predictive(
+        priors, [("r", {"a": 1.0, "f": 5.0})], means={"a": 0.0, "f": 1.0}, y_mean=0.0
+    )
+    assert p.rows[0].median is None and "flat prior on f" in unbounded_note(p.rows[0])
+    assert p.rows[0].flat == ("f",)
 
 
 def test_feedback_with_data_and_json():
@@ -188,3 +189,10 @@ def test_feedback_with_data_and_json():
     assert len(out["predictive"]["rows"]) == 3
     text = format_text(fb)
     assert "P(positive)" in text and "implied response" in text
+
+
+@pytest.mark.parametrize("noise_sd", [-1.0, 0.0, math.inf])
+def test_feedback_names_the_parameter_not_a_flag(noise_sd):
+    priors = parse_priors({"coefficient": [NORMAL_90]})
+    with pytest.raises(InputError, match=f"^noise_sd must be positive, got {noise_sd:g}$"):
+        feedback(priors, noise_sd=noise_sd)

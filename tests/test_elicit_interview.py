@@ -10,7 +10,8 @@ from pathlib import Path
 import pytest
 
 from elicit.interview import Interview, Term
-from elicit.spec import parse_priors, read_prior_file
+from elicit.read import read_prior_file
+from elicit.validate import parse_priors
 
 ROOT = Path(__file__).resolve().parents[1]
 # Invented data for the test.
@@ -92,8 +93,11 @@ def test_kill_midway_then_resume(tmp_path):
     assert "already answered: x1" in resumed.stdout
     assert "not accepted:" in resumed.stdout and "field 'high'" in resumed.stdout
     assert "P(positive)" in resumed.stdout and "implied response" in resumed.stdout
+    # the noise feedback of the interview: median and 90% interval of the sd, and the shape
+    assert ("\nnoise sd: median 0.5547, 90% interval 0.3 .. 1.5 (inverse gamma on the variance, "
+            "shape 1.415)\n") in resumed.stdout  # fmt: skip
     final = read_prior_file(out)
-    assert final == parse_priors(expected_doc(), str(out))
+    assert final == parse_priors(expected_doc(), source=str(out))
 
     # a third start has nothing left to ask (in-process: no prompt may be reached)
     said = []
@@ -119,9 +123,10 @@ def test_input_ending_early_keeps_accepted_answers(tmp_path):
 
 def test_interview_api_with_scripted_answers(tmp_path):
     answers = iter(["student_t", "3", "10", "-5", "5", "0.95", "C", "why not", "a"])
-    said = []
+    said, prompts = [], []
 
     def ask(prompt, type=None, default=None):
+        prompts.append(prompt)
         value = next(answers)
         return type(value) if callable(type) and not hasattr(type, "choices") else value
 
@@ -133,9 +138,13 @@ def test_interview_api_with_scripted_answers(tmp_path):
         {"study": {"response": "y"}, "coefficient": [
             {"name": "x1", "family": "student_t", "df": 3.0, "per": 10.0, "low": -5.0,
              "high": 5.0, "mass": 0.95, "expert": "C", "rationale": "why not"}]},
-        str(tmp_path / "q.toml"),
+        source=str(tmp_path / "q.toml"),
     )  # fmt: skip
-    assert any("kg of x1" in s or "student_t" in s for s in said)
+    # the predictor's units, in the heading and in the questions about the range
+    assert "\n[1/1] x1 (kg)" in said
+    assert prompts[2] == "The range is for a change of how many kg of x1"
+    assert prompts[3] == "Lowest plausible change in y per 10 kg of x1"
+    assert prompts[4] == "Highest plausible change in y per 10 kg of x1"
 
 
 def test_resume_refuses_a_file_for_another_response(tmp_path):
@@ -144,6 +153,15 @@ def test_resume_refuses_a_file_for_another_response(tmp_path):
 
     with pytest.raises(PriorFileError, match="field 'response'"):
         Interview(tmp_path / "q.toml", "y", None, None)
+
+
+def test_conditional_questions_need_the_data(tmp_path):
+    from elicit.errors import InputError
+
+    session = Interview(tmp_path / "c.toml", "y", None, lambda text: None)
+    with pytest.raises(InputError, match="need the data"):
+        session.run([Term("x1")], conditional=True)
+    assert not (tmp_path / "c.toml").exists()
 
 
 def scripted(answers):
@@ -166,8 +184,8 @@ def test_conditional_interview_reproduces_the_stated_rows_and_fits(tmp_path):
     from scipy import stats
 
     from bayes.api import fit
-    from elicit.feedback import prior_predictive
     from elicit.interview import terms_from_data
+    from elicit.predictive import prior_predictive
 
     frame = pd.read_csv(io.StringIO(DATA))
     # expert; rows (means, x1 high, x2 high): low, high, mass; accept; noise; accept
@@ -189,7 +207,7 @@ def test_conditional_interview_reproduces_the_stated_rows_and_fits(tmp_path):
         "a",
     ]
     out = tmp_path / "c.toml"
-    session = Interview(out, "y", scripted(answers), lambda text: None, frame)
+    session = Interview(out, "y", scripted(answers), lambda text: None, frame=frame)
     priors = session.run(terms_from_data(frame, "y"), conditional=True)
     assert read_prior_file(out) == priors
     block = priors.block

@@ -87,7 +87,7 @@ def test_log_pool_of_two_laplaces_against_closed_form():
 
 def test_unknown_method():
     with pytest.raises(ValueError, match="unknown pool method"):
-        pool([Op("normal", 0, 1)], "mean", "normal")
+        pool([Op("normal", 0, 1)], method="mean", family="normal")
 
 
 def test_brentq_reference_for_student_t_mixture():

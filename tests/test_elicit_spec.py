@@ -1,4 +1,4 @@
-"""The prior file and its one validator (elicit.spec)."""
+"""The validated prior objects (elicit.spec), the one validator (elicit.validate) and the reader."""
 
 import math
 import textwrap
@@ -8,14 +8,10 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from elicit.spec import (
-    CoefficientPrior,
-    ElicitationWarning,
-    PriorFileError,
-    flat_priors,
-    parse_priors,
-    read_prior_file,
-)
+from elicit.errors import ElicitationWarning, PriorFileError
+from elicit.read import read_prior_file
+from elicit.spec import CoefficientPrior, flat_priors
+from elicit.validate import parse_priors
 
 EXAMPLE = """
 [study]
@@ -158,7 +154,7 @@ def test_known_noise():
 def test_bad_coefficient_entry_names_file_entry_and_field(entry, field, words):
     doc = {"coefficient": [{"name": "ok", "center": 0.0, "scale": 1.0}, entry]}
     with pytest.raises(PriorFileError) as info:
-        parse_priors(doc, "p.toml")
+        parse_priors(doc, source="p.toml")
     message = str(info.value)
     assert message.startswith("p.toml: coefficient 2")
     assert f"field '{field}'" in message
@@ -197,7 +193,7 @@ def test_missing_file():
 )
 def test_bad_tables(doc, where, field):
     with pytest.raises(PriorFileError, match=rf"p.toml: {re_escape(where)}: field '{field}'"):
-        parse_priors(doc, "p.toml")
+        parse_priors(doc, source="p.toml")
 
 
 def re_escape(text):
@@ -209,7 +205,7 @@ def re_escape(text):
 def test_non_positive_definite_correlation_block():
     doc = {"correlation": {"names": ["a", "b"], "mean": [0, 0], "cov": [[1, 2], [2, 1]]}}
     with pytest.raises(PriorFileError, match=r"\[correlation\]: field 'cov': .*positive definite"):
-        parse_priors(doc, "p.toml")
+        parse_priors(doc, source="p.toml")
 
 
 def test_correlation_name_also_in_an_entry():
@@ -218,7 +214,7 @@ def test_correlation_name_also_in_an_entry():
         "correlation": {"names": ["a"], "mean": [0], "cov": [[1]]},
     }
     with pytest.raises(PriorFileError, match="field 'names'"):
-        parse_priors(doc, "p.toml")
+        parse_priors(doc, source="p.toml")
 
 
 def test_check_columns_names_the_unknown_column(tmp_path):
@@ -264,7 +260,7 @@ def test_mixed_families_need_a_pool_family():
         {"name": "x", "family": "laplace", "center": 0.0, "scale": 1.0},
     ]
     with pytest.raises(PriorFileError, match="differ in family"):
-        parse_priors({"coefficient": entries}, "p.toml")
+        parse_priors({"coefficient": entries}, source="p.toml")
     c = parse_priors({"coefficient": entries, "pool": {"family": "laplace"}}).get("x")
     assert c.family == "laplace"
 
@@ -273,7 +269,7 @@ def test_asymmetric_quantiles_warn_with_entry():
     doc = {"coefficient": [{"name": "x", "quantiles": [[0.05, -80], [0.5, -60], [0.95, -35]]}]}
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        ps = parse_priors(doc, "p.toml")
+        ps = parse_priors(doc, source="p.toml")
     assert any(
         issubclass(w.category, ElicitationWarning) and "p.toml: coefficient 1 (x)" in str(w.message)
         for w in caught

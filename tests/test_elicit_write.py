@@ -8,7 +8,8 @@ from dataclasses import replace
 import pytest
 
 from elicit.io import atomic_write_text
-from elicit.spec import parse_priors, read_prior_file
+from elicit.read import read_prior_file
+from elicit.validate import parse_priors
 from elicit.write import dump_toml, write_prior_file
 
 DOC = {
@@ -42,7 +43,7 @@ def same(a, b):
 
 
 def test_round_trip_of_every_kind_of_entry(tmp_path):
-    original = parse_priors(DOC, "doc")
+    original = parse_priors(DOC, source="doc")
     path = tmp_path / "out.toml"
     write_prior_file(original, path, header="written by a test")
     again = read_prior_file(path)

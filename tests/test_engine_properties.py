@@ -8,7 +8,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import bayes
-from elicit.spec import parse_priors
+from elicit.validate import parse_priors
 
 NAMES = ["a", "b", "c"]
 
@@ -30,7 +30,7 @@ def _priors(noise: dict, centers=(1.0, 0.0, 1.0), scales=(2.0, 1.0, 3.0)):
         ],
         "noise": noise,
     }
-    return parse_priors(doc, "test")
+    return parse_priors(doc, source="test")
 
 
 NOISES = st.sampled_from([{"sd": 1.2}, {"low": 0.5, "high": 2.0, "mass": 0.9}])

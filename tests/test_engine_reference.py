@@ -9,7 +9,8 @@ from conftest import DEMO, GAUSSIAN_PRIORS, lre
 from scipy import integrate, stats
 
 import bayes
-from elicit.spec import parse_priors, read_prior_file
+from elicit.read import read_prior_file
+from elicit.validate import parse_priors
 
 
 def _t_se(row: dict, df: float, level: float = 0.95) -> float:
@@ -61,7 +62,7 @@ def _normal_priors(names, center, sd, noise):
         "coefficient": [{"name": n, "center": center, "scale": sd} for n in names],
         "noise": noise,
     }
-    return parse_priors(doc, "test")
+    return parse_priors(doc, source="test")
 
 
 def test_gaussian_mode_equals_sklearn_ridge():
@@ -107,7 +108,7 @@ def test_known_noise_posterior_equals_textbook_closed_form():
         ],
         "noise": {"sd": sigma},
     }
-    result = bayes.fit(frame, "strength", names, priors=parse_priors(doc, "test"))
+    result = bayes.fit(frame, "strength", names, priors=parse_priors(doc, source="test"))
     X, y, P, m = _normal_equations_problem(frame, names, priors)
     precision = X.T @ X / sigma**2 + P
     cov = np.linalg.inv(precision)
@@ -177,7 +178,7 @@ def test_flat_prior_with_stated_noise_is_conjugate_student_t(longley):
     # Source: conjugate normal/inverse-gamma model with flat coefficient priors, Gelman et
     # al., Bayesian Data Analysis, ch. 14: beta | y ~ t_{n-k+2a}(beta_ls, (2b + RSS)/(n-k+2a)
     # (X'X)^-1). Computed here with the normal equations.
-    priors = parse_priors({"noise": {"shape": 3.0, "scale": 2.0e5}}, "test")
+    priors = parse_priors({"noise": {"shape": 3.0, "scale": 2.0e5}}, source="test")
     result = bayes.fit(longley, "y", priors=priors)
     X = np.column_stack([np.ones(len(longley)), longley.drop(columns="y").to_numpy()])
     y = longley["y"].to_numpy()

@@ -23,7 +23,7 @@ from bayes.engine.scaled import scaled_prior
 from bayes.errors import InputError
 from bayes.problem import natural_transform
 from bayes.settings import SamplerSettings
-from elicit.spec import parse_priors
+from elicit.validate import parse_priors
 
 NAMES = ("a", "b")
 
@@ -42,7 +42,7 @@ def small_data(n: int = 14, outlier: float = 0.0, seed: int = 3):
 
 
 def setup(doc: dict, X, y):
-    priors = parse_priors(doc, "set.toml")
+    priors = parse_priors(doc, source="set.toml")
     factor = factor_from_arrays(X, y, NAMES)
     return priors, factor, scaled_prior(factor, priors)
 
@@ -280,7 +280,7 @@ def test_bridge_sampling_on_gibbs_draws_matches_numerical_integration(doc):
     n = 20
     x = rng.uniform(0.4, 0.6, n)
     y = 80 - 60 * x + rng.normal(0, 2, n)
-    priors = parse_priors(doc, "sampled.toml")
+    priors = parse_priors(doc, source="sampled.toml")
     factor = factor_from_arrays(x[:, None], y, ["x"])
     prior = scaled_prior(factor, priors)
     draws = sample(factor, prior, SamplerSettings(chains=4, draws=1000, warmup=300, seed=2))

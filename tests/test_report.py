@@ -24,7 +24,8 @@ from bayes.report.render import render_html, render_markdown, write_report
 from bayes.results.format import fmt_by_sd
 from bayes.settings import SamplerSettings
 from bayes.store import save_fit
-from elicit.spec import parse_priors, read_prior_file
+from elicit.read import read_prior_file
+from elicit.validate import parse_priors
 
 NAMES = ["water_cement", "fly_ash", "curing_temp", "superplasticizer"]
 SECTION_ORDER = ["study", "data", "priors", "posterior", "figures", "sensitivity", "method",
@@ -204,7 +205,7 @@ def test_pooled_coefficient_lists_both_experts(tmp_path):
              "expert": "engineer C", "rationale": "plant records"},
         ],
     }  # fmt: skip
-    result = bayes.fit(frame, "strength", NAMES, priors=parse_priors(doc, "pooled.toml"))
+    result = bayes.fit(frame, "strength", NAMES, priors=parse_priors(doc, source="pooled.toml"))
     report = report_from_result(result, figures=False)
     table = next(b for s in report.sections if s.key == "priors" for b in s.blocks
                  if getattr(b, "key", "") == "priors")  # fmt: skip

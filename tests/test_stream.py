@@ -22,7 +22,7 @@ from bayes.data.stream import stream_factor
 from bayes.errors import InputError
 from bayes.settings import SamplerSettings
 from elicit.io import read_table
-from elicit.spec import parse_priors
+from elicit.validate import parse_priors
 
 PRIORS = """
 [noise]
@@ -94,7 +94,7 @@ def small(tmp_path_factory):
 
 @pytest.fixture(scope="module")
 def priors():
-    return parse_priors(tomllib.loads(PRIORS), "priors.toml")
+    return parse_priors(tomllib.loads(PRIORS), source="priors.toml")
 
 
 def in_memory(path, priors=None, drop_missing=False, predictors=None, **options):
@@ -375,7 +375,7 @@ def test_streamed_factor_feeds_the_sampler(records, priors):
     _, csv, _ = records
     laplace = parse_priors(
         tomllib.loads(PRIORS.replace('family = "normal"\ncenter', 'family = "laplace"\ncenter')),
-        "laplace.toml",
+        source="laplace.toml",
     )
     assert any(c.family == "laplace" for c in laplace.coefficients)
     streamed = stream_factor(csv, "output", chunk_rows=600)

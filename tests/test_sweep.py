@@ -21,7 +21,7 @@ from bayes.errors import InputError
 from bayes.problem import DataFactor
 from bayes.sensitivity.sweep import Threshold, default_factors, sweep
 from bayes.settings import SamplerSettings
-from elicit.spec import parse_priors
+from elicit.validate import parse_priors
 
 
 @pytest.fixture(autouse=True)
@@ -137,15 +137,17 @@ def pooled_doc(method: str) -> dict:
     ids=["block-all", "block-part", "intercept+one", "expert-log", "expert-linear", "pooled-one"],
 )
 def test_subsets_blocks_and_experts_equal_refits(demo_factor, doc, columns, expert):
-    priors = parse_priors(doc, "invented")
+    priors = parse_priors(doc, source="invented")
     factors = [0.3, 1.0, 2.5]
     result = sweep(demo_factor, priors, factors=factors, columns=columns, expert=expert,
                    family_swap=False)  # fmt: skip
     for i, f in enumerate(factors):
-        assert_point(result, i, refit(demo_factor, priors.rescaled(f, columns, expert)))
+        assert_point(
+            result, i, refit(demo_factor, priors.rescaled(f, columns=columns, expert=expert))
+        )
     # The flat-prior limit is the limit of the refits: at f = 1e6 the widened priors weigh
     # ~1e-12 of what they did, far below the 1e-6 tolerance.
-    far = refit(demo_factor, priors.rescaled(1e6, columns, expert))
+    far = refit(demo_factor, priors.rescaled(1e6, columns=columns, expert=expert))
     for j, c in enumerate(result.coefficients):
         m = far.coefficient(j)
         np.testing.assert_allclose(c.mean[-1], m.mean, rtol=1e-6, atol=1e-6 * m.sd)

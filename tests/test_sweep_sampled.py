@@ -17,7 +17,7 @@ from threadpoolctl import threadpool_limits
 from bayes.data.factor import factor_from_arrays
 from bayes.sensitivity.sweep import sweep
 from bayes.settings import SamplerSettings
-from elicit.spec import parse_priors
+from elicit.validate import parse_priors
 
 SIGMA, CENTER, SCALE = 1.0, -0.5, 0.5
 

@@ -16,8 +16,8 @@ from bayes.data.design import build_design
 from bayes.data.terms import Terms
 from bayes.errors import InputError
 from bayes.results.predict import predict
-from elicit.spec import parse_priors
 from elicit.units import term_units
+from elicit.validate import parse_priors
 
 LEVELS = ("CEM-A", "CEM-B", "CEM-C")
 
@@ -133,7 +133,7 @@ def test_formula_path_equals_explicit_columns(tmp_path, demo_frame):
             {"name": "I(water_cement ** 2)", "center": 0.0, "scale": 50.0},
         ],
     }
-    priors = parse_priors(doc, "derived.toml")
+    priors = parse_priors(doc, source="derived.toml")
     formula = ("strength ~ water_cement + fly_ash + curing_temp + fly_ash:curing_temp"
                " + I(water_cement**2)")  # fmt: skip
     by_formula = bayes.fit(demo_frame, formula=formula, priors=priors)
@@ -163,14 +163,14 @@ def test_level_priors_map_to_the_level_columns(mixes):
         return out
 
     noise = {"sd": 2.0}
-    level_priors = parse_priors({"noise": noise, "coefficient": entries(True)}, "a")
+    level_priors = parse_priors({"noise": noise, "coefficient": entries(True)}, source="a")
     by_level = bayes.fit(
         mixes, "strength", ["water_cement", "fly_ash", "cement_type"], priors=level_priors
     )
     by_name = bayes.fit(
         indicator_frame(mixes, "CEM-A"), "strength",
         ["water_cement", "fly_ash", "cement_type[CEM-B]", "cement_type[CEM-C]"],
-        priors=parse_priors({"noise": noise, "coefficient": entries(False)}, "b"),
+        priors=parse_priors({"noise": noise, "coefficient": entries(False)}, source="b"),
     )  # fmt: skip
     assert by_level.summary().loc["cement_type[CEM-B]", "prior"] == "normal(2, 2)"
     pd.testing.assert_frame_equal(table(by_level), table(by_name), rtol=1e-12)
@@ -202,7 +202,7 @@ def test_numbers_used_as_categories(mixes):
     ],
 )  # fmt: skip
 def test_prior_entries_that_do_not_fit_the_terms_are_named(mixes, entry, words):
-    priors = parse_priors({"coefficient": [entry]}, "bad.toml")
+    priors = parse_priors({"coefficient": [entry]}, source="bad.toml")
     formula = ("strength ~ water_cement + cement_type + fly_ash:curing_temp"
                " + I(water_cement**2)")  # fmt: skip
     with pytest.raises(InputError, match="bad.toml") as info:
@@ -340,7 +340,7 @@ def test_demo_prior_names_match_the_printed_names(demo_frame):
 
 def test_interview_asks_each_level_against_the_reference_and_each_derived_term(tmp_path, mixes):
     from elicit.cli import main as elicit_main
-    from elicit.spec import read_prior_file
+    from elicit.read import read_prior_file
 
     data = tmp_path / "mixes.csv"
     mixes.to_csv(data, index=False)

@@ -53,7 +53,7 @@ class GaussianEngine:
             return CoefficientMixtures.from_path(self.stated, 1.0 / f**2)
         if f == 1.0:
             return CoefficientMixtures.from_path(self.stated, 1.0)
-        rescaled = self.priors.rescaled(f, self.columns, self.expert)
+        rescaled = self.priors.rescaled(f, columns=self.columns, expert=self.expert)
         path = WidthPath.build(self.factor, scaled_prior(self.factor, rescaled))
         return CoefficientMixtures.from_path(path, 1.0)
 

@@ -11,8 +11,8 @@ from scipy import special
 
 from bayes.errors import InputError
 from bayes.sensitivity.wording import selection_words
+from elicit.conditional import CorrelatedBlock
 from elicit.pool import pool
-from elicit.spec import CorrelatedBlock
 
 
 def block_names(priors) -> tuple[str, ...]:
@@ -97,7 +97,7 @@ def flat_limit(priors, *, columns=None, expert=None):
             # statements' factors tend to constants, the others keep their exponents
             # w_i / sum(all w): the pool of the others with precision times sum(w_others) /
             # sum(all w) (exact for normal pools).
-            pooled = pool(others, "log", c.family, c.df)
+            pooled = pool(others, method="log", family=c.family, df=c.df)
             share = sum(s.weight for s in others) / sum(s.weight for s in c.statements)
             coefs.append(replace(c, center=pooled.center, scale=pooled.scale / math.sqrt(share),
                                  pool_misfit=pooled.misfit))  # fmt: skip

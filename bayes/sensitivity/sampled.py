@@ -199,8 +199,11 @@ class SampledEngine:
         """The scaled prior with the swept priors ``f`` times as wide (cached)."""
         f = float(f)
         if f not in self._priors_at:
-            rescaled = self.priors if f == 1.0 else self.priors.rescaled(f, self.columns,
-                                                                       self.expert)  # fmt: skip
+            rescaled = (
+                self.priors
+                if f == 1.0
+                else self.priors.rescaled(f, columns=self.columns, expert=self.expert)
+            )
             self._priors_at[f] = scaled_prior(self.factor, rescaled)
         return self._priors_at[f]
 
