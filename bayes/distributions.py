@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special, stats
 
-from bayes.engine.arrays import ReadOnlyArrays
+from bayes.arrays import ReadOnlyArrays
 
 
 class Distribution(ReadOnlyArrays, ABC):

@@ -16,20 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-
-def read_only(a) -> np.ndarray:
-    """``a`` as a read-only float array, for the frozen objects that hold arrays.
-
-    An array that is read-only already is kept as it is; any other array given is
-    copied first, so the caller's array stays writable and the holder's cannot change.
-    """
-    arr = np.asarray(a, dtype=float)
-    if not arr.flags.writeable:
-        return arr
-    if arr is a or arr.base is not None:
-        arr = arr.copy()
-    arr.flags.writeable = False
-    return arr
+from bayes.arrays import read_only
 
 
 @dataclass(frozen=True, eq=False)
@@ -65,7 +52,7 @@ class DataFactor:
 
     def __post_init__(self) -> None:
         for name in ("x_mean", "x_scale", "R"):
-            object.__setattr__(self, name, read_only(getattr(self, name)))
+            object.__setattr__(self, name, read_only(getattr(self, name), float))
 
     @property
     def p(self) -> int:
@@ -141,7 +128,7 @@ class ScaledPrior:
 
     def __post_init__(self) -> None:
         for name in ("mean", "root_precision", "scale", "df"):
-            object.__setattr__(self, name, read_only(getattr(self, name)))
+            object.__setattr__(self, name, read_only(getattr(self, name), float))
 
     @property
     def gaussian_only(self) -> bool:

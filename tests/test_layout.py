@@ -17,12 +17,13 @@ MAX_LINES = 400
 # elicit sits below all of bayes (its command, elicit.cli, composes the two from above).
 LAYERS = (
     ("elicit",),
-    ("bayes.errors", "bayes.settings", "bayes.threads", "bayes.problem", "bayes.distributions"),
+    ("bayes.errors", "bayes.settings", "bayes.threads", "bayes.arrays"),
+    ("bayes.problem", "bayes.distributions"),
     ("bayes.data",),
     ("bayes.engine",),
     ("bayes.results",),
     ("bayes.api",),
-    ("bayes.sensitivity", "bayes.compare"),
+    ("bayes.sensitivity", "bayes.compare"),  # bayes.compare_wording too
     ("bayes.store",),
     ("bayes.report",),
     ("bayes.demo", "bayes.cli", "elicit.cli"),
@@ -85,7 +86,8 @@ def _layer(module: str) -> int:
     best, rank = -1, None
     for i, names in enumerate(LAYERS):
         for name in names:
-            if (module == name or module.startswith(name + ".")) and len(name) > best:
+            inside = module == name or module.startswith((name + ".", name + "_"))
+            if inside and len(name) > best:
                 best, rank = len(name), i
     assert rank is not None, f"{module} is in no layer: add it to LAYERS"
     return rank

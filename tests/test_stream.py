@@ -15,7 +15,8 @@ from conftest import NIST, lre
 
 import bayes.data.stream
 from bayes.api import fit, fit_factor
-from bayes.cli.app import main, rows_progress
+from bayes.cli.app import main
+from bayes.cli.options import rows_progress
 from bayes.data.design import build_design
 from bayes.data.factor import factor_from_arrays
 from bayes.data.stream import stream_factor

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from bayes.arrays import read_only
 from bayes.data.coding import make_terms
 from bayes.data.columns import (
     check_distinct,
@@ -27,7 +28,6 @@ from bayes.data.columns import (
 )
 from bayes.data.formula import split_formula
 from bayes.errors import InputError
-from bayes.problem import read_only
 
 
 @dataclass(frozen=True, eq=False)
@@ -63,8 +63,8 @@ class Design:
     terms: object | None = None
 
     def __post_init__(self) -> None:
-        object.__setattr__(self, "X", read_only(self.X))
-        object.__setattr__(self, "y", read_only(self.y))
+        object.__setattr__(self, "X", read_only(self.X, float))
+        object.__setattr__(self, "y", read_only(self.y, float))
 
     @property
     def n(self) -> int:

@@ -31,9 +31,9 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from bayes.arrays import read_only
 from bayes.data.columns import checked_values, stack_columns
 from bayes.data.factor import centred_moments, merge_factors
-from bayes.problem import read_only
 
 
 @dataclass(frozen=True, eq=False)
@@ -68,7 +68,7 @@ class Moments:
 
     def __post_init__(self) -> None:
         for name in ("mean", "R", "witness"):
-            object.__setattr__(self, name, read_only(getattr(self, name)))
+            object.__setattr__(self, name, read_only(getattr(self, name), float))
 
 
 def _extend_witness(S: np.ndarray, V: np.ndarray) -> np.ndarray:

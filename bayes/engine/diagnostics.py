@@ -11,7 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from bayes.engine.arrays import ReadOnlyArrays
+from bayes.arrays import ReadOnlyArrays
 
 R_HAT_MAX = 1.01  # split R-hat above this: chains disagree (Vehtari et al., 2021)
 ESS_MIN = 400  # bulk or tail effective sample size below this: too few (Vehtari et al., 2021)

@@ -36,7 +36,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import linalg
 
-from bayes.engine.arrays import ReadOnlyArrays
+from bayes.arrays import ReadOnlyArrays
 from bayes.engine.likelihood import check_prior, data_rows, residual_ss
 from bayes.problem import DataFactor, ScaledPrior
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import special, stats
 
-from bayes.engine.arrays import ReadOnlyArrays
+from bayes.arrays import ReadOnlyArrays
 from bayes.engine.evidence import log_marginal_likelihood
 from bayes.engine.posterior import MixturePosterior
 from bayes.errors import InputError

@@ -24,7 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import linalg
 
-from bayes.engine.arrays import ReadOnlyArrays
+from bayes.arrays import ReadOnlyArrays
 from bayes.engine.likelihood import check_prior, data_rows, residual_ss
 from bayes.problem import DataFactor, ScaledPrior
 

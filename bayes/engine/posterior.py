@@ -18,8 +18,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
+from bayes.arrays import ReadOnlyArrays
 from bayes.distributions import Distribution, Empirical, NormalMixture, StudentT
-from bayes.engine.arrays import ReadOnlyArrays
 
 PREDICTIVE_SEED = 20260  # seed of the new-noise draws added to a sampled predictive
 

@@ -19,7 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import linalg, optimize, stats
 
-from bayes.engine.arrays import ReadOnlyArrays
+from bayes.arrays import ReadOnlyArrays
 from bayes.engine.likelihood import check_identified, data_rows
 from bayes.problem import DataFactor, NoiseSpec, ScaledPrior
 

@@ -41,8 +41,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import linalg, special, stats
 
+from bayes.arrays import ReadOnlyArrays
 from bayes.distributions import mixture_quantile
-from bayes.engine.arrays import ReadOnlyArrays
 from bayes.engine.likelihood import coefficient_names
 from bayes.engine.posterior import MixturePosterior
 from bayes.engine.quadrature import StackedRows, log_sigma_quadrature

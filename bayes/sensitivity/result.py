@@ -12,21 +12,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from bayes.arrays import freeze
 from bayes.sensitivity import wording
-
-
-def freeze_arrays(obj, *names: str) -> None:
-    """Replace the named array attributes of a frozen dataclass by read-only views.
-
-    For ``__post_init__``; attributes that are None are left alone. The caller's arrays
-    stay writable (the flag is set on a view).
-    """
-    for name in names:
-        value = getattr(obj, name)
-        if value is not None:
-            view = np.asarray(value).view()
-            view.flags.writeable = False
-            object.__setattr__(obj, name, view)
 
 
 @dataclass(frozen=True, eq=False)
@@ -69,7 +56,7 @@ class Conclusion:
     span: tuple[float, float]
 
     def __post_init__(self) -> None:
-        freeze_arrays(self, "probability")
+        freeze(self, "probability")
 
     def holds(self, level: float | None = None) -> bool:
         """Whether the conclusion holds at the stated priors (at ``level``, default its own)."""
@@ -145,7 +132,7 @@ class CoefficientSweep:
     prior_interval: tuple[float, float] | None = None
 
     def __post_init__(self) -> None:
-        freeze_arrays(self, "mean", "sd", "lower", "upper", "p_positive", "mode")
+        freeze(self, "mean", "sd", "lower", "upper", "p_positive", "mode")
 
 
 @dataclass(frozen=True, eq=False)
@@ -194,7 +181,7 @@ class SweepResult:
     extra: dict
 
     def __post_init__(self) -> None:
-        freeze_arrays(self, "factors")
+        freeze(self, "factors")
 
     @property
     def headline(self) -> tuple[str, ...]:

@@ -21,6 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import stats
 
+from bayes.arrays import freeze
 from bayes.engine.exact import exact_posterior
 from bayes.engine.likelihood import residual_ss
 from bayes.engine.scaled import scaled_prior
@@ -29,7 +30,6 @@ from bayes.errors import InputError
 from bayes.problem import DataFactor, ScaledPrior, to_natural
 from bayes.sensitivity.conflict import power_scaling_draws, prior_data_conflict
 from bayes.sensitivity.priors import flat_limit, variance_ratios
-from bayes.sensitivity.result import freeze_arrays
 from bayes.sensitivity.wording import (
     CONFLICT_NORMAL_READING,
     no_flat_limit,
@@ -59,7 +59,7 @@ class WeightedDraws:
     weights: np.ndarray
 
     def __post_init__(self) -> None:
-        freeze_arrays(self, "draws", "weights")
+        freeze(self, "draws", "weights")
 
     @classmethod
     def sample(

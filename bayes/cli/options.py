@@ -1,0 +1,217 @@
+"""Options and helpers the `bayes` commands share: model and sampler options, reading the
+files named on the command line, progress bars, printing."""
+
+from __future__ import annotations
+
+import contextlib
+import functools
+import json
+import sys
+from pathlib import Path
+
+import click
+
+from bayes.results.provenance import provenance
+from bayes.settings import DEFAULT_SAMPLER
+
+
+def model_options(f):
+    """Options shared by every command that fits the model to a data file."""
+    options = [
+        click.argument("data", type=click.Path(dir_okay=False)),
+        click.option("--response", help="Response column (default: [study] response)."),
+        click.option(
+            "--predictors",
+            help="Comma-separated predictor columns "
+            "(default: every numeric column but the response).",
+        ),  # fmt: skip
+        click.option("--priors", type=click.Path(dir_okay=False), help="Prior file (TOML)."),
+        term_options,
+        click.option("--drop-missing", is_flag=True, help="Drop rows with missing values."),
+        click.option(
+            "--level",
+            type=float,
+            default=0.95,
+            show_default=True,
+            help="Credible level of the equal-tailed intervals.",
+        ),  # fmt: skip
+        click.option(
+            "--format",
+            "fmt",
+            type=click.Choice(["text", "json"]),
+            default="text",
+            show_default=True,
+        ),  # fmt: skip
+    ]
+    return functools.reduce(lambda g, opt: opt(g), reversed(options), f)
+
+
+def term_options(f):
+    """--formula and --reference: derived terms and categorical predictors (bayes.data.formula)."""
+    options = [
+        click.option(
+            "--formula",
+            help='Model formula instead of --response/--predictors, e.g. "strength ~ '
+            'water_cement + cement_type + fly_ash:curing_temp + I(water_cement**2)".',
+        ),  # fmt: skip
+        click.option(
+            "--reference",
+            "reference",
+            multiple=True,
+            metavar="COLUMN=LEVEL",
+            help="Reference level of a categorical predictor (repeatable; "
+            "default: its most frequent level).",
+        ),  # fmt: skip
+    ]
+    return functools.reduce(lambda g, opt: opt(g), reversed(options), f)
+
+
+def sampler_settings_options(f):
+    """--chains, --draws, --warmup, --seed, with the defaults of :mod:`bayes.settings`."""
+    d = DEFAULT_SAMPLER
+    options = [
+        click.option(
+            "--chains",
+            type=click.IntRange(1),
+            default=d.chains,
+            show_default=True,
+            help="Sampler chains (sampled fits; in a sweep, Laplace/Student-t priors "
+            "and the family swap).",
+        ),  # fmt: skip
+        click.option("--draws", type=click.IntRange(10), default=d.draws, show_default=True),
+        click.option("--warmup", type=click.IntRange(0), default=d.warmup, show_default=True),
+        click.option("--seed", type=int, default=d.seed, show_default=True),
+    ]
+    return functools.reduce(lambda g, opt: opt(g), reversed(options), f)
+
+
+def sampler_options(f):
+    """--method and the options of the Gibbs sampler."""
+    options = [
+        click.option(
+            "--method",
+            type=click.Choice(["auto", "exact", "sample"]),
+            default="auto",
+            show_default=True,
+            help="auto: exact for normal/flat priors, "
+            "sampling when a Laplace or Student-t prior is present.",
+        ),  # fmt: skip
+        sampler_settings_options,
+    ]
+    return functools.reduce(lambda g, opt: opt(g), reversed(options), f)
+
+
+def split_columns(text: str | None) -> list[str] | None:
+    """'a, b,c' -> ['a', 'b', 'c']."""
+    if text is None:
+        return None
+    return [c.strip() for c in text.split(",") if c.strip()]
+
+
+def design_from_options(data, response, predictors, prior_set, drop_missing, formula=None,
+                        reference=()):  # fmt: skip
+    """Read DATA and build the design the command line asks for (used by several commands)."""
+    from bayes.data.coding import reference_levels
+    from bayes.data.design import build_design
+    from bayes.data.formula import formula_response
+    from elicit.io import read_table
+
+    if formula_response(formula) is None:
+        response = response or prior_set.response
+        if not response:
+            raise click.UsageError("give --response (or [study] response in the prior file)")
+    return build_design(
+        read_table(data), response, split_columns(predictors), drop_missing=drop_missing,
+        source=Path(data).name, formula=formula, reference=reference_levels(reference),
+    )  # fmt: skip
+
+
+def fit_from_options(data, response, predictors, priors, drop_missing, level, method, sampler,
+                     progress=None, formula=None, reference=()):  # fmt: skip
+    """Read the files named on the command line and fit (used by several commands)."""
+    from bayes.api import fit, load_priors
+
+    prior_set = load_priors(priors)
+    design = design_from_options(data, response, predictors, prior_set, drop_missing, formula,
+                                 reference)  # fmt: skip
+    return fit(
+        design, priors=prior_set, level=level, method=method, sampler=sampler, progress=progress,
+        provenance=provenance(data, sampler.seed if method != "exact" else None, design.dropped),
+    )  # fmt: skip
+
+
+def streamed_fit_from_options(data, response, predictors, priors, formula, reference,
+                              drop_missing, level, fmt, method, sampler, chunk_rows, engine,
+                              scheduler):  # fmt: skip
+    """Fit from a data factor read in chunks (bayes.data.stream) or by dask (.distributed)."""
+    from bayes.api import fit_factor, load_priors
+    from bayes.errors import InputError
+
+    if formula or reference:
+        raise InputError("--formula and --reference are not available for streamed fits")
+    prior_set = load_priors(priors)
+    response = response or prior_set.response
+    if not response:
+        raise click.UsageError("give --response (or [study] response in the prior file)")
+    with rows_progress(fmt) as progress:
+        if engine == "dask":
+            from bayes.data.distributed import dask_factor
+
+            streamed = dask_factor(data, response, split_columns(predictors),
+                                   drop_missing=drop_missing, chunk_rows=chunk_rows,
+                                   scheduler=scheduler, progress=progress)  # fmt: skip
+        else:
+            from bayes.data.stream import stream_factor
+
+            streamed = stream_factor(data, response, split_columns(predictors),
+                                     drop_missing=drop_missing, chunk_rows=chunk_rows,
+                                     progress=progress)  # fmt: skip
+    with progress_bar(fmt, "sampling") as progress:
+        return fit_factor(
+            streamed.factor, prior_set, response, level=level, method=method, sampler=sampler,
+            progress=progress, provenance=provenance(data, sampler.seed if method != "exact"
+                                                     else None, streamed.dropped),
+        )  # fmt: skip
+
+
+@contextlib.contextmanager
+def rows_progress(fmt: str):
+    """A progress callable(rows, fraction read) for streamed reads: a bar with rows per
+    second on a terminal's stderr, else None."""
+    if fmt == "json" or not sys.stderr.isatty():
+        yield None
+        return
+    import time
+
+    start = time.perf_counter()
+    with click.progressbar(length=1000, label="reading", file=sys.stderr,
+                           item_show_func=lambda text: text) as bar:  # fmt: skip
+
+        def update(rows: int, fraction: float) -> None:
+            rate = rows / max(time.perf_counter() - start, 1e-9)
+            bar.update(round(1000 * fraction) - bar.pos, f"{rows:,} rows, {rate:,.0f} rows/s")
+
+        yield update
+
+
+@contextlib.contextmanager
+def progress_bar(fmt: str, label: str):
+    """A progress callable(done, total) drawing a bar on a terminal's stderr, else None."""
+    if fmt == "json" or not sys.stderr.isatty():
+        yield None
+        return
+    with click.progressbar(length=1, label=label, file=sys.stderr) as bar:
+
+        def update(done: int, total: int) -> None:
+            bar.length = total
+            bar.update(done - bar.pos)
+
+        yield update
+
+
+def emit(obj: dict, text: str, fmt: str) -> None:
+    """Print one JSON object or the text form."""
+    if fmt == "json":
+        click.echo(json.dumps(obj, indent=2, allow_nan=False))
+    else:
+        click.echo(text)
