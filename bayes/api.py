@@ -137,9 +137,7 @@ def fit_factor(
         else:
             from bayes.engine.sampled import sampled_posterior
 
-            posterior, _, _, inference = sampled_posterior(
-                factor, scaled, sampler, progress=progress
-            )
+            posterior, inference = sampled_posterior(factor, scaled, sampler, progress=progress)
         result = FitResult(
             response, factor, priors, posterior, level, data=data, provenance=provenance or {},
             inference=inference, terms=getattr(data, "terms", None),

@@ -22,6 +22,7 @@ from bayes.engine.evidence import Evidence, bridge_sampling, log_marginal_likeli
 from bayes.engine.loo import LooResult, exact_loo, psis_loo
 from bayes.errors import InputError
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
+from bayes.threads import blas_threads
 
 
 @dataclass(frozen=True)
@@ -290,37 +291,38 @@ def compare_priors(
             f"prior_sets must hold at least two prior files to compare, got {len(prior_sets)}"
         )
     factor = factor_from_arrays(design.X, design.y, design.names)
-    names = ("intercept", *design.names)
-    fits = []  # the arguments of each SetResult, the engine's LooResult for its summary
-    for ps in prior_sets:
-        if design.terms is not None:
-            design.terms.check_priors(ps)
-        scaled = scaled_prior(factor, ps)
-        flat = tuple(c for c, f in zip(names, scaled.family, strict=True) if f == "flat")
-        label = ps.path or "priors"
-        if method == "exact" and not scaled.gaussian_only:
-            raise InputError(
-                f"{label}: priors that are not Gaussian need method 'sample' or 'auto', "
-                f"got method {method!r}"
+    with blas_threads(factor.p + 1):  # small problems run on one BLAS thread
+        names = ("intercept", *design.names)
+        fits = []  # the arguments of each SetResult, the engine's LooResult for its summary
+        for ps in prior_sets:
+            if design.terms is not None:
+                design.terms.check_priors(ps)
+            scaled = scaled_prior(factor, ps)
+            flat = tuple(c for c, f in zip(names, scaled.family, strict=True) if f == "flat")
+            label = ps.path or "priors"
+            if method == "exact" and not scaled.gaussian_only:
+                raise InputError(
+                    f"{label}: priors that are not Gaussian need method 'sample' or 'auto', "
+                    f"got method {method!r}"
+                )
+            if method != "sample" and scaled.gaussian_only:
+                post = exact_posterior(factor, scaled)
+                ev = log_marginal_likelihood(factor, scaled)
+                loo = exact_loo(post, design.X, design.y, ps)
+                fits.append((label, ps.title, "exact", ev, loo, flat, scaled.noise.jeffreys, None))
+                continue
+            import arviz as az
+
+            from bayes.engine.gibbs import sample
+
+            d = sample(factor, scaled, sampler, progress=progress)
+            ev = bridge_sampling(factor, scaled, d.gamma, d.sigma, sampler.seed)
+            beta = to_natural(factor, d.gamma)
+            loo = psis_loo(beta, d.sigma, design.X, design.y)
+            r_hat = (
+                float(np.max(az.rhat(az.convert_to_dataset(beta)).to_array()))
+                if sampler.chains > 1
+                else None
             )
-        if method != "sample" and scaled.gaussian_only:
-            post = exact_posterior(factor, scaled)
-            ev = log_marginal_likelihood(factor, scaled)
-            loo = exact_loo(post, design.X, design.y, ps)
-            fits.append((label, ps.title, "exact", ev, loo, flat, scaled.noise.jeffreys, None))
-            continue
-        import arviz as az
-
-        from bayes.engine.gibbs import sample
-
-        d = sample(factor, scaled, sampler, progress=progress)
-        ev = bridge_sampling(factor, scaled, d.gamma, d.sigma, sampler.seed)
-        beta = to_natural(factor, d.gamma)
-        loo = psis_loo(beta, d.sigma, design.X, design.y)
-        r_hat = (
-            float(np.max(az.rhat(az.convert_to_dataset(beta)).to_array()))
-            if sampler.chains > 1
-            else None
-        )
-        fits.append((label, ps.title, "sampled", ev, loo, flat, scaled.noise.jeffreys, r_hat))
-    return Comparison(design.response, design.n, _against_best(fits), provenance or {})
+            fits.append((label, ps.title, "sampled", ev, loo, flat, scaled.noise.jeffreys, r_hat))
+        return Comparison(design.response, design.n, _against_best(fits), provenance or {})

@@ -19,6 +19,7 @@ SMALL_COLUMNS = 128  # at most this many coefficients: one BLAS thread (benchmar
 
 @functools.cache
 def _controller():
+    import scipy.linalg  # noqa: F401  (load scipy's own BLAS first, so that it is limited too)
     from threadpoolctl import ThreadpoolController
 
     return ThreadpoolController()

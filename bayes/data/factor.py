@@ -7,32 +7,14 @@ rows exactly, which is what streaming and distributed fits use.
 
 from __future__ import annotations
 
-import contextlib
-import functools
-import threading
 from collections.abc import Sequence
 
 import numpy as np
 
 from bayes.problem import DataFactor
+from bayes.threads import one_blas_thread
 
 _BLOCK = 1024  # rows per leaf of the tall-skinny QR below (used for up to 256 columns)
-
-
-@functools.cache
-def _blas():
-    from threadpoolctl import ThreadpoolController
-
-    return ThreadpoolController()
-
-
-def _one_blas_thread():
-    """One BLAS thread for the small leaf QRs (OpenBLAS waking its threads for each small
-    call costs more than the call, badly so on a busy machine). Only from the main thread:
-    changing the count while another thread is inside BLAS is not safe."""
-    if threading.current_thread() is not threading.main_thread():
-        return contextlib.nullcontext()
-    return _blas().limit(limits=1, user_api="blas")
 
 
 def _triangular(M: np.ndarray) -> np.ndarray:
@@ -47,7 +29,7 @@ def _triangular(M: np.ndarray) -> np.ndarray:
     k = M.shape[1]
     while M.shape[0] > 2 * _BLOCK and 4 * k <= _BLOCK:
         m = M.shape[0] // _BLOCK * _BLOCK
-        with _one_blas_thread():
+        with one_blas_thread():  # small leaf QRs: waking BLAS threads costs more
             leaves = np.linalg.qr(np.ascontiguousarray(M[:m]).reshape(-1, _BLOCK, k), mode="r")
         M = np.vstack([leaves.reshape(-1, k), M[m:]])
     R = np.linalg.qr(M, mode="r")

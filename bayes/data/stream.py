@@ -24,6 +24,7 @@ from bayes.data.factor import factor_from_moments
 from bayes.data.moments import Moments, block_moments, combine
 from bayes.errors import InputError
 from bayes.problem import DataFactor
+from bayes.threads import one_blas_thread
 from elicit.io import CSV_OPTIONS, is_parquet, read_errors, unreadable
 
 STREAM_BYTES = 100 * 2**20  # files larger than this are streamed unless told otherwise
@@ -276,9 +277,7 @@ def stream_factor(
         chunks = _csv_chunks(path, chunk_rows)
     # One core parses, the other factorises: BLAS threads would only oversubscribe the
     # cores, and OpenBLAS waking a second thread for every small leaf QR is very slow.
-    from threadpoolctl import threadpool_limits
-
-    with threadpool_limits(limits=1, user_api="blas"):
+    with one_blas_thread():
         state, rows, predictors = fold(
             _read_ahead(chunks), response, predictors, source=source, drop_missing=drop_missing,
             progress=progress,

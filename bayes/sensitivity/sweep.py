@@ -42,6 +42,7 @@ from bayes.sensitivity.result import CoefficientSweep, SweepResult
 from bayes.sensitivity.sampled import MIN_ESS, SampledEngine
 from bayes.sensitivity.wording import DEFAULT_RESPONSE, prior_label
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
+from bayes.threads import blas_threads
 
 __all__ = ["SweepResult", "Threshold", "default_factors", "sweep", "sweep_design"]
 
@@ -121,53 +122,56 @@ def sweep(
     swept, selection = widened(priors, names, columns=columns, expert=expert)
     thresholds = thresholds_for(thresholds, names)
     grid = default_factors() if factors is None else factor_grid(factors)
-    if scaled_prior(factor, priors).gaussian_only:
-        engine = GaussianEngine(factor, priors, columns=columns, expert=expert, swept=swept)
-    else:
-        engine = SampledEngine(factor, priors, columns=columns, expert=expert, grid=grid,
-                               sampler=sampler)  # fmt: skip
-    mixes = [engine.at(float(f)) for f in grid]
-    extra = dict(engine.extra)
-    if engine.method == "sampled":
-        extra["ess"] = [m.ess for m in mixes]
-        mixes = [m if m.ess >= MIN_ESS else None for m in mixes]
-    flat_mix, flat_note = engine.flat()
-    notes = ([] if flat_note is None else [flat_note]) + list(engine.notes)
-    a = (1 - level) / 2
-    every = [*mixes, flat_mix]
-    nan = np.full(len(names), np.nan)
-    table = {  # statistic -> (F + 1, k): each computed once per factor for every coefficient
-        key: np.array([nan if m is None else fn(m) for m in every])
-        for key, fn in zip(_STATISTICS, (
-            lambda m: m.mean,
-            lambda m: m.sd,
-            lambda m: m.quantile(a),
-            lambda m: m.quantile(1 - a),
-            lambda m: m.sf(np.zeros(len(names))),
-        ), strict=True)
-    }  # fmt: skip
-    ratios, shares = engine.dominance(names, priors)
-    block = block_names(priors)
-    rows = [
-        CoefficientSweep(
-            name, prior_label(priors.get(name), correlated=name in block), name in swept,
-            *(table[key][:, j] for key in _STATISTICS),
-            None if engine.modes is None else engine.modes[:, j], ratios[j], shares[j],
-            prior_interval(priors, name, level),
+    with blas_threads(len(names)):  # small problems run on one BLAS thread
+        if scaled_prior(factor, priors).gaussian_only:
+            engine = GaussianEngine(factor, priors, columns=columns, expert=expert, swept=swept)
+        else:
+            engine = SampledEngine(factor, priors, columns=columns, expert=expert, grid=grid,
+                                   sampler=sampler)  # fmt: skip
+        mixes = [engine.at(float(f)) for f in grid]
+        extra = dict(engine.extra)
+        if engine.method == "sampled":
+            extra["ess"] = [m.ess for m in mixes]
+            mixes = [m if m.ess >= MIN_ESS else None for m in mixes]
+        flat_mix, flat_note = engine.flat()
+        notes = ([] if flat_note is None else [flat_note]) + list(engine.notes)
+        a = (1 - level) / 2
+        every = [*mixes, flat_mix]
+        nan = np.full(len(names), np.nan)
+        table = {  # statistic -> (F + 1, k): each computed once per factor for every coefficient
+            key: np.array([nan if m is None else fn(m) for m in every])
+            for key, fn in zip(_STATISTICS, (
+                lambda m: m.mean,
+                lambda m: m.sd,
+                lambda m: m.quantile(a),
+                lambda m: m.quantile(1 - a),
+                lambda m: m.sf(np.zeros(len(names))),
+            ), strict=True)
+        }  # fmt: skip
+        ratios, shares = engine.dominance(names, priors)
+        block = block_names(priors)
+        rows = [
+            CoefficientSweep(
+                name, prior_label(priors.get(name), correlated=name in block), name in swept,
+                *(table[key][:, j] for key in _STATISTICS),
+                None if engine.modes is None else engine.modes[:, j], ratios[j], shares[j],
+                prior_interval(priors, name, level),
+            )
+            for j, name in enumerate(names)
+        ]  # fmt: skip
+        conclusions = follow_conclusions(
+            engine, every, table["p_positive"], names, response=response, thresholds=thresholds,
+            factors=grid, level=conclusion_level,
+        )  # fmt: skip
+        conflict, power = engine.checks(priors)
+        swap = (
+            read_as_families(factor, priors, level=level, sampler=sampler) if family_swap else None
         )
-        for j, name in enumerate(names)
-    ]  # fmt: skip
-    conclusions = follow_conclusions(
-        engine, every, table["p_positive"], names, response=response, thresholds=thresholds,
-        factors=grid, level=conclusion_level,
-    )  # fmt: skip
-    conflict, power = engine.checks(priors)
-    swap = read_as_families(factor, priors, level=level, sampler=sampler) if family_swap else None
-    units = {"response": priors.response_units, **dict(priors.units)}
-    return SweepResult(
-        response, units, grid, level, conclusion_level, engine.method, engine.detail, selection,
-        tuple(rows), tuple(conclusions), conflict, power, swap, tuple(notes), extra,
-    )  # fmt: skip
+        units = {"response": priors.response_units, **dict(priors.units)}
+        return SweepResult(
+            response, units, grid, level, conclusion_level, engine.method, engine.detail, selection,
+            tuple(rows), tuple(conclusions), conflict, power, swap, tuple(notes), extra,
+        )  # fmt: skip
 
 
 def sweep_design(design, priors, **options) -> SweepResult:
