@@ -14,7 +14,9 @@ import functools
 import threading
 from collections.abc import Iterator
 
-SMALL_COLUMNS = 128  # at most this many coefficients: one BLAS thread (benchmarks/threads.py)
+# At most this many coefficients: one BLAS thread. On this 2-core shared machine one thread won
+# at every width benchmarks/threads.py tried (p = 6 to 500, default/one = 1.3 to 4.2 under load).
+SMALL_COLUMNS = 512
 
 
 @functools.cache
