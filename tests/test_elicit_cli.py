@@ -200,3 +200,24 @@ def test_json_with_infinite_sd(files):
     result = run("show", files / "priors.toml", "--format", "json")
     assert result.exit_code == 0, result.stderr
     assert json.loads(result.stdout)["coefficients"][0]["sd"] is None
+
+
+def test_show_reads_every_table_bayes_fit_reads(files, tmp_path):
+    # One table reader for both commands: spaces after the commas, and a Parquet file.
+    from bayes.cli.app import main as bayes_main
+
+    text = (files / "data.csv").read_text().replace(",", ", ")
+    spaced = tmp_path / "spaced.csv"
+    spaced.write_text(text)
+    import pandas as pd
+
+    parquet = tmp_path / "data.parquet"
+    pd.read_csv(files / "data.csv").to_parquet(parquet)
+    plain = run("show", files / "priors.toml", "--data", files / "data.csv")
+    for data in (spaced, parquet):
+        shown = run("show", files / "priors.toml", "--data", data)
+        assert shown.exit_code == 0, shown.output
+        assert shown.output == plain.output
+        fitted = CliRunner().invoke(bayes_main, ["fit", str(data), "--priors",
+                                                 str(files / "priors.toml")])  # fmt: skip
+        assert fitted.exit_code == 0, fitted.output
