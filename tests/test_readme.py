@@ -60,3 +60,12 @@ def test_walkthrough_commands_print_what_the_readme_shows(tmp_path):
         assert run.returncode == 0, (command, run.stderr)
         actual = run.stdout.rstrip("\n").split("\n")
         assert _matches(expected, actual), f"{command}\n--- printed:\n" + "\n".join(actual)
+
+
+def test_python_example_runs_from_the_top_folder(monkeypatch):
+    text = (ROOT / "README.md").read_text()
+    code = re.search(r"```python\n(.*?)```", text, re.S).group(1)
+    monkeypatch.chdir(ROOT)
+    namespace: dict = {}
+    exec(compile(code, "README.md", "exec"), namespace)  # the README's own example, as printed
+    assert namespace["result"].summary().index[0] == "intercept"
