@@ -50,21 +50,6 @@ class DrawSummary(ReadOnlyArrays):
             raise KeyError(key)
         return getattr(self, key)
 
-    def warnings(self) -> list[str]:
-        """One sentence per quantity with R-hat > 1.01 or bulk/tail ESS < 400."""
-        out = []
-        for name, r, eb, et in zip(
-            self.names, self.r_hat, self.ess_bulk, self.ess_tail, strict=True
-        ):
-            if r > R_HAT_MAX:
-                out.append(f"{name}: R-hat {r:.3f} > {R_HAT_MAX} (chains disagree; draw more)")
-            if min(eb, et) < ESS_MIN:
-                out.append(
-                    f"{name}: effective sample size {min(eb, et):.0f} < {ESS_MIN} "
-                    "(bulk/tail; draw more)"
-                )
-        return out
-
 
 def _dataset(arviz, gamma: np.ndarray, sigma: np.ndarray | None, names: Sequence[str]):
     data = {"beta": np.asarray(gamma, dtype=float)}
