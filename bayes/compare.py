@@ -201,6 +201,16 @@ class Comparison:
     def best_loo(self) -> int:
         return int(np.argmax([s.loo.elpd for s in self.sets]))
 
+    def __repr__(self) -> str:
+        from bayes.results.display import comparison_repr
+
+        return comparison_repr(self)
+
+    def _repr_html_(self) -> str:
+        from bayes.results.display import comparison_html
+
+        return comparison_html(self)
+
     def to_dict(self) -> dict:
         """One JSON-ready object (``bayes compare --format json``, ``compare.json``)."""
         probs, log_b = self.probabilities, self.log_bayes_factors_vs_best

@@ -136,3 +136,22 @@ def to_inference_data(
         groups["observed_data"] = {"y": np.asarray(observed, dtype=float)}
         dims["y"] = ["observation"]
     return az.from_dict(**groups, coords={"coefficient": list(names)}, dims=dims)
+
+
+def monte_carlo_errors(draws: np.ndarray) -> dict[str, np.ndarray]:
+    """Monte Carlo standard errors of each coefficient's posterior mean and sd, from arviz.
+
+    Parameters
+    ----------
+    draws : ndarray, shape (chains, draws, k)
+
+    Returns
+    -------
+    dict
+        ``mcse_mean`` and ``mcse_sd``, arrays of shape (k,).
+    """
+    az = _arviz()
+    ds = az.convert_to_dataset({"beta": np.asarray(draws, dtype=float)})
+    return {
+        f"mcse_{m}": np.atleast_1d(az.mcse(ds, method=m)["beta"].values) for m in ("mean", "sd")
+    }

@@ -150,11 +150,48 @@ class FitResult:
             at += abs(mode - centre) <= 8 * np.finfo(float).eps * max(abs(centre), 1e-300)
         return at, count
 
+    def units(self) -> dict[str, str]:
+        """Units of each coefficient in words ("MPa per ratio"), from the prior file's units."""
+        from elicit.units import term_units
+
+        given = dict(getattr(self.priors, "units", {}) or {})
+        response = getattr(self.priors, "response_units", None)
+        return {name: term_units(name, given, response) for name in self.names}
+
     def summary(self):
-        """The coefficient table as a pandas DataFrame indexed by coefficient name."""
+        """The coefficient table as a pandas DataFrame indexed by coefficient name.
+
+        Columns: those of :attr:`rows`, the coefficient's ``units`` and, for sampled fits,
+        the Monte Carlo standard errors ``mcse_mean`` and ``mcse_sd`` (arviz).
+
+        Examples
+        --------
+        >>> import bayes, pandas as pd
+        >>> frame = pd.DataFrame({"x": [0.0, 1.0, 2.0, 3.0], "y": [0.1, 0.9, 2.2, 2.8]})
+        >>> table = bayes.fit(frame, response="y").summary()  # least squares: slope 4.7 / 5
+        >>> list(table.index), round(float(table.loc["x", "mean"]), 2)
+        (['intercept', 'x'], 0.94)
+        """
         import pandas as pd
 
-        return pd.DataFrame([dict(r) for r in self.rows]).set_index("name")
+        table = pd.DataFrame([dict(r) for r in self.rows]).set_index("name")
+        table.insert(0, "units", [self.units()[n] for n in table.index])
+        if self.sampled:
+            from bayes.engine.diagnostics import monte_carlo_errors
+
+            for key, values in monte_carlo_errors(self.posterior.draws).items():
+                table[key] = values
+        return table
+
+    def __repr__(self) -> str:
+        from bayes.results.display import fit_repr
+
+        return fit_repr(self)
+
+    def _repr_html_(self) -> str:
+        from bayes.results.display import fit_html
+
+        return fit_html(self)
 
     def to_dict(self) -> dict:
         """The JSON object of the command-line contract (plus extra fields)."""

@@ -227,6 +227,16 @@ class SweepResult:
             {k: v for k, v in doc.items() if k not in _FIELDS},
         )  # fmt: skip
 
+    def __repr__(self) -> str:
+        from bayes.results.display import sweep_repr
+
+        return sweep_repr(self)
+
+    def _repr_html_(self) -> str:
+        from bayes.results.display import sweep_html
+
+        return sweep_html(self)
+
     def to_dict(self) -> dict:
         """The JSON object (``factors`` with the flat-prior limit as None)."""
         coefs = []
