@@ -60,3 +60,52 @@ def test_sweep_and_comparison_show_themselves(exact, demo_frame):
     )
     assert repr(comparison).startswith("<Comparison 'strength': 2 prior sets")
     assert "log evidence" in comparison._repr_html_()
+
+
+@pytest.mark.parametrize(
+    "noise", [{"sd": 3.0}, {"low": 1.5, "high": 4.5, "mass": 0.9}, None],
+    ids=["known", "quadrature", "conjugate"],
+)  # fmt: skip
+def test_exact_draws_match_the_exact_posterior(demo_frame, noise):
+    import tomllib
+
+    from elicit.validate import parse_priors
+
+    doc = tomllib.loads(GAUSSIAN_PRIORS.read_text())
+    if noise is None:  # flat slopes with the Jeffreys noise prior: Student-t marginals
+        doc = {"study": doc.get("study", {})}
+    else:
+        doc["noise"] = noise
+    result = bayes.fit(demo_frame, priors=parse_priors(doc, source="test"))
+    n = 40_000
+    draws = result.sample(n, seed=3)
+    post = result.posterior
+    sd = np.sqrt(np.diag(post.cov))
+    # Monte Carlo check (common practice, no source): the sample mean within 4 standard errors
+    # sd / sqrt(n), the sample sd within 4 of its standard errors, about sd / sqrt(2 n) (the
+    # Student-t case has heavier tails: 6 there).
+    k = 4 if noise is not None else 6
+    mean = draws[list(result.names)].mean().to_numpy()
+    assert np.all(np.abs(mean - post.mean) <= k * sd / np.sqrt(n))
+    spread = draws[list(result.names)].std().to_numpy()
+    assert np.all(np.abs(spread - sd) <= k * sd / np.sqrt(2 * n))
+    if noise == {"sd": 3.0}:
+        assert (draws["sigma"] == 3.0).all()
+    else:
+        # The median's Monte Carlo standard error is about 1.2533 sd / sqrt(n) for a near-normal
+        # sample (common practice, no source); quadrature draws sit on the nodes, so their
+        # median may also be off by the spacing of the nodes around it.
+        median = post.sigma_quantile(0.5)
+        nodes = np.sort(np.asarray(post.sigma, dtype=float))
+        spacing = np.max(np.diff(nodes)) if noise is not None else 0.0
+        tol = 4 * 1.2533 * draws["sigma"].std() / np.sqrt(n) + spacing
+        assert abs(draws["sigma"].median() - median) <= tol
+
+
+def test_sampled_draws_come_from_the_chains(demo_frame):
+    result = bayes.fit(demo_frame, priors=DEMO / "priors.toml",
+                       sampler=SamplerSettings(chains=2, draws=100, warmup=100))  # fmt: skip
+    draws = result.sample(200)
+    assert np.array_equal(draws[list(result.names)].to_numpy(), result.posterior.flat_draws)
+    with pytest.raises(bayes.InputError, match="n must be at most the 200 draws"):
+        result.sample(201)

@@ -183,6 +183,28 @@ class FitResult:
                 table[key] = values
         return table
 
+    def sample(self, n: int = 4000, *, seed: int = 0):
+        """Draws from the posterior as a DataFrame: one column per coefficient, then "sigma".
+
+        Exact fits give iid draws from the exact posterior (see :mod:`bayes.results.draws`);
+        sampled fits give ``n`` of their chains' draws, evenly spaced.
+
+        Examples
+        --------
+        >>> import bayes, pandas as pd
+        >>> frame = pd.DataFrame({"x": [0.0, 1.0, 2.0, 3.0], "y": [0.1, 0.9, 2.2, 2.8]})
+        >>> bayes.fit(frame, response="y").sample(5, seed=1).shape
+        (5, 3)
+        """
+        import pandas as pd
+
+        from bayes.results.draws import posterior_draws
+
+        beta, sigma = posterior_draws(self.posterior, n, seed=seed)
+        table = pd.DataFrame(beta, columns=list(self.names))
+        table["sigma"] = sigma
+        return table
+
     def __repr__(self) -> str:
         from bayes.results.display import fit_repr
 
