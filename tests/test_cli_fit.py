@@ -146,3 +146,14 @@ def test_predict_with_missing_column(tmp_path):
     new = _write(tmp_path, "water_cement,fly_ash\n0.5,0.1\n", "new.csv")
     out = run("predict", fit_dir, new)
     assert out.exit_code == 2 and "curing_temp" in out.stderr
+
+
+def test_predict_level_outside_zero_one_is_one_line(tmp_path):
+    fit_dir = tmp_path / "fit"
+    assert (
+        run("fit", DEMO / "trial_mix.csv", "--response", "strength", "--save", fit_dir).exit_code
+        == 0
+    )
+    out = run("predict", fit_dir, DEMO / "trial_mix.csv", "--level", "2")
+    assert out.exit_code == 2
+    assert out.stderr == "error: --level: level must lie strictly between 0 and 1, got 2.0\n"

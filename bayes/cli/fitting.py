@@ -80,7 +80,7 @@ def predict_command(fit_dir, newdata, level, fmt):
     from elicit.io import read_table
 
     result = load_fit(fit_dir)
-    table = predict(result, read_table(newdata), level, source=Path(newdata).name)
+    table = predict(result, read_table(newdata), level=level, source=Path(newdata).name)
     if fmt == "csv":
         click.echo(table.to_csv(index=False), nl=False)
         return

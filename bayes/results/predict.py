@@ -6,11 +6,12 @@ import numpy as np
 import pandas as pd
 
 from bayes.data.design import predictor_matrix
+from bayes.errors import InputError
 from bayes.results.result import FitResult
 
 
 def predict(
-    result: FitResult, frame: pd.DataFrame, level: float = 0.95, source: str = "new data"
+    result: FitResult, frame: pd.DataFrame, *, level: float = 0.95, source: str = "new data"
 ) -> pd.DataFrame:
     """Mean response and intervals at each row of ``frame``.
 
@@ -32,6 +33,8 @@ def predict(
         ``pred_lower``/``pred_upper`` (predictive interval of a new observation),
         all in response units.
     """
+    if not 0.0 < level < 1.0:
+        raise InputError(f"level must lie strictly between 0 and 1, got {level!r}")
     names = result.factor.names
     if result.terms is not None:
         X = result.terms.matrix(frame, source=source)
