@@ -194,7 +194,9 @@ def psis_loo(
     y = np.asarray(y, dtype=float)
     mu = beta @ A.T  # (chains, draws, n)
     ll = stats.norm.logpdf(y, mu, sigma[..., None])
-    idata = az.from_dict(posterior={"sigma": sigma}, log_likelihood={"y": ll})
+    # every posterior variable, as an InferenceData of the fit has them: arviz estimates the
+    # relative efficiency of the draws from all of them
+    idata = az.from_dict(posterior={"beta": beta, "sigma": sigma}, log_likelihood={"y": ll})
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # the Pareto k values are reported instead
         res = az.loo(idata, pointwise=True)

@@ -205,6 +205,12 @@ class FitResult:
         table["sigma"] = sigma
         return table
 
+    def to_inference_data(self, *, n: int = 4000, seed: int = 0):
+        """The fit as an arviz InferenceData (see :mod:`bayes.results.inference`)."""
+        from bayes.results.inference import to_inference_data
+
+        return to_inference_data(self, n=n, seed=seed)
+
     def __repr__(self) -> str:
         from bayes.results.display import fit_repr
 
