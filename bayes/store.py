@@ -139,7 +139,8 @@ def load_fit(folder: str | Path) -> FitResult:
     missing = [f for f in FILES if not (folder / f).exists()]
     if missing:
         raise InputError(f"{folder}: not a saved fit (missing {', '.join(missing)})")
-    doc = json.loads((folder / "fit.json").read_text())
+    doc = read_json(folder / "fit.json")
+    check_labels(doc, path=folder / "fit.json")
     z = np.load(folder / "posterior.npz")
     factor = DataFactor(
         tuple(str(s) for s in z["factor_names"]), int(z["factor_n"]), z["x_mean"], z["x_scale"],
@@ -156,8 +157,15 @@ def load_fit(folder: str | Path) -> FitResult:
     if (folder / "terms.json").exists():
         from bayes.data.terms import Terms
 
-        coding = json.loads((folder / "terms.json").read_text())
-        terms = Terms.from_dict(coding)
+        coding = read_json(folder / "terms.json")
+        try:
+            terms = Terms.from_dict(coding)
+        except InputError as e:
+            raise InputError(f"{folder / 'terms.json'}: {e}") from None
+        if terms.response != doc["response"] or terms.columns != factor.names:
+            raise InputError(
+                f"{folder / 'terms.json'}: its response and columns differ from the fit's"
+            )
     data = None
     if (folder / "data.csv").exists():
         frame = pd.read_csv(folder / "data.csv")
@@ -176,6 +184,35 @@ def load_fit(folder: str | Path) -> FitResult:
         terms = replace(terms, notes=tuple(n for n in doc["notes"] if n not in own))
         result = replace(result, terms=terms, data=data and replace(data, terms=terms))
     return result
+
+
+def read_json(path: Path) -> dict:
+    """The JSON object in ``path``; an InputError naming the file when it is not one."""
+    try:
+        doc = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, json.JSONDecodeError, UnicodeDecodeError, RecursionError) as e:
+        raise InputError(f"{path}: not readable JSON ({type(e).__name__})") from None
+    if not isinstance(doc, dict):
+        raise InputError(f"{path}: not a JSON object")
+    return doc
+
+
+def check_labels(doc: dict, *, path: Path) -> None:
+    """``fit.json``'s labels repeat its method, detail and mode kind, and the method is known.
+
+    Raises
+    ------
+    InputError
+        Naming the file, when they differ or the method is neither exact nor sampled.
+    """
+    labels = doc.get("labels")
+    keys = ("method", "detail", "mode_kind")
+    if not isinstance(labels, dict) or any(labels.get(k) != doc.get(k) for k in keys):
+        raise InputError(f"{path}: its labels differ from its method, detail and mode_kind")
+    if labels["method"] not in ("exact", "sampled") or not all(
+        isinstance(labels[k], str) for k in keys
+    ):
+        raise InputError(f"{path}: method must be exact or sampled, got {labels['method']!r}")
 
 
 # ----------------------------------------------------------------------------- sweep.json
