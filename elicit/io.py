@@ -139,15 +139,62 @@ def unreadable(path: str | os.PathLike[str], e: Exception) -> InputError:
     return InputError(f"{path}: not a readable table: {first}")
 
 
-def read_table(path: str | os.PathLike[str]):
-    """Read a CSV or Parquet file into a pandas DataFrame: the one table reader of both packages.
-
-    CSV files are read with :data:`CSV_OPTIONS` (spaces after the commas are allowed).
+def header_names(path: str | os.PathLike[str]) -> list[str]:
+    """The names on the first line of a CSV file, as written (pandas renames a repeated name).
 
     Raises
     ------
     InputError
-        When the file is missing, not a readable table, or has no data rows.
+        When a name appears more than once.
+    """
+    import pandas as pd
+
+    row = pd.read_csv(path, header=None, nrows=1, dtype=str, keep_default_na=False,
+                      **CSV_OPTIONS)  # fmt: skip
+    names = [str(v) for v in row.iloc[0]] if len(row) else []
+    twice = sorted({n for n in names if n and names.count(n) > 1})  # pandas names blanks
+    if twice:
+        raise InputError(
+            f"{path}: column name{'s' if len(twice) > 1 else ''} "
+            f"{', '.join(repr(n) for n in twice)} appear{'' if len(twice) > 1 else 's'} more "
+            "than once in the header"
+        )
+    return names
+
+
+def parquet_numbers(frame):
+    """A frame read from Parquet with decimal columns as floats and columns of numbers stored
+    as text as numbers (as a CSV reader reads them); other text columns are left as they are."""
+    import decimal
+
+    import pandas as pd
+
+    out = {}
+    for c in frame.columns:
+        s = frame[c]
+        if s.dtype == object or pd.api.types.is_string_dtype(s):
+            present = s.dropna()
+            if len(present) and all(isinstance(v, decimal.Decimal) for v in present):
+                out[c] = s.astype(float)
+            elif len(present) and all(isinstance(v, str) for v in present):
+                numbers = pd.to_numeric(present, errors="coerce")
+                if numbers.notna().all():
+                    out[c] = pd.to_numeric(s, errors="coerce")
+    return frame.assign(**out) if out else frame
+
+
+def read_table(path: str | os.PathLike[str]):
+    """Read a CSV or Parquet file into a pandas DataFrame: the one table reader of both packages.
+
+    CSV files are read with :data:`CSV_OPTIONS` (spaces after the commas are allowed); a name
+    repeated in the header is an error (:func:`header_names`). Parquet decimals and numbers
+    stored as text are read as numbers (:func:`parquet_numbers`).
+
+    Raises
+    ------
+    InputError
+        When the file is missing, not a readable table, has a repeated column name, or has no
+        data rows.
     """
     import pandas as pd
 
@@ -158,9 +205,12 @@ def read_table(path: str | os.PathLike[str]):
         raise InputError(f"{path}: is a folder, not a data file")
     try:
         if is_parquet(path):
-            frame = pd.read_parquet(path)
+            frame = parquet_numbers(pd.read_parquet(path))
         else:
+            header_names(path)
             frame = pd.read_csv(path, **CSV_OPTIONS)
+    except InputError:
+        raise
     except (*read_errors(), OSError) as e:
         raise unreadable(path, e) from None
     if frame.shape[1] == 0 or frame.shape[0] == 0:
