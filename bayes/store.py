@@ -11,6 +11,7 @@ written beside its final place and swapped in only when complete.
 
 from __future__ import annotations
 
+import hashlib
 import json
 from collections.abc import Callable
 from dataclasses import replace
@@ -23,27 +24,41 @@ from bayes.engine.posterior import DrawsPosterior, MixturePosterior, Posterior
 from bayes.errors import InputError
 from bayes.problem import DataFactor
 from bayes.results.result import FitResult
-from elicit.io import atomic_folder, atomic_write_text
+from elicit.io import atomic_folder, atomic_write_text, replace_files
 
 if TYPE_CHECKING:  # annotations only: loading a fit needs neither
     from bayes.compare import Comparison
     from bayes.sensitivity.sweep import SweepResult
 
 FILES = ("fit.json", "posterior.npz", "priors.toml")
+OWNED = (*FILES, "data.csv", "terms.json", "posterior.nc")  # what save_fit writes or removes
+DERIVED = ("sweep.json", "compare.json")  # written beside a fit, for the fit they record
+FIT_ID = "fit_sha256"  # provenance field of fit.json, and field of the derived files
 _T = TypeVar("_T")
 
 
 def save_fit(result: FitResult, folder: str | Path) -> Path:
-    """Write ``result`` into ``folder`` atomically (replacing an earlier fit there).
+    """Write ``result`` into ``folder`` (replacing an earlier fit there).
+
+    A new folder is written beside its place and renamed in when complete. In an existing
+    fit folder only the files of :data:`OWNED` are replaced, each atomically and
+    ``fit.json`` last; other files (``sweep.json``, ``compare.json``, the user's notes)
+    stay, and the derived ones are known stale by the fit they record (:data:`FIT_ID`).
 
     Sampled fits also get ``posterior.nc``: their arviz InferenceData (posterior and
     prior groups, coordinates named after the columns).
     """
     folder = Path(folder)
+    if folder.exists() and not folder.is_dir():
+        raise InputError(f"{folder}: is a file, not a folder")
     if folder.exists() and not (folder / "fit.json").exists() and any(folder.iterdir()):
         raise InputError(f"{folder}: exists and is not a fit folder; choose another --save path")
-    with atomic_folder(folder) as tmp:
-        _write_fit(result, tmp)
+    if not folder.exists():
+        with atomic_folder(folder) as tmp:
+            _write_fit(result, tmp)
+    else:
+        with replace_files(folder, owned=OWNED, last=("fit.json",)) as tmp:
+            _write_fit(result, tmp)
     return folder
 
 
@@ -62,6 +77,9 @@ def _write_fit(result: FitResult, tmp: Path) -> None:
     np.savez(tmp / "posterior.npz", **arrays)
     doc = result.to_dict()
     doc["labels"] = {"method": post.method, "detail": post.detail, "mode_kind": post.mode_kind}
+    doc["provenance"].pop(FIT_ID, None)  # a loaded fit saved again gets a new one
+    digest = hashlib.sha256(json.dumps(doc, sort_keys=True).encode("utf-8"))
+    doc["provenance"][FIT_ID] = digest.hexdigest()
     (tmp / "fit.json").write_text(json.dumps(doc, indent=2) + "\n")
     src = getattr(result.priors, "path", None)
     text = Path(src).read_text() if src and Path(src).exists() else ""
@@ -186,6 +204,22 @@ def load_fit(folder: str | Path) -> FitResult:
     return result
 
 
+def fit_id(folder: str | Path) -> str | None:
+    """The :data:`FIT_ID` of the fit saved in ``folder`` (None without a fit, or for a fit
+    saved before fits recorded one)."""
+    path = Path(folder) / "fit.json"
+    if not path.exists():
+        return None
+    value = read_json(path).get("provenance", {}).get(FIT_ID)
+    return value if isinstance(value, str) else None
+
+
+def _recorded(doc: dict, folder: Path) -> dict:
+    """``doc`` (of sweep.json or compare.json) with the :data:`FIT_ID` of the fit in ``folder``."""
+    current = fit_id(folder)
+    return doc if current is None else {**doc, FIT_ID: current}
+
+
 def read_json(path: Path) -> dict:
     """The JSON object in ``path``; an InputError naming the file when it is not one."""
     try:
@@ -223,7 +257,8 @@ def save_sweep(result: SweepResult, folder) -> Path:
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     path = folder / "sweep.json"
-    atomic_write_text(path, json.dumps(result.to_dict(), indent=2, allow_nan=False) + "\n")
+    atomic_write_text(path, json.dumps(_recorded(result.to_dict(), folder), indent=2,
+                                       allow_nan=False) + "\n")  # fmt: skip
     return path
 
 
@@ -254,7 +289,8 @@ def compare_path(fit_dir: str | Path) -> Path:
 def save_comparison(comparison: Comparison, fit_dir: str | Path) -> Path:
     """Write ``fit_dir/compare.json`` atomically, beside a fit saved by ``bayes fit --save``."""
     target = compare_path(fit_dir)
-    atomic_write_text(target, json.dumps(comparison.to_dict(), indent=2, allow_nan=False) + "\n")
+    doc = _recorded(comparison.to_dict(), target.parent)
+    atomic_write_text(target, json.dumps(doc, indent=2, allow_nan=False) + "\n")
     return target
 
 
@@ -280,7 +316,8 @@ def load_saved(path: Path, from_dict: Callable[[dict], _T], *, what: str) -> _T 
     Raises
     ------
     InputError
-        When the file is not UTF-8 JSON or not a readable ``what``.
+        When the file is not UTF-8 JSON or not a readable ``what``, or when it records a fit
+        (:data:`FIT_ID`) other than the one saved beside it (it is stale).
     """
     if not path.exists():
         return None
@@ -288,6 +325,12 @@ def load_saved(path: Path, from_dict: Callable[[dict], _T], *, what: str) -> _T 
         doc = json.loads(path.read_text(encoding="utf-8"))
     except (json.JSONDecodeError, UnicodeDecodeError) as e:
         raise InputError(f"{path}: not readable JSON ({e})") from None
+    recorded = doc.get(FIT_ID) if isinstance(doc, dict) else None
+    if recorded is not None and recorded != fit_id(path.parent):
+        raise InputError(
+            f"{path}: stale: this {what} was made for an earlier fit in {path.parent} (the fit "
+            f"was saved again since): make the {what} again for this fit, or move the file away"
+        )
     try:
         return from_dict(doc)
     except (ValueError, KeyError, TypeError, IndexError) as e:

@@ -10,7 +10,7 @@ import contextlib
 import os
 import shutil
 import tempfile
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from pathlib import Path
 
 from elicit.errors import InputError
@@ -116,6 +116,51 @@ def atomic_folder(folder: str | os.PathLike[str]) -> Iterator[Path]:
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise
+
+
+@contextlib.contextmanager
+def replace_files(
+    folder: str | os.PathLike[str], *, owned: Sequence[str], last: Sequence[str] = ()
+) -> Iterator[Path]:
+    """Yield a new empty folder inside the existing ``folder``; when the block ends, each file
+    written there replaces its namesake in ``folder`` and the rest of ``folder`` is kept.
+
+    For a folder that holds the user's files beside the ones a tool writes (a fit folder with
+    its notes, sweeps and comparisons). Each file is renamed in with :func:`os.replace`
+    (atomic), the names in ``last`` after the others (the file a reader looks for first); the
+    names in ``owned`` that the block did not write are removed, since they belong to what was
+    replaced. ``folder`` itself is never moved or removed. On failure nothing in ``folder``
+    changes and the new folder is removed.
+
+    Parameters
+    ----------
+    folder : path
+        An existing folder.
+    owned : sequence of str
+        The file names the writer owns in ``folder``; only these are replaced or removed.
+    last : sequence of str
+        Names renamed in after every other file.
+    """
+    final = Path(folder)
+    tmp = Path(tempfile.mkdtemp(prefix=".replace.", dir=final))
+    try:
+        yield tmp
+        written = sorted((p.name for p in tmp.iterdir() if p.is_file()),
+                         key=lambda name: name in last)  # fmt: skip
+        stray = [n for n in written if n not in owned]
+        if stray:
+            raise ValueError(f"replace_files: {stray[0]} is not one of the owned files")
+        for name in written:
+            with open(tmp / name, "rb+") as handle:
+                os.fsync(handle.fileno())
+            os.chmod(tmp / name, file_mode())
+        for name in written:
+            os.replace(tmp / name, final / name)
+        for name in owned:
+            if name not in written:
+                (final / name).unlink(missing_ok=True)
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
 
 
 # ----------------------------------------------------------------------------- reading

@@ -10,28 +10,14 @@ from __future__ import annotations
 import decimal
 
 import pytest
-from click.testing import CliRunner
-
-from bayes.cli.app import main
+from hostile_helpers import one_line_error, run
 
 ROWS = [(1.0, 2.0, 3.0), (2.0, 3.5, 5.0), (3.0, 4.0, 4.0), (4.2, 5.0, 9.0), (5.1, 7.0, 8.0)]
-
-
-def run(*args):
-    return CliRunner().invoke(main, [str(a) for a in args])
 
 
 def write_csv(path, header, rows):
     path.write_text(header + "\n" + "".join(",".join(r) + "\n" for r in rows))
     return path
-
-
-def one_line_error(result, *words):
-    assert result.exit_code == 2, result.output
-    lines = result.output.strip().splitlines()
-    assert len(lines) == 1, result.output
-    for w in words:
-        assert w in lines[0], lines[0]
 
 
 def plain_rows():

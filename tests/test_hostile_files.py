@@ -12,11 +12,10 @@ import shutil
 from pathlib import Path
 
 import pytest
-from click.testing import CliRunner
 from conftest import ROOT
+from hostile_helpers import one_line_error, run
 
 import bayes
-from bayes.cli.app import main
 from bayes.data.grammar import check_formula
 from bayes.errors import InputError
 
@@ -30,17 +29,10 @@ PAYLOADS = (
 )
 
 
-def run(*args):
-    return CliRunner().invoke(main, [str(a) for a in args])
-
-
 def assert_refused(result, cwd: Path) -> None:
     """Exit 2, one line, and no file made by the payload."""
     assert not (cwd / "PWNED").exists(), "a payload ran"
-    assert result.exit_code == 2, result.output
-    assert result.exception is None or isinstance(result.exception, SystemExit)
-    lines = result.output.strip().splitlines()
-    assert len(lines) == 1 and lines[0].startswith("error: "), result.output
+    one_line_error(result)
 
 
 @pytest.fixture(scope="module")

@@ -118,42 +118,43 @@ class _Parser:
         if t is not None:
             raise _Refused(t[2], f"'{t[1]}' is not expected here", kind="syntax")
 
+    def chain(self, ops: tuple[str, ...], operand) -> None:
+        """``operand (op operand)*`` for the binary operators ``ops`` of one precedence."""
+        operand()
+        while self.at(*ops):
+            self.take()
+            operand()
+
     # formula level: + - * / : ** between terms
     def sum(self) -> None:
         if self.at("+", "-"):
             self.take()
-        self.product()
-        while self.at("+", "-"):
-            self.take()
-            self.product()
+        self.chain(("+", "-"), self.product)
 
     def product(self) -> None:
-        self.colon()
-        while self.at("*", "/"):
-            self.take()
-            self.colon()
+        self.chain(("*", "/"), self.colon)
 
     def colon(self) -> None:
-        self.power()
-        while self.at(":"):
-            self.take()
-            self.power()
+        self.chain((":",), self.power)
 
     def power(self) -> None:
-        self.atom()
+        self.atom(self.sum, arithmetic=False)
         if self.at("**"):
             self.take()
             self.number()
 
-    def atom(self) -> None:
+    def atom(self, inner, *, arithmetic: bool) -> None:
+        """A name, a number, a call, or ``(inner)``: the formula level's or arithmetic's."""
         t = self.take()
         kind, text, pos = t
         if kind == "op" and text == "(":
             self.nest(pos)
-            self.sum()
+            inner()
             self.expect(")")
             self.depth -= 1
         elif kind == "name" and self.at("("):
+            if arithmetic and text == "C":
+                raise _Refused(pos, "C(...) is a term of its own, not arithmetic")
             self.call(t)
         elif kind in ("name", "bq"):
             self.name(t)
@@ -180,16 +181,10 @@ class _Parser:
 
     # inside I(...) and the transforms: Python arithmetic of the same pieces
     def arith(self) -> None:
-        self.aterm()
-        while self.at("+", "-"):
-            self.take()
-            self.aterm()
+        self.chain(("+", "-"), self.aterm)
 
     def aterm(self) -> None:
-        self.unary()
-        while self.at("*", "/"):
-            self.take()
-            self.unary()
+        self.chain(("*", "/"), self.unary)
 
     def unary(self) -> None:
         if self.at("+", "-"):
@@ -199,7 +194,7 @@ class _Parser:
             self.depth -= 1
             return
         start = self.i
-        self.aatom()
+        self.atom(self.arith, arithmetic=True)
         if self.at("**"):
             pos = self.take()[2]
             if not any(k in ("name", "bq") for k, _, _ in self.toks[start : self.i - 1]):
@@ -207,23 +202,6 @@ class _Parser:
             if self.at("-"):
                 self.take()
             self.number()
-
-    def aatom(self) -> None:
-        t = self.take()
-        kind, text, pos = t
-        if kind == "op" and text == "(":
-            self.nest(pos)
-            self.arith()
-            self.expect(")")
-            self.depth -= 1
-        elif kind == "name" and self.at("("):
-            if text == "C":
-                raise _Refused(pos, "C(...) is a term of its own, not arithmetic")
-            self.call(t)
-        elif kind in ("name", "bq"):
-            self.name(t)
-        elif kind != "num":
-            raise _Refused(pos, f"'{text}' is not expected here", kind="syntax")
 
     def number(self) -> None:
         t = self.take()
