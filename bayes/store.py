@@ -24,6 +24,7 @@ from bayes.engine.posterior import DrawsPosterior, MixturePosterior, Posterior
 from bayes.errors import InputError
 from bayes.problem import DataFactor
 from bayes.results.result import FitResult
+from bayes.store_checks import DAMAGE, check_fit_doc, damaged, load_arrays, read_json
 from elicit.io import atomic_folder, atomic_write_text, replace_files
 
 if TYPE_CHECKING:  # annotations only: loading a fit needs neither
@@ -158,19 +159,23 @@ def load_fit(folder: str | Path) -> FitResult:
     if missing:
         raise InputError(f"{folder}: not a saved fit (missing {', '.join(missing)})")
     doc = read_json(folder / "fit.json")
-    check_labels(doc, path=folder / "fit.json")
-    z = np.load(folder / "posterior.npz")
-    factor = DataFactor(
-        tuple(str(s) for s in z["factor_names"]), int(z["factor_n"]), z["x_mean"], z["x_scale"],
-        float(z["y_mean"]), z["R"],
-    )  # fmt: skip
-    post = _posterior_from_arrays(z, doc["labels"])
-    text = (folder / "priors.toml").read_text()
-    priors = (
-        parse_priors(tomllib.loads(text), source=str(folder / "priors.toml"))
-        if text
-        else flat_priors()
-    )
+    check_fit_doc(doc, path=folder / "fit.json")
+    npz = folder / "posterior.npz"
+    z = load_arrays(npz)
+    try:
+        factor = DataFactor(
+            tuple(str(s) for s in z["factor_names"]), int(z["factor_n"]), z["x_mean"],
+            z["x_scale"], float(z["y_mean"]), z["R"],
+        )  # fmt: skip
+        post = _posterior_from_arrays(z, doc["labels"])
+    except DAMAGE as e:
+        raise damaged(npz, e) from None
+    try:
+        text = (folder / "priors.toml").read_text(encoding="utf-8")
+        table = tomllib.loads(text) if text else None
+    except (*DAMAGE, RecursionError) as e:
+        raise damaged(folder / "priors.toml", e) from None
+    priors = parse_priors(table, source=str(folder / "priors.toml")) if text else flat_priors()
     terms, coding = None, None
     if (folder / "terms.json").exists():
         from bayes.data.terms import Terms
@@ -186,13 +191,18 @@ def load_fit(folder: str | Path) -> FitResult:
             )
     data = None
     if (folder / "data.csv").exists():
-        frame = pd.read_csv(folder / "data.csv")
         names = factor.names
-        data = Design(
-            doc["response"], names, frame[list(names)].to_numpy(float),
-            frame[doc["response"]].to_numpy(float), doc["provenance"].get("data", "data"),
-            int(doc["provenance"].get("dropped", 0)), terms,
-        )  # fmt: skip
+        try:
+            frame = pd.read_csv(folder / "data.csv")
+            data = Design(
+                doc["response"], names, frame[list(names)].to_numpy(float),
+                frame[doc["response"]].to_numpy(float), str(doc["provenance"].get("data", "data")),
+                int(doc["provenance"].get("dropped", 0)), terms,
+            )  # fmt: skip
+        except (*DAMAGE, pd.errors.ParserError, pd.errors.EmptyDataError) as e:
+            raise damaged(folder / "data.csv", e) from None
+        if data.n != factor.n or not (np.isfinite(data.X).all() and np.isfinite(data.y).all()):
+            raise InputError(f"{folder / 'data.csv'}: damaged: its rows are not the fit's")
     result = FitResult(doc["response"], factor, priors, post, doc["level"], data=data,
                        provenance=doc["provenance"], terms=terms)  # fmt: skip
     if coding is not None and "notes" not in coding:
@@ -218,35 +228,6 @@ def _recorded(doc: dict, folder: Path) -> dict:
     """``doc`` (of sweep.json or compare.json) with the :data:`FIT_ID` of the fit in ``folder``."""
     current = fit_id(folder)
     return doc if current is None else {**doc, FIT_ID: current}
-
-
-def read_json(path: Path) -> dict:
-    """The JSON object in ``path``; an InputError naming the file when it is not one."""
-    try:
-        doc = json.loads(path.read_text(encoding="utf-8"))
-    except (OSError, json.JSONDecodeError, UnicodeDecodeError, RecursionError) as e:
-        raise InputError(f"{path}: not readable JSON ({type(e).__name__})") from None
-    if not isinstance(doc, dict):
-        raise InputError(f"{path}: not a JSON object")
-    return doc
-
-
-def check_labels(doc: dict, *, path: Path) -> None:
-    """``fit.json``'s labels repeat its method, detail and mode kind, and the method is known.
-
-    Raises
-    ------
-    InputError
-        Naming the file, when they differ or the method is neither exact nor sampled.
-    """
-    labels = doc.get("labels")
-    keys = ("method", "detail", "mode_kind")
-    if not isinstance(labels, dict) or any(labels.get(k) != doc.get(k) for k in keys):
-        raise InputError(f"{path}: its labels differ from its method, detail and mode_kind")
-    if labels["method"] not in ("exact", "sampled") or not all(
-        isinstance(labels[k], str) for k in keys
-    ):
-        raise InputError(f"{path}: method must be exact or sampled, got {labels['method']!r}")
 
 
 # ----------------------------------------------------------------------------- sweep.json

@@ -38,6 +38,16 @@ def folder_mode() -> int:
 
 
 @contextlib.contextmanager
+def naming(target: Path) -> Iterator[None]:
+    """Re-raise an OSError of the block (a temporary file beside ``target`` that cannot be made)
+    as one naming ``target``, the path the user gave."""
+    try:
+        yield
+    except OSError as e:
+        raise type(e)(e.errno, e.strerror, str(target)) from None
+
+
+@contextlib.contextmanager
 def atomic_output(path: str | os.PathLike[str]) -> Iterator[Path]:
     """Yield a temporary path beside ``path``; when the block ends, it replaces ``path``.
 
@@ -51,8 +61,9 @@ def atomic_output(path: str | os.PathLike[str]) -> Iterator[Path]:
     choose the right one.
     """
     target = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=f".tmp{target.suffix}",
-                               dir=target.parent)  # fmt: skip
+    with naming(target):
+        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=f".tmp{target.suffix}",
+                                   dir=target.parent)  # fmt: skip
     os.close(fd)
     tmp_path = Path(tmp)
     try:
@@ -98,8 +109,9 @@ def atomic_folder(folder: str | os.PathLike[str]) -> Iterator[Path]:
     ``folder`` is untouched.
     """
     final = Path(folder)
-    final.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{final.name}.", dir=final.parent))
+    with naming(final):
+        final.parent.mkdir(parents=True, exist_ok=True)
+        tmp = Path(tempfile.mkdtemp(prefix=f".{final.name}.", dir=final.parent))
     try:
         os.chmod(tmp, folder_mode())
         yield tmp
@@ -142,7 +154,8 @@ def replace_files(
         Names renamed in after every other file.
     """
     final = Path(folder)
-    tmp = Path(tempfile.mkdtemp(prefix=".replace.", dir=final))
+    with naming(final):
+        tmp = Path(tempfile.mkdtemp(prefix=".replace.", dir=final))
     try:
         yield tmp
         written = sorted((p.name for p in tmp.iterdir() if p.is_file()),
