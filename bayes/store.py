@@ -11,6 +11,7 @@ written beside its final place and swapped in only when complete.
 
 from __future__ import annotations
 
+import hashlib
 import json
 from collections.abc import Callable
 from dataclasses import replace
@@ -23,27 +24,42 @@ from bayes.engine.posterior import DrawsPosterior, MixturePosterior, Posterior
 from bayes.errors import InputError
 from bayes.problem import DataFactor
 from bayes.results.result import FitResult
-from elicit.io import atomic_folder, atomic_write_text
+from bayes.store_checks import DAMAGE, check_fit_doc, damaged, load_arrays, read_json
+from elicit.io import atomic_folder, atomic_write_text, replace_files
 
 if TYPE_CHECKING:  # annotations only: loading a fit needs neither
     from bayes.compare import Comparison
     from bayes.sensitivity.sweep import SweepResult
 
 FILES = ("fit.json", "posterior.npz", "priors.toml")
+OWNED = (*FILES, "data.csv", "terms.json", "posterior.nc")  # what save_fit writes or removes
+DERIVED = ("sweep.json", "compare.json")  # written beside a fit, for the fit they record
+FIT_ID = "fit_sha256"  # provenance field of fit.json, and field of the derived files
 _T = TypeVar("_T")
 
 
 def save_fit(result: FitResult, folder: str | Path) -> Path:
-    """Write ``result`` into ``folder`` atomically (replacing an earlier fit there).
+    """Write ``result`` into ``folder`` (replacing an earlier fit there).
+
+    A new folder is written beside its place and renamed in when complete. In an existing
+    fit folder only the files of :data:`OWNED` are replaced, each atomically and
+    ``fit.json`` last; other files (``sweep.json``, ``compare.json``, the user's notes)
+    stay, and the derived ones are known stale by the fit they record (:data:`FIT_ID`).
 
     Sampled fits also get ``posterior.nc``: their arviz InferenceData (posterior and
     prior groups, coordinates named after the columns).
     """
     folder = Path(folder)
+    if folder.exists() and not folder.is_dir():
+        raise InputError(f"{folder}: is a file, not a folder")
     if folder.exists() and not (folder / "fit.json").exists() and any(folder.iterdir()):
         raise InputError(f"{folder}: exists and is not a fit folder; choose another --save path")
-    with atomic_folder(folder) as tmp:
-        _write_fit(result, tmp)
+    if not folder.exists():
+        with atomic_folder(folder) as tmp:
+            _write_fit(result, tmp)
+    else:
+        with replace_files(folder, owned=OWNED, last=("fit.json",)) as tmp:
+            _write_fit(result, tmp)
     return folder
 
 
@@ -62,6 +78,9 @@ def _write_fit(result: FitResult, tmp: Path) -> None:
     np.savez(tmp / "posterior.npz", **arrays)
     doc = result.to_dict()
     doc["labels"] = {"method": post.method, "detail": post.detail, "mode_kind": post.mode_kind}
+    doc["provenance"].pop(FIT_ID, None)  # a loaded fit saved again gets a new one
+    digest = hashlib.sha256(json.dumps(doc, sort_keys=True).encode("utf-8"))
+    doc["provenance"][FIT_ID] = digest.hexdigest()
     (tmp / "fit.json").write_text(json.dumps(doc, indent=2) + "\n")
     src = getattr(result.priors, "path", None)
     text = Path(src).read_text() if src and Path(src).exists() else ""
@@ -139,34 +158,51 @@ def load_fit(folder: str | Path) -> FitResult:
     missing = [f for f in FILES if not (folder / f).exists()]
     if missing:
         raise InputError(f"{folder}: not a saved fit (missing {', '.join(missing)})")
-    doc = json.loads((folder / "fit.json").read_text())
-    z = np.load(folder / "posterior.npz")
-    factor = DataFactor(
-        tuple(str(s) for s in z["factor_names"]), int(z["factor_n"]), z["x_mean"], z["x_scale"],
-        float(z["y_mean"]), z["R"],
-    )  # fmt: skip
-    post = _posterior_from_arrays(z, doc["labels"])
-    text = (folder / "priors.toml").read_text()
-    priors = (
-        parse_priors(tomllib.loads(text), source=str(folder / "priors.toml"))
-        if text
-        else flat_priors()
-    )
+    doc = read_json(folder / "fit.json")
+    check_fit_doc(doc, path=folder / "fit.json")
+    npz = folder / "posterior.npz"
+    z = load_arrays(npz)
+    try:
+        factor = DataFactor(
+            tuple(str(s) for s in z["factor_names"]), int(z["factor_n"]), z["x_mean"],
+            z["x_scale"], float(z["y_mean"]), z["R"],
+        )  # fmt: skip
+        post = _posterior_from_arrays(z, doc["labels"])
+    except DAMAGE as e:
+        raise damaged(npz, e) from None
+    try:
+        text = (folder / "priors.toml").read_text(encoding="utf-8")
+        table = tomllib.loads(text) if text else None
+    except (*DAMAGE, RecursionError) as e:
+        raise damaged(folder / "priors.toml", e) from None
+    priors = parse_priors(table, source=str(folder / "priors.toml")) if text else flat_priors()
     terms, coding = None, None
     if (folder / "terms.json").exists():
         from bayes.data.terms import Terms
 
-        coding = json.loads((folder / "terms.json").read_text())
-        terms = Terms.from_dict(coding)
+        coding = read_json(folder / "terms.json")
+        try:
+            terms = Terms.from_dict(coding)
+        except InputError as e:
+            raise InputError(f"{folder / 'terms.json'}: {e}") from None
+        if terms.response != doc["response"] or terms.columns != factor.names:
+            raise InputError(
+                f"{folder / 'terms.json'}: its response and columns differ from the fit's"
+            )
     data = None
     if (folder / "data.csv").exists():
-        frame = pd.read_csv(folder / "data.csv")
         names = factor.names
-        data = Design(
-            doc["response"], names, frame[list(names)].to_numpy(float),
-            frame[doc["response"]].to_numpy(float), doc["provenance"].get("data", "data"),
-            int(doc["provenance"].get("dropped", 0)), terms,
-        )  # fmt: skip
+        try:
+            frame = pd.read_csv(folder / "data.csv")
+            data = Design(
+                doc["response"], names, frame[list(names)].to_numpy(float),
+                frame[doc["response"]].to_numpy(float), str(doc["provenance"].get("data", "data")),
+                int(doc["provenance"].get("dropped", 0)), terms,
+            )  # fmt: skip
+        except (*DAMAGE, pd.errors.ParserError, pd.errors.EmptyDataError) as e:
+            raise damaged(folder / "data.csv", e) from None
+        if data.n != factor.n or not (np.isfinite(data.X).all() and np.isfinite(data.y).all()):
+            raise InputError(f"{folder / 'data.csv'}: damaged: its rows are not the fit's")
     result = FitResult(doc["response"], factor, priors, post, doc["level"], data=data,
                        provenance=doc["provenance"], terms=terms)  # fmt: skip
     if coding is not None and "notes" not in coding:
@@ -178,6 +214,22 @@ def load_fit(folder: str | Path) -> FitResult:
     return result
 
 
+def fit_id(folder: str | Path) -> str | None:
+    """The :data:`FIT_ID` of the fit saved in ``folder`` (None without a fit, or for a fit
+    saved before fits recorded one)."""
+    path = Path(folder) / "fit.json"
+    if not path.exists():
+        return None
+    value = read_json(path).get("provenance", {}).get(FIT_ID)
+    return value if isinstance(value, str) else None
+
+
+def _recorded(doc: dict, folder: Path) -> dict:
+    """``doc`` (of sweep.json or compare.json) with the :data:`FIT_ID` of the fit in ``folder``."""
+    current = fit_id(folder)
+    return doc if current is None else {**doc, FIT_ID: current}
+
+
 # ----------------------------------------------------------------------------- sweep.json
 
 
@@ -186,7 +238,8 @@ def save_sweep(result: SweepResult, folder) -> Path:
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     path = folder / "sweep.json"
-    atomic_write_text(path, json.dumps(result.to_dict(), indent=2, allow_nan=False) + "\n")
+    atomic_write_text(path, json.dumps(_recorded(result.to_dict(), folder), indent=2,
+                                       allow_nan=False) + "\n")  # fmt: skip
     return path
 
 
@@ -217,7 +270,8 @@ def compare_path(fit_dir: str | Path) -> Path:
 def save_comparison(comparison: Comparison, fit_dir: str | Path) -> Path:
     """Write ``fit_dir/compare.json`` atomically, beside a fit saved by ``bayes fit --save``."""
     target = compare_path(fit_dir)
-    atomic_write_text(target, json.dumps(comparison.to_dict(), indent=2, allow_nan=False) + "\n")
+    doc = _recorded(comparison.to_dict(), target.parent)
+    atomic_write_text(target, json.dumps(doc, indent=2, allow_nan=False) + "\n")
     return target
 
 
@@ -243,7 +297,8 @@ def load_saved(path: Path, from_dict: Callable[[dict], _T], *, what: str) -> _T 
     Raises
     ------
     InputError
-        When the file is not UTF-8 JSON or not a readable ``what``.
+        When the file is not UTF-8 JSON or not a readable ``what``, or when it records a fit
+        (:data:`FIT_ID`) other than the one saved beside it (it is stale).
     """
     if not path.exists():
         return None
@@ -251,6 +306,12 @@ def load_saved(path: Path, from_dict: Callable[[dict], _T], *, what: str) -> _T 
         doc = json.loads(path.read_text(encoding="utf-8"))
     except (json.JSONDecodeError, UnicodeDecodeError) as e:
         raise InputError(f"{path}: not readable JSON ({e})") from None
+    recorded = doc.get(FIT_ID) if isinstance(doc, dict) else None
+    if recorded is not None and recorded != fit_id(path.parent):
+        raise InputError(
+            f"{path}: stale: this {what} was made for an earlier fit in {path.parent} (the fit "
+            f"was saved again since): make the {what} again for this fit, or move the file away"
+        )
     try:
         return from_dict(doc)
     except (ValueError, KeyError, TypeError, IndexError) as e:

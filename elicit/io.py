@@ -10,7 +10,7 @@ import contextlib
 import os
 import shutil
 import tempfile
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from pathlib import Path
 
 from elicit.errors import InputError
@@ -38,6 +38,16 @@ def folder_mode() -> int:
 
 
 @contextlib.contextmanager
+def naming(target: Path) -> Iterator[None]:
+    """Re-raise an OSError of the block (a temporary file beside ``target`` that cannot be made)
+    as one naming ``target``, the path the user gave."""
+    try:
+        yield
+    except OSError as e:
+        raise type(e)(e.errno, e.strerror, str(target)) from None
+
+
+@contextlib.contextmanager
 def atomic_output(path: str | os.PathLike[str]) -> Iterator[Path]:
     """Yield a temporary path beside ``path``; when the block ends, it replaces ``path``.
 
@@ -51,8 +61,9 @@ def atomic_output(path: str | os.PathLike[str]) -> Iterator[Path]:
     choose the right one.
     """
     target = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=f".tmp{target.suffix}",
-                               dir=target.parent)  # fmt: skip
+    with naming(target):
+        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=f".tmp{target.suffix}",
+                                   dir=target.parent)  # fmt: skip
     os.close(fd)
     tmp_path = Path(tmp)
     try:
@@ -98,8 +109,9 @@ def atomic_folder(folder: str | os.PathLike[str]) -> Iterator[Path]:
     ``folder`` is untouched.
     """
     final = Path(folder)
-    final.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{final.name}.", dir=final.parent))
+    with naming(final):
+        final.parent.mkdir(parents=True, exist_ok=True)
+        tmp = Path(tempfile.mkdtemp(prefix=f".{final.name}.", dir=final.parent))
     try:
         os.chmod(tmp, folder_mode())
         yield tmp
@@ -116,6 +128,52 @@ def atomic_folder(folder: str | os.PathLike[str]) -> Iterator[Path]:
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise
+
+
+@contextlib.contextmanager
+def replace_files(
+    folder: str | os.PathLike[str], *, owned: Sequence[str], last: Sequence[str] = ()
+) -> Iterator[Path]:
+    """Yield a new empty folder inside the existing ``folder``; when the block ends, each file
+    written there replaces its namesake in ``folder`` and the rest of ``folder`` is kept.
+
+    For a folder that holds the user's files beside the ones a tool writes (a fit folder with
+    its notes, sweeps and comparisons). Each file is renamed in with :func:`os.replace`
+    (atomic), the names in ``last`` after the others (the file a reader looks for first); the
+    names in ``owned`` that the block did not write are removed, since they belong to what was
+    replaced. ``folder`` itself is never moved or removed. On failure nothing in ``folder``
+    changes and the new folder is removed.
+
+    Parameters
+    ----------
+    folder : path
+        An existing folder.
+    owned : sequence of str
+        The file names the writer owns in ``folder``; only these are replaced or removed.
+    last : sequence of str
+        Names renamed in after every other file.
+    """
+    final = Path(folder)
+    with naming(final):
+        tmp = Path(tempfile.mkdtemp(prefix=".replace.", dir=final))
+    try:
+        yield tmp
+        written = sorted((p.name for p in tmp.iterdir() if p.is_file()),
+                         key=lambda name: name in last)  # fmt: skip
+        stray = [n for n in written if n not in owned]
+        if stray:
+            raise ValueError(f"replace_files: {stray[0]} is not one of the owned files")
+        for name in written:
+            with open(tmp / name, "rb+") as handle:
+                os.fsync(handle.fileno())
+            os.chmod(tmp / name, file_mode())
+        for name in written:
+            os.replace(tmp / name, final / name)
+        for name in owned:
+            if name not in written:
+                (final / name).unlink(missing_ok=True)
+    finally:
+        shutil.rmtree(tmp, ignore_errors=True)
 
 
 # ----------------------------------------------------------------------------- reading
@@ -139,15 +197,62 @@ def unreadable(path: str | os.PathLike[str], e: Exception) -> InputError:
     return InputError(f"{path}: not a readable table: {first}")
 
 
-def read_table(path: str | os.PathLike[str]):
-    """Read a CSV or Parquet file into a pandas DataFrame: the one table reader of both packages.
-
-    CSV files are read with :data:`CSV_OPTIONS` (spaces after the commas are allowed).
+def header_names(path: str | os.PathLike[str]) -> list[str]:
+    """The names on the first line of a CSV file, as written (pandas renames a repeated name).
 
     Raises
     ------
     InputError
-        When the file is missing, not a readable table, or has no data rows.
+        When a name appears more than once.
+    """
+    import pandas as pd
+
+    row = pd.read_csv(path, header=None, nrows=1, dtype=str, keep_default_na=False,
+                      **CSV_OPTIONS)  # fmt: skip
+    names = [str(v) for v in row.iloc[0]] if len(row) else []
+    twice = sorted({n for n in names if n and names.count(n) > 1})  # pandas names blanks
+    if twice:
+        raise InputError(
+            f"{path}: column name{'s' if len(twice) > 1 else ''} "
+            f"{', '.join(repr(n) for n in twice)} appear{'' if len(twice) > 1 else 's'} more "
+            "than once in the header"
+        )
+    return names
+
+
+def parquet_numbers(frame):
+    """A frame read from Parquet with decimal columns as floats and columns of numbers stored
+    as text as numbers (as a CSV reader reads them); other text columns are left as they are."""
+    import decimal
+
+    import pandas as pd
+
+    out = {}
+    for c in frame.columns:
+        s = frame[c]
+        if s.dtype == object or pd.api.types.is_string_dtype(s):
+            present = s.dropna()
+            if len(present) and all(isinstance(v, decimal.Decimal) for v in present):
+                out[c] = s.astype(float)
+            elif len(present) and all(isinstance(v, str) for v in present):
+                numbers = pd.to_numeric(present, errors="coerce")
+                if numbers.notna().all():
+                    out[c] = pd.to_numeric(s, errors="coerce")
+    return frame.assign(**out) if out else frame
+
+
+def read_table(path: str | os.PathLike[str]):
+    """Read a CSV or Parquet file into a pandas DataFrame: the one table reader of both packages.
+
+    CSV files are read with :data:`CSV_OPTIONS` (spaces after the commas are allowed); a name
+    repeated in the header is an error (:func:`header_names`). Parquet decimals and numbers
+    stored as text are read as numbers (:func:`parquet_numbers`).
+
+    Raises
+    ------
+    InputError
+        When the file is missing, not a readable table, has a repeated column name, or has no
+        data rows.
     """
     import pandas as pd
 
@@ -158,9 +263,12 @@ def read_table(path: str | os.PathLike[str]):
         raise InputError(f"{path}: is a folder, not a data file")
     try:
         if is_parquet(path):
-            frame = pd.read_parquet(path)
+            frame = parquet_numbers(pd.read_parquet(path))
         else:
+            header_names(path)
             frame = pd.read_csv(path, **CSV_OPTIONS)
+    except InputError:
+        raise
     except (*read_errors(), OSError) as e:
         raise unreadable(path, e) from None
     if frame.shape[1] == 0 or frame.shape[0] == 0:

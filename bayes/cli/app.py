@@ -27,6 +27,11 @@ class _Group(click.Group):
         except InputError as e:
             click.echo(f"error: {self._flagged(ctx, str(e))}", err=True)
             sys.exit(2)
+        except OSError as e:  # an unwritable output, a full disk: name the path
+            if e.filename is None:
+                raise
+            click.echo(f"error: {e.filename}: {e.strerror or type(e).__name__}", err=True)
+            sys.exit(2)
 
     def _flagged(self, ctx, message: str) -> str:
         """A library error names a parameter ("level must ..."): say the option it came from."""

@@ -7,6 +7,7 @@ from pathlib import Path
 import click
 
 from bayes.cli.options import (
+    check_outputs,
     emit,
     fit_from_options,
     model_options,
@@ -44,6 +45,11 @@ def fit_command(data, response, predictors, priors, formula, reference, drop_mis
     from bayes.errors import InputError
 
     sampler = SamplerSettings(chains, draws, warmup, seed)
+    if save_dir:  # the prior file may be the folder's own priors.toml: it is copied as it is
+        from bayes.store import OWNED
+
+        outputs = [("--save", Path(save_dir) / n) for n in OWNED if n != "priors.toml"]
+        check_outputs(outputs, [("the data file", data)])
     if scheduler and engine != "dask":
         raise InputError("--scheduler is for --engine dask")
     if chunk_rows is not None and stream is None:

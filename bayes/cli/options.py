@@ -209,6 +209,40 @@ def progress_bar(fmt: str, label: str):
         yield update
 
 
+def check_outputs(outputs, inputs) -> None:
+    """No output path may be one of the command's inputs (or a file its fit folder owns).
+
+    Parameters
+    ----------
+    outputs : iterable of (option, path)
+        Every file the command is about to write, with the option that names it.
+    inputs : iterable of (what, path)
+        Every file it reads or must keep, described ("the data file", "a file of the fit
+        folder FIT").
+
+    Raises
+    ------
+    InputError
+        One line naming the option, the path and what it is.
+    """
+    from bayes.errors import InputError
+
+    kept = {Path(path).resolve(): what for what, path in inputs}
+    for option, path in outputs:
+        what = kept.get(Path(path).resolve())
+        if what is not None:
+            raise InputError(f"{option}: {path} is {what}: writing there would destroy it; "
+                             "choose another path")  # fmt: skip
+
+
+def fit_folder_files(fit_dir) -> list[tuple[str, Path]]:
+    """(what, path) of every file a fit folder owns or that a command reads from it."""
+    from bayes.store import DERIVED, OWNED
+
+    return [(f"a file of the fit folder {fit_dir}", Path(fit_dir) / name)
+            for name in (*OWNED, *DERIVED)]  # fmt: skip
+
+
 def emit(obj: dict, text: str, fmt: str) -> None:
     """Print one JSON object or the text form."""
     if fmt == "json":

@@ -7,8 +7,10 @@ from pathlib import Path
 import click
 
 from bayes.cli.options import (
+    check_outputs,
     design_from_options,
     emit,
+    fit_folder_files,
     model_options,
     sampler_options,
     sampler_settings_options,
@@ -32,6 +34,10 @@ def report_command(fit_dir, out, markdown, csv_dir):
     from bayes.report.render import outputs_text, write_report
 
     report = build_report(fit_dir)
+    outputs = [("--out", out)] + ([("--markdown", markdown)] if markdown else [])
+    if csv_dir:
+        outputs += [("--csv-dir", Path(csv_dir) / f"{t.key}.csv") for t in report.tables]
+    check_outputs(outputs, fit_folder_files(fit_dir))
     write_report(report, html=out, markdown=markdown, csv_dir=csv_dir)
     click.echo(outputs_text(report, html=out, markdown=markdown, csv_dir=csv_dir))
 
@@ -68,8 +74,9 @@ def compare_command(data, priors, response, predictors, formula, reference, drop
     from bayes.errors import InputError
     from bayes.store import compare_path
 
-    if save_dir:
-        compare_path(save_dir)  # a bad folder fails before the work
+    if save_dir:  # a bad folder fails before the work
+        inputs = [("the data file", data), *(("a prior file", p) for p in priors)]
+        check_outputs([("--save", compare_path(save_dir))], inputs)
     prior_sets = [load_priors(p) for p in priors]
     stated = {ps.response for ps in prior_sets if ps.response}
     if len(stated) > 1 and not response and formula_response(formula) is None:
@@ -129,6 +136,9 @@ def sweep_command(data, response, predictors, priors, formula, reference, drop_m
 
     if priors is None:
         raise InputError("bayes sweep needs --priors: there is nothing to widen without them")
+    outputs = [("--save", Path(save_dir) / "sweep.json")] if save_dir else []
+    outputs += [("--plot", plot_file)] if plot_file else []
+    check_outputs(outputs, [("the data file", data), ("the prior file", priors)])
     prior_set = load_priors(priors)
     design = design_from_options(data, response, predictors, prior_set, drop_missing, formula,
                                  reference)  # fmt: skip

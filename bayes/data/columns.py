@@ -9,12 +9,16 @@ header being line 1) and the column.
 
 from __future__ import annotations
 
+import re
 from collections.abc import Mapping, Sequence
 
 import numpy as np
 import pandas as pd
 
 from bayes.errors import InputError
+
+# a number written with thousands separators ("1,234", "12,345.6") or a decimal comma ("3,5")
+SEPARATED = re.compile(r"^\s*[+-]?(?:\d{1,3}(?:,\d{3})+(?:\.\d*)?|\d+,\d+)\s*$")
 
 
 def file_row(frame: pd.DataFrame, i: int) -> int:
@@ -32,21 +36,39 @@ def file_rows(frame: pd.DataFrame, positions: Sequence[int] | np.ndarray) -> np.
     return np.array([file_row(frame, i) for i in positions], dtype=int)
 
 
+def first_bad_number(series: pd.Series) -> int | None:
+    """Position of the first present value of ``series`` that does not read as a number."""
+    if pd.api.types.is_bool_dtype(series) or pd.api.types.is_numeric_dtype(series):
+        return None
+    bad = pd.to_numeric(series, errors="coerce").isna().to_numpy() & series.notna().to_numpy()
+    return int(np.flatnonzero(bad)[0]) if bad.any() else None
+
+
 def numeric_values(frame: pd.DataFrame, column: str, *, source: str) -> np.ndarray:
-    """Column ``column`` of ``frame`` as floats (booleans as 0/1).
+    """Column ``column`` of ``frame`` as floats (booleans as 0/1; numbers held as text or
+    decimals are read as numbers).
 
     Raises
     ------
     InputError
-        Naming the first value that is not a number and its file row.
+        Naming the first value that is not a number and its file row (and saying so when
+        it is written with a thousands separator or a decimal comma).
     """
     s = frame[column]
     if pd.api.types.is_bool_dtype(s) or pd.api.types.is_numeric_dtype(s):
         return s.to_numpy(dtype=float)
-    values = pd.to_numeric(s, errors="coerce")
-    i = int(np.flatnonzero(values.isna().to_numpy() & s.notna().to_numpy())[0])
+    i = first_bad_number(s)
+    if i is None:
+        return pd.to_numeric(s, errors="coerce").to_numpy(dtype=float)
+    value = s.iloc[i]
+    hint = ""
+    if isinstance(value, str) and SEPARATED.match(value):
+        hint = (
+            ": it has a thousands separator or decimal comma; the file must be fixed or the values "
+            "written plainly (1234.5)"
+        )
     raise InputError(
-        f"{source}: column '{column}' is not numeric (row {file_row(frame, i)}: {s.iloc[i]!r})"
+        f"{source}: column '{column}' is not numeric (row {file_row(frame, i)}: {value!r}){hint}"
     )
 
 
@@ -67,8 +89,9 @@ def is_text(series: pd.Series) -> bool:
     present = series.dropna()
     if present.empty:
         return False
-    numbers = pd.to_numeric(present, errors="coerce").notna()
-    return bool(numbers.mean() < 0.5)
+    numbers = pd.to_numeric(present, errors="coerce").notna().to_numpy()
+    separated = present.astype(str).str.match(SEPARATED).to_numpy()
+    return bool((numbers | separated).mean() < 0.5)
 
 
 def string_columns(frame: pd.DataFrame) -> pd.DataFrame:
@@ -107,9 +130,7 @@ def select_columns(
     if response not in columns:
         raise InputError(f"{source}: no column named '{response}' (columns: {', '.join(columns)})")
     if predictors is None:
-        predictors = [
-            c for c in columns if c != response and pd.api.types.is_numeric_dtype(frame[c])
-        ]
+        predictors = [c for c in columns if c != response and _numeric_column(frame, c, source)]
         if not predictors:
             raise InputError(f"{source}: no numeric predictor columns besides '{response}'")
     predictors = [str(c) for c in predictors]
@@ -122,6 +143,18 @@ def select_columns(
         twice = next(c for c in predictors if predictors.count(c) > 1)
         raise InputError(f"{source}: predictor '{twice}' is listed twice")
     return frame, predictors
+
+
+def _numeric_column(frame: pd.DataFrame, column: str, source: str) -> bool:
+    """Whether ``column`` is numbers (a default predictor); an error when it is numbers but for
+    some cells (a typo, a thousands separator), which would otherwise drop it silently."""
+    s = frame[column]
+    if pd.api.types.is_bool_dtype(s) or pd.api.types.is_numeric_dtype(s):
+        return True
+    if s.dropna().empty or is_text(s):
+        return False
+    numeric_values(frame, column, source=source)  # raises, naming the first bad cell
+    return True
 
 
 def checked_values(

@@ -19,6 +19,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 import pandas as pd
 
+from bayes.data.grammar import check_formula, data_dependent
 from bayes.errors import InputError
 
 _TREATMENT = re.compile(r"\[T\.")  # formulaic writes a treatment-coded level as name[T.level]
@@ -70,7 +71,7 @@ def split_formula(
 
     if predictors is not None:
         raise InputError("give either formula or predictors, not both")
-    text = formula.strip()
+    text = check_formula(formula).strip()
     lhs_text, sep, rhs = text.partition("~")
     if not sep:
         lhs_text, rhs = "", text
@@ -171,8 +172,9 @@ def term_key(name: str) -> frozenset | None:
     from formulaic.errors import FormulaicError
 
     try:
+        check_formula(name)
         terms = [t for t in Formula(name) if str(t) != "1"]
-    except (FormulaicError, SyntaxError, ValueError):
+    except (InputError, FormulaicError, SyntaxError, ValueError):
         return None
     if len(terms) != 1:
         return None
@@ -187,20 +189,19 @@ def _evaluate(rhs: str, frame: pd.DataFrame, source: str):
     from formulaic import model_matrix as formulaic_matrix
     from formulaic.errors import FormulaicError
 
+    check_formula(rhs)  # nothing outside our grammar reaches formulaic's evaluation
+    namespace = {"sqrt": np.sqrt, "abs": np.abs}  # log and exp are formulaic's own
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
-            mm = formulaic_matrix(rhs, frame, na_action="ignore")
+            mm = formulaic_matrix(rhs, frame, na_action="ignore", context=namespace)
     except (FormulaicError, SyntaxError, NameError, TypeError, ValueError) as e:
         raise InputError(
             f"{source}: cannot evaluate the formula '{rhs}': {first_line(e)}"
         ) from None
     stateful = list(mm.model_spec.transform_state)
     if stateful:
-        raise InputError(
-            f"formula: the term '{stateful[0]}' depends on the data it is fitted to (it cannot "
-            "be applied to new rows the same way): write the column out, or use I(...)"
-        )
+        raise data_dependent(stateful[0])
     names = [_TREATMENT.sub("[", str(c)) for c in mm.columns]
     if "Intercept" not in names:
         raise InputError(f"formula: '{rhs}' removes the intercept: the model always has one")

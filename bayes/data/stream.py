@@ -25,7 +25,14 @@ from bayes.data.moments import Moments, block_moments, combine
 from bayes.errors import InputError
 from bayes.problem import DataFactor
 from bayes.threads import one_blas_thread
-from elicit.io import CSV_OPTIONS, is_parquet, read_errors, unreadable
+from elicit.io import (
+    CSV_OPTIONS,
+    header_names,
+    is_parquet,
+    parquet_numbers,
+    read_errors,
+    unreadable,
+)
 
 STREAM_BYTES = 100 * 2**20  # files larger than this are streamed unless told otherwise
 CHUNK_BYTES = 2**24  # default chunk: about 16 MiB of float64 values
@@ -147,10 +154,16 @@ def table_header(path: Path) -> pd.DataFrame:
         raise InputError(f"{path}: no such file")
     try:
         if is_parquet(path):
+            import pyarrow as pa
             import pyarrow.parquet as pq
 
-            return pq.ParquetFile(path).schema_arrow.empty_table().to_pandas()
+            schema = pq.ParquetFile(path).schema_arrow
+            decimals = [f.name for f in schema if pa.types.is_decimal(f.type)]
+            return schema.empty_table().to_pandas().astype(dict.fromkeys(decimals, float))
+        header_names(path)
         return pd.read_csv(path, nrows=0, **CSV_OPTIONS)
+    except InputError:
+        raise
     except (*read_errors(), OSError) as e:
         raise unreadable(path, e) from None
 
@@ -181,13 +194,14 @@ def _csv_chunks(path: Path, chunk_rows: int) -> Iterator[tuple[pd.DataFrame, flo
 
 def parquet_batches(
     path: Path,
-    columns: list[str],
+    columns: list[str] | None,
     chunk_rows: int,
     *,
     row_groups: Sequence[int] | None = None,
     first_row: int = 0,
 ) -> Iterator[tuple[pd.DataFrame, float]]:
-    """Record batches of the used columns of a Parquet file, indexed by data-row number.
+    """Record batches of the used columns (None: all) of a Parquet file, indexed by data-row
+    number; decimals and numbers stored as text are read as numbers (as by read_table).
 
     Parameters
     ----------
@@ -204,7 +218,7 @@ def parquet_batches(
         total = meta.num_rows if groups is None else sum(meta.row_group(g).num_rows for g in groups)
         total, offset = max(total, 1), 0
         for batch in pf.iter_batches(batch_size=chunk_rows, row_groups=groups, columns=columns):
-            frame = batch.to_pandas()
+            frame = parquet_numbers(batch.to_pandas())
             frame.index = pd.RangeIndex(first_row + offset, first_row + offset + len(frame))
             offset += len(frame)
             yield frame, offset / total
@@ -267,12 +281,13 @@ def stream_factor(
     source = path.name
     header = table_header(path)
     parquet = is_parquet(path)
-    if predictors is not None or parquet:
+    if predictors is not None:
         _, predictors = select_columns(header, response, predictors, source=source)
     if chunk_rows is None:
         chunk_rows = default_chunk_rows(len(header.columns))
-    if parquet:
-        chunks = parquet_batches(path, [response, *predictors], chunk_rows)
+    if parquet:  # without a predictor list, the numeric columns of the first batch (as a CSV)
+        used = None if predictors is None else [response, *predictors]
+        chunks = parquet_batches(path, used, chunk_rows)
     else:
         chunks = _csv_chunks(path, chunk_rows)
     # One core parses, the other factorises: BLAS threads would only oversubscribe the

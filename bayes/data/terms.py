@@ -28,6 +28,7 @@ import pandas as pd
 
 from bayes.data.columns import checked_values, file_rows, needed_columns
 from bayes.data.formula import model_matrix, term_key
+from bayes.data.grammar import check_formula, formula_names
 from bayes.errors import InputError
 from elicit.units import split_term
 
@@ -270,14 +271,92 @@ class Terms:
 
     @classmethod
     def from_dict(cls, doc: Mapping) -> Terms:
-        """Inverse of :meth:`to_dict`."""
-        cats = tuple(
-            Categorical(c["name"], c["term"], tuple(c["levels"]), bool(c["numeric"]))
-            for c in doc["categorical"]
-        )
-        return cls(
-            doc["response"], doc["formula"], tuple(doc["variables"]), cats, tuple(doc["columns"])
-        )
+        """Inverse of :meth:`to_dict`, checked: a file may have been damaged or tampered with.
+
+        Raises
+        ------
+        InputError
+            Naming the field that is missing, of the wrong type, outside the formula
+            grammar (:mod:`bayes.data.grammar`) or inconsistent with the others.
+        """
+        try:
+            cats = tuple(
+                Categorical(_text(c["name"], "categorical name"), _text(c["term"], "term"),
+                            _texts(c["levels"], "levels"), _flag(c["numeric"]))
+                for c in _list(doc["categorical"], "categorical")
+            )  # fmt: skip
+            terms = cls(
+                _text(doc["response"], "response"), check_formula(_text(doc["formula"], "formula")),
+                _texts(doc["variables"], "variables"), cats, _texts(doc["columns"], "columns"),
+                _texts(doc.get("notes", ()), "notes"),
+            )  # fmt: skip
+        except (KeyError, TypeError, AttributeError) as e:
+            raise InputError(f"not a model coding (missing or bad field {e})") from None
+        terms.check_consistent(notes="notes" in doc)
+        return terms
+
+    def check_consistent(self, *, notes: bool = True) -> None:
+        """The fields agree: the formula reads the variables, the categorical predictors are
+        variables with their own levels, every design column is a term or a level's column.
+
+        Raises
+        ------
+        InputError
+            Naming the field that disagrees.
+        """
+        if formula_names(self.formula) != set(self.variables):
+            raise InputError(f"formula '{self.formula}' does not read the variables "
+                             f"{', '.join(self.variables)}")  # fmt: skip
+        for c in self.categorical:
+            if c.name not in self.variables:
+                raise InputError(f"categorical '{c.name}' is not one of the variables")
+            if c.term.replace(" ", "") not in (c.name, f"C({c.name})", f"C(`{c.name}`)"):
+                raise InputError(f"term '{c.term}' is not '{c.name}' or C({c.name})")
+            if len(c.levels) < 2 or len(set(c.levels)) != len(c.levels):
+                raise InputError(f"levels of '{c.name}' must be two or more distinct labels")
+        if len(set(self.columns)) != len(self.columns):
+            raise InputError("columns: a design column appears twice")
+        seen = set()
+        for column in self.columns:
+            for part in split_term(column):
+                found = self.level_of(part)
+                if found is None:
+                    check_formula(part, what="column")
+                elif found[1] not in found[0].levels[1:]:
+                    raise InputError(f"column '{column}': '{found[1]}' is not a level of "
+                                     f"'{found[0].name}' other than its reference")  # fmt: skip
+                else:
+                    seen.add((found[0].name, found[1]))
+        for c in self.categorical:
+            if any((c.name, level) not in seen for level in c.levels[1:]):
+                raise InputError(f"columns: a level of '{c.name}' has no column")
+        if notes and (len(self.notes) != len(self.categorical) or any(
+            not n.startswith(f"{c.term}: reference level '{c.reference}' (")
+            for n, c in zip(self.notes, self.categorical, strict=False)
+        )):  # fmt: skip
+            raise InputError("notes do not describe the reference levels of the coding")
+
+
+def _text(value, field: str) -> str:
+    if not isinstance(value, str):
+        raise InputError(f"{field} must be text, got {type(value).__name__}")
+    return value
+
+
+def _texts(values, field: str) -> tuple[str, ...]:
+    return tuple(_text(v, field) for v in _list(values, field))
+
+
+def _list(values, field: str) -> list:
+    if not isinstance(values, list | tuple):
+        raise InputError(f"{field} must be a list, got {type(values).__name__}")
+    return list(values)
+
+
+def _flag(value) -> bool:
+    if not isinstance(value, bool):
+        raise InputError(f"numeric must be true or false, got {value!r}")
+    return value
 
 
 def level_labels(values: np.ndarray, *, numeric: bool) -> np.ndarray:

@@ -1,0 +1,120 @@
+"""Checks on the files of a fit folder as they are read: damage becomes one line naming the file.
+
+A fit folder may be truncated by a crash, edited by hand or received from someone else:
+:func:`read_json` and :func:`check_arrays` refuse what :func:`bayes.store.load_fit` could
+not use (unreadable JSON, an archive that is not one, missing keys, wrong shapes, values
+that are not finite, names that do not match) before any of it reaches a computation.
+"""
+
+from __future__ import annotations
+
+import json
+import zipfile
+from pathlib import Path
+
+import numpy as np
+
+from bayes.errors import InputError
+
+# what reading a damaged file may raise, besides our own InputError
+DAMAGE = (KeyError, ValueError, TypeError, IndexError, AttributeError, OSError, EOFError,
+          zipfile.BadZipFile)  # fmt: skip
+
+
+def damaged(path: Path, e: Exception) -> InputError:
+    """The one-line error for a fit-folder file that could not be read as one."""
+    text = str(e).strip().splitlines()[0] if str(e).strip() else ""
+    return InputError(f"{path}: damaged or not written by bayes ({type(e).__name__}"
+                      f"{': ' + text if text else ''})")  # fmt: skip
+
+
+def read_json(path: Path) -> dict:
+    """The JSON object in ``path``; an InputError naming the file when it is not one."""
+    try:
+        doc = json.loads(path.read_text(encoding="utf-8"))
+    except (OSError, ValueError, RecursionError) as e:  # JSON and UTF-8 errors are ValueErrors
+        raise InputError(f"{path}: not readable JSON ({type(e).__name__})") from None
+    if not isinstance(doc, dict):
+        raise InputError(f"{path}: not a JSON object")
+    return doc
+
+
+def check_fit_doc(doc: dict, *, path: Path) -> None:
+    """``fit.json`` has the fields a fit is loaded from, of their types; its labels repeat its
+    method, detail and mode kind, and the method is known.
+
+    Raises
+    ------
+    InputError
+        Naming the file and the field.
+    """
+    kinds = {"response": str, "level": float, "provenance": dict, "notes": list, "labels": dict}
+    for key, kind in kinds.items():
+        value = doc.get(key)
+        if not isinstance(value, kind) or isinstance(value, bool):
+            raise InputError(f"{path}: damaged: field {key!r} is missing or not a {kind.__name__}")
+    if not 0 < doc["level"] < 1:
+        raise InputError(f"{path}: damaged: level must lie strictly between 0 and 1")
+    labels = doc.get("labels")
+    keys = ("method", "detail", "mode_kind")
+    if not isinstance(labels, dict) or any(labels.get(k) != doc.get(k) for k in keys):
+        raise InputError(f"{path}: its labels differ from its method, detail and mode_kind")
+    if labels["method"] not in ("exact", "sampled") or not all(
+        isinstance(labels[k], str) for k in keys
+    ):
+        raise InputError(f"{path}: method must be exact or sampled, got {labels['method']!r}")
+
+
+def load_arrays(path: Path) -> dict[str, np.ndarray]:
+    """Every array of ``posterior.npz`` (no pickled objects), checked by :func:`check_arrays`."""
+    try:
+        with np.load(path, allow_pickle=False) as z:
+            arrays = {k: z[k] for k in z.files}
+    except DAMAGE as e:
+        raise damaged(path, e) from None
+    check_arrays(arrays, path=path)
+    return arrays
+
+
+def check_arrays(z: dict[str, np.ndarray], *, path: Path) -> None:
+    """The arrays of ``posterior.npz`` have the keys, shapes and finite values a fit has.
+
+    Raises
+    ------
+    InputError
+        Naming the file and the first array that is missing, misshapen or not finite.
+    """
+    need = ("factor_names", "factor_n", "x_mean", "x_scale", "y_mean", "R", "names", "mode",
+            "scalars", "weights", "sigma", "means", "covs")  # fmt: skip
+    missing = [k for k in need if k not in z]
+    if missing:
+        raise InputError(f"{path}: damaged: no array {missing[0]!r}")
+    p = len(z["factor_names"])
+    k, m = p + 1, len(z["weights"])
+    shapes = {"factor_names": (p,), "factor_n": (), "x_mean": (p,), "x_scale": (p,),
+              "y_mean": (), "names": (k,), "mode": (k,), "scalars": (3,), "weights": (m,),
+              "sigma": (m,), "means": (m, k), "covs": (m, k, k)}  # fmt: skip
+    if "draws" in z:
+        shapes["draws"] = (*z["draws"].shape[:-1], k)
+        shapes["sigma_draws"] = z["draws"].shape[:-1]
+    for key, shape in shapes.items():
+        if key not in z or z[key].shape != shape:
+            got = z[key].shape if key in z else "none"
+            raise InputError(f"{path}: damaged: array {key!r} has shape {got}, not {shape}")
+    if z["R"].ndim != 2 or z["R"].shape[1] != k or not 1 <= z["R"].shape[0] <= k:
+        raise InputError(f"{path}: damaged: array 'R' has shape {z['R'].shape}")
+    for key in ("factor_names", "names"):
+        if z[key].dtype.kind != "U":
+            raise InputError(f"{path}: damaged: array {key!r} is not text")
+    if list(z["names"]) != ["intercept", *z["factor_names"]]:
+        raise InputError(f"{path}: damaged: the posterior's names are not the data factor's")
+    numbers = [key for key in z if key not in ("factor_names", "names")]
+    for key in numbers:
+        if z[key].dtype.kind not in "fiub":
+            raise InputError(f"{path}: damaged: array {key!r} is not numbers")
+    for key in ("x_mean", "x_scale", "y_mean", "R", "mode", "weights", "sigma", "means", "covs",
+                "draws", "sigma_draws", "factor_n"):  # fmt: skip
+        if key in z and not np.all(np.isfinite(z[key])):
+            raise InputError(f"{path}: damaged: array {key!r} has values that are not finite")
+    if int(z["factor_n"]) < 1 or np.any(z["x_scale"] <= 0) or np.any(z["weights"] < 0):
+        raise InputError(f"{path}: damaged: the row count, scales or weights are out of range")
