@@ -20,8 +20,9 @@ from __future__ import annotations
 import numpy as np
 
 from bayes.engine.likelihood import coefficient_names
+from bayes.engine.noise_rule import QUADRATURE_NODES
 from bayes.engine.posterior import MixturePosterior
-from bayes.engine.quadrature import QUADRATURE_NODES, StackedRows, noise_quadrature
+from bayes.engine.quadrature import StackedRows, noise_quadrature
 from bayes.problem import DataFactor, ScaledPrior, natural_transform
 
 
@@ -93,8 +94,9 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> MixturePosterior:
         names=names, method="exact",
         detail=f"noise sd integrated out exactly ({QUADRATURE_NODES}-node Gauss-Legendre "
         "quadrature in log sigma)",
-        mode=mode[0], mode_kind="joint mode of (beta, sigma)", sigma_mode=float(np.exp(u_mode)),
+        mode=mode[0], mode_kind="joint mode of (beta, sigma^2)", sigma_mode=float(np.exp(u_mode)),
         weights=weights, sigma=sigma, means=means, covs=covs, sigma_cdf=quad.sigma_cdf(),
+        noise_modes=tuple((float(np.exp(u)), float(m)) for u, m in quad.modes),
     )  # fmt: skip
 
 
