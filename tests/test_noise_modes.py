@@ -318,3 +318,22 @@ def test_mixture_probabilities_stay_in_the_unit_interval():
     cdf, sf = many.tails(np.array([1e3]))
     assert cdf[0] <= 1.0 and sf[0] >= 0.0
     assert special.ndtr(0.0) == stats.norm.cdf(0.0)  # the tails above use the same function
+
+
+@pytest.mark.parametrize("seed", [21, 24, 26])
+def test_the_sweep_over_default_widths_never_crashes_and_keeps_probabilities(seed):
+    # Designs on which the sweep once failed: a width that kept no nodes (zero-size array)
+    # or a probability rounded above 1.
+    from bayes.sensitivity.sweep import sweep
+
+    rng = np.random.default_rng(seed)
+    n, p = int(rng.integers(6, 40)), int(rng.integers(1, 4))
+    X = rng.uniform(0, 1, (n, p))
+    noise = 10 ** rng.uniform(-4, -1)
+    y = 1 + X @ np.full(p, 10.0) + noise * rng.standard_normal(n)
+    names = tuple(f"x{j}" for j in range(p))
+    priors = _priors(names, 10 ** rng.uniform(-1, 1))
+    result = sweep(factor_from_arrays(X, y, names), priors, "y", family_swap=False)
+    for c in result.coefficients:
+        assert np.all((c.p_positive >= 0) & (c.p_positive <= 1))
+        assert np.all(np.isfinite(c.lower)) and np.all(np.isfinite(c.upper))

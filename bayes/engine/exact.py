@@ -8,8 +8,9 @@ Three cases, all exact:
   prior; n - k under the Jeffreys prior, the classical least-squares result);
 * unknown noise with Gaussian priors (independent of the noise): the
   coefficients are Gaussian given sigma, and sigma is integrated out by
-  Gauss-Legendre quadrature in log sigma over the whole region where its
-  posterior density exceeds exp(-46) of its peak.
+  Gauss-Legendre quadrature in log sigma over every region where its
+  posterior density exceeds exp(-46) of its peak, each of its modes found
+  and each rule checked against its refinement (:mod:`bayes.engine.noise_rule`).
 
 The prior enters as pseudo-observations stacked under the data factor and the
 stack is solved by QR: the normal equations are never formed.
