@@ -80,10 +80,11 @@ class NormalMixture(Distribution):
         return float(np.sqrt(var))
 
     def cdf(self, x: float) -> float:
-        return float(np.dot(self.weights, stats.norm.cdf((x - self.locs) / self.scales)))
+        # clipped: the weights' sum may round a hair above 1
+        return _probability(np.dot(self.weights, stats.norm.cdf((x - self.locs) / self.scales)))
 
     def sf(self, x: float) -> float:
-        return float(np.dot(self.weights, stats.norm.sf((x - self.locs) / self.scales)))
+        return _probability(np.dot(self.weights, stats.norm.sf((x - self.locs) / self.scales)))
 
     def ppf(self, q: float) -> float:
         """The q-quantile (exact to about 1e-13 relative for a mixture)."""
@@ -159,6 +160,10 @@ class Empirical(Distribution):
         return stats.gaussian_kde(self.draws)(np.asarray(x, dtype=float))
 
 
+def _probability(p) -> float:
+    return float(min(max(p, 0.0), 1.0))
+
+
 def mixture_quantile(
     weights: np.ndarray, locs: np.ndarray, scales: np.ndarray, q: float
 ) -> np.ndarray:
@@ -171,7 +176,8 @@ def mixture_quantile(
     weights : ndarray, shape (K,)
     locs, scales : ndarray, shape (k, K)
     q : float
-        Strictly between 0 and 1.
+        A probability; 0 and 1 give -inf and inf. Never raises: the bracket between
+        the components' own quantiles holds the answer, and every step stays inside it.
 
     Returns
     -------
@@ -184,22 +190,31 @@ def mixture_quantile(
     the lower tail of ``-beta`` is solved instead, whose cdf resolves ``1 - q`` to full
     precision.
     """
+    weights = np.asarray(weights, dtype=float)
+    locs, scales = np.asarray(locs, dtype=float), np.asarray(scales, dtype=float)
+    if not 0.0 < q < 1.0 or locs.shape[1] == 0:
+        # the ends (and an empty mixture, which the engines never build) have no search
+        end = {0.0: -np.inf, 1.0: np.inf}.get(q, np.nan) if locs.shape[1] else np.nan
+        return np.full(locs.shape[0], end)
     zq = special.ndtri(q)
     if locs.shape[1] == 1:
         return locs[:, 0] + scales[:, 0] * zq
     if q > 0.5:
         return -mixture_quantile(weights, -locs, scales, 1.0 - q)
+    # A component of zero sd is a point mass: a tiny sd keeps every z finite.
+    scales = np.where(scales > 0, scales, np.finfo(float).tiny)
     each = locs + zq * scales
     lo, hi = each.min(axis=1), each.max(axis=1)
     x = each @ weights
     for _ in range(200):
         z = (x[:, None] - locs) / scales
         F = special.ndtr(z) @ weights - q
-        dens = (np.exp(-0.5 * z**2) / (np.sqrt(2 * np.pi) * scales)) @ weights
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            # far tails overflow to a zero density: the step is then a bisection
+            dens = (np.exp(-0.5 * z**2) / (np.sqrt(2 * np.pi) * scales)) @ weights
+            step = np.where(dens > 0, F / dens, np.inf)
         lo = np.where(F < 0, x, lo)
         hi = np.where(F > 0, x, hi)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            step = np.where(dens > 0, F / dens, np.inf)
         new = x - step
         # Closed bracket: a converged step rounds to x, which may be a bracket end;
         # sending it to the midpoint would restart the search by bisection.

@@ -9,7 +9,8 @@ from bayes.api import load_priors
 from bayes.data.design import build_design
 from bayes.data.factor import factor_from_arrays
 from bayes.engine.exact import exact_posterior
-from bayes.engine.quadrature import TAIL, noise_quadrature
+from bayes.engine.noise_rule import TAIL
+from bayes.engine.quadrature import noise_quadrature
 from bayes.engine.scaled import scaled_prior
 
 

@@ -8,8 +8,9 @@ Three cases, all exact:
   prior; n - k under the Jeffreys prior, the classical least-squares result);
 * unknown noise with Gaussian priors (independent of the noise): the
   coefficients are Gaussian given sigma, and sigma is integrated out by
-  Gauss-Legendre quadrature in log sigma over the whole region where its
-  posterior density exceeds exp(-46) of its peak.
+  Gauss-Legendre quadrature in log sigma over every region where its
+  posterior density exceeds exp(-46) of its peak, each of its modes found
+  and each rule checked against its refinement (:mod:`bayes.engine.noise_rule`).
 
 The prior enters as pseudo-observations stacked under the data factor and the
 stack is solved by QR: the normal equations are never formed.
@@ -20,8 +21,9 @@ from __future__ import annotations
 import numpy as np
 
 from bayes.engine.likelihood import coefficient_names
+from bayes.engine.noise_rule import QUADRATURE_NODES
 from bayes.engine.posterior import MixturePosterior
-from bayes.engine.quadrature import QUADRATURE_NODES, StackedRows, noise_quadrature
+from bayes.engine.quadrature import StackedRows, noise_quadrature
 from bayes.problem import DataFactor, ScaledPrior, natural_transform
 
 
@@ -93,8 +95,9 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> MixturePosterior:
         names=names, method="exact",
         detail=f"noise sd integrated out exactly ({QUADRATURE_NODES}-node Gauss-Legendre "
         "quadrature in log sigma)",
-        mode=mode[0], mode_kind="joint mode of (beta, sigma)", sigma_mode=float(np.exp(u_mode)),
+        mode=mode[0], mode_kind="joint mode of (beta, sigma^2)", sigma_mode=float(np.exp(u_mode)),
         weights=weights, sigma=sigma, means=means, covs=covs, sigma_cdf=quad.sigma_cdf(),
+        noise_modes=tuple((float(np.exp(u)), float(m)) for u, m in quad.modes),
     )  # fmt: skip
 
 

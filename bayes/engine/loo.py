@@ -96,7 +96,7 @@ def exact_loo(posterior: MixturePosterior, X: np.ndarray, y: np.ndarray, priors)
     Gaussian posterior ``N(m_k, V_k)`` at each noise value ``sigma_k`` (weight
     ``w_k``): ``1 / p(y_i | y_-i) = sum_k w_k sqrt(2 pi sigma_k^2 / (1 - h_ik))
     exp(e_ik^2 / (2 sigma_k^2 (1 - h_ik)))`` with ``h_ik = a_i' V_k a_i / sigma_k^2``.
-    When that sum is carried by the first or last quadrature node (an
+    When that sum is carried by the first or last node of a quadrature region (an
     observation far out, so that the noise posterior without it lies outside
     the nodes), the row's value is computed instead as ``p(y) / p(y_-i)`` from two
     exact evidences.
@@ -131,10 +131,22 @@ def exact_loo(posterior: MixturePosterior, X: np.ndarray, y: np.ndarray, priors)
     lppd = float(np.sum(special.logsumexp(lppd_terms, axis=1)))
     if len(sig2) > 1:
         top = terms.max(axis=1)
-        edge = np.maximum(terms[:, 0], terms[:, -1]) > top - 30.0
+        ends = _region_ends(np.log(posterior.sigma))
+        edge = terms[:, ends].max(axis=1) > top - 30.0
         for i in np.flatnonzero(edge):
             point[i] = _loo_by_evidence(posterior.names[1:], X, y, i, priors)
     return _loo(point, lppd, "exact (closed form, no refits)")
+
+
+def _region_ends(u: np.ndarray) -> np.ndarray:
+    """Positions of the first and last node of each region the quadrature covers.
+
+    The nodes lie in increasing ``u = log sigma``; a gap between regions (one per mode
+    of the noise posterior) is far wider than the spacing of nodes inside one.
+    """
+    gaps = np.diff(u)
+    breaks = np.flatnonzero(gaps > 10 * np.median(gaps))
+    return np.unique(np.concatenate([[0, len(u) - 1], breaks, breaks + 1]))
 
 
 def _check_leverage(h: np.ndarray, df: float) -> None:

@@ -38,7 +38,7 @@ class Posterior(ReadOnlyArrays, ABC):
     mode : ndarray, shape (k,)
         The reported posterior mode (see ``mode_kind``).
     mode_kind : str
-        Which mode: "posterior mode" (known noise) or "joint mode of (beta, sigma)".
+        Which mode: "posterior mode" (known noise) or "joint mode of (beta, sigma^2)".
     sigma_mode : float
         Noise sd at the reported mode.
     noise_known : bool
@@ -106,6 +106,10 @@ class MixturePosterior(Posterior):
     sigma_cdf : ndarray, shape (2, G), optional
         The noise sd's posterior cdf on a fine grid (sigma, cdf) when the noise was
         integrated out by quadrature.
+    noise_modes : tuple of (float, float)
+        Each mode of the noise sd's posterior, ``(sigma, mass)``, when the noise was
+        integrated out by quadrature (empty otherwise, and for fits saved before modes
+        were recorded). Two with noticeable mass mean a prior-data conflict.
     """
 
     weights: np.ndarray
@@ -114,6 +118,7 @@ class MixturePosterior(Posterior):
     covs: np.ndarray
     df: float = np.inf
     sigma_cdf: np.ndarray | None = None
+    noise_modes: tuple[tuple[float, float], ...] = ()
 
     def marginal(self, a: np.ndarray, offset: float = 0.0, noise: bool = False) -> Distribution:
         a = np.asarray(a, dtype=float)

@@ -44,8 +44,9 @@ from scipy import linalg, special, stats
 from bayes.arrays import ReadOnlyArrays
 from bayes.distributions import mixture_quantile
 from bayes.engine.likelihood import coefficient_names
+from bayes.engine.noise_rule import NoiseQuadrature, log_sigma_quadrature, stationary_span
 from bayes.engine.posterior import MixturePosterior
-from bayes.engine.quadrature import StackedRows, log_sigma_quadrature
+from bayes.engine.quadrature import StackedRows
 from bayes.problem import DataFactor, ScaledPrior, natural_transform
 
 _RANK_TOL = 1e-12  # singular values below this times the largest carry no data
@@ -254,10 +255,22 @@ class WidthPath(ReadOnlyArrays):
         """
         if self.known:
             return np.ones(1), np.array([self.prior.noise.sd])
-        quad = log_sigma_quadrature(
-            lambda u: self.log_density(u, lam, alpha), self.u0, vectorised=True
+        return self.noise_quadrature(lam, alpha).mixture(trim=True)
+
+    def noise_quadrature(self, lam: float, alpha: float = 1.0) -> NoiseQuadrature:
+        """The quadrature over log sigma at ``lam`` and ``alpha``, every mode found.
+
+        The residual at the conditional mean grows with sigma from the least-squares one
+        (``resid2``) to the prior centre's (``resid2 + sum (z - s t)^2``): every stationary
+        point of the noise density lies in :func:`stationary_span` of the two.
+        """
+        far = self.resid2 + float(np.sum((self.z - self.s * self.t) ** 2))
+        span = stationary_span(
+            alpha * self.resid2, alpha * far, alpha * self.n, len(self.names), self.prior.noise
         )
-        return quad.mixture(trim=True)
+        return log_sigma_quadrature(
+            lambda u: self.log_density(u, lam, alpha), self.u0, span=span, vectorised=True
+        )
 
 
 @dataclass(frozen=True, eq=False)
@@ -327,8 +340,9 @@ class CoefficientMixtures(ReadOnlyArrays):
         z, shape = self._z(x)
         small = stats.t.sf(np.abs(z), self.df) if np.isfinite(self.df) else special.ndtr(-np.abs(z))
         below = z < 0
-        cdf = np.where(below, small, 1.0 - small) @ self.weights
-        sf = np.where(below, 1.0 - small, small) @ self.weights
+        # clipped to [0, 1]: the weights' sum may round a hair above 1
+        cdf = np.clip(np.where(below, small, 1.0 - small) @ self.weights, 0.0, 1.0)
+        sf = np.clip(np.where(below, 1.0 - small, small) @ self.weights, 0.0, 1.0)
         return cdf.reshape(shape), sf.reshape(shape)
 
     def cdf(self, x: np.ndarray) -> np.ndarray:

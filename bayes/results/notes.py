@@ -14,6 +14,7 @@ from bayes.engine.diagnostics import ESS_MIN, R_HAT_MAX
 from bayes.results.format import fmt
 
 CONDITION_WARNING = 30.0  # condition index above which collinearity is strong (common practice)
+NOISE_MODE_MASS = 0.01  # posterior mass from which a mode of the noise sd is noticeable
 
 FLAT_PRIORS = (
     "no prior file: flat priors on every coefficient and the Jeffreys prior on the noise sd "
@@ -71,4 +72,21 @@ def lasso_zeros(at_location: int, laplace: int) -> str | None:
     return (
         f"{at_location} of {laplace} Laplace-prior coefficients have their mode "
         "exactly at the prior location (the lasso's zeros)."
+    )
+
+
+def noise_modes(modes: Sequence[tuple[float, float]]) -> str | None:
+    """The prior-data conflict note when two or more noise modes each carry noticeable mass.
+
+    ``modes`` holds ``(sigma, mass)`` for each mode of the noise sd's posterior
+    (:attr:`bayes.engine.posterior.MixturePosterior.noise_modes`).
+    """
+    big = [(s, m) for s, m in modes if m > NOISE_MODE_MASS]
+    if len(big) < 2:
+        return None
+    levels = " and ".join(f"sigma = {fmt(s, 4)} ({fmt(100 * m, 3)}% of the mass)" for s, m in big)
+    return (
+        f"prior-data conflict: the noise sd's posterior has {len(big)} modes, at {levels}; "
+        "at the smaller noise level the data win, at the larger the priors do. The exact "
+        "posterior mixes both: its means and intervals may sit where neither mode does."
     )
