@@ -82,9 +82,7 @@ def _write_fit(result: FitResult, tmp: Path) -> None:
     digest = hashlib.sha256(json.dumps(doc, sort_keys=True).encode("utf-8"))
     doc["provenance"][FIT_ID] = digest.hexdigest()
     (tmp / "fit.json").write_text(json.dumps(doc, indent=2) + "\n")
-    src = getattr(result.priors, "path", None)
-    text = Path(src).read_text() if src and Path(src).exists() else ""
-    (tmp / "priors.toml").write_text(text)
+    (tmp / "priors.toml").write_text(_priors_text(result.priors))
     if result.data is not None:
         result.data.frame().to_csv(tmp / "data.csv", index=False)
     if result.terms is not None:
@@ -92,6 +90,26 @@ def _write_fit(result: FitResult, tmp: Path) -> None:
         (tmp / "terms.json").write_text(json.dumps(coding, indent=2) + "\n")
     if result.inference is not None:
         result.inference.to_netcdf(str(tmp / "posterior.nc"), engine="h5netcdf")
+
+
+def _priors_text(priors) -> str:
+    """The fit's priors as TOML: the prior file as given when it still says what the fit used,
+    else the priors the fit used, written out (an in-memory or changed prior set); empty for
+    flat priors."""
+    from elicit.read import read_prior_file
+    from elicit.write import dump_toml, prior_doc
+
+    if not priors.coefficients and priors.block is None and priors.noise is None:
+        return ""
+    used = prior_doc(priors)
+    src = getattr(priors, "path", None)
+    if src and Path(src).is_file():
+        try:
+            if prior_doc(read_prior_file(src)) == used:
+                return Path(src).read_text(encoding="utf-8")
+        except (InputError, OSError, UnicodeDecodeError):
+            pass
+    return dump_toml(used, header="The priors this fit used (written by bayes fit --save).")
 
 
 def _posterior_arrays(post: Posterior) -> dict[str, np.ndarray]:
@@ -113,6 +131,8 @@ def _posterior_arrays(post: Posterior) -> dict[str, np.ndarray]:
         mixture = {"weights": post.weights, "sigma": post.sigma, "means": post.means,
                    "covs": post.covs}  # fmt: skip
         df, extra = post.df, {} if post.sigma_cdf is None else {"sigma_cdf": post.sigma_cdf}
+        if post.noise_modes:  # (sigma, mass) of each mode of the noise posterior
+            extra["noise_modes"] = np.array(post.noise_modes, dtype=float).reshape(-1, 2)
     return {
         "names": np.array(post.names, dtype=str),
         **mixture,
@@ -135,6 +155,8 @@ def _posterior_from_arrays(z, labels: dict) -> Posterior:
     return MixturePosterior(
         **common, weights=z["weights"], sigma=z["sigma"], means=z["means"], covs=z["covs"],
         df=float(df), sigma_cdf=z["sigma_cdf"] if "sigma_cdf" in z else None,
+        noise_modes=tuple((float(s), float(m)) for s, m in z["noise_modes"])
+        if "noise_modes" in z else (),
     )  # fmt: skip
 
 

@@ -194,6 +194,20 @@ def test_the_two_noise_levels_and_their_masses_are_reported(design):
     assert len(conflict) == 1 and f"{s_high:.4g}" in conflict[0] and f"{s_low:.4g}" in conflict[0]
 
 
+def test_a_saved_fit_keeps_its_noise_modes_and_the_conflict_note(design, tmp_path):
+    from bayes.store import load_fit, save_fit
+
+    X, y, names, priors, ref = design
+    frame = pd.DataFrame(X, columns=list(names)).assign(y=y)
+    result = fit(frame, "y", priors=priors)
+    save_fit(result, tmp_path / "fit")
+    again = load_fit(tmp_path / "fit")
+    assert again.posterior.noise_modes == result.posterior.noise_modes
+    assert [n for n in again.notes if n.startswith("prior-data conflict")] == [
+        n for n in result.notes if n.startswith("prior-data conflict")
+    ]
+
+
 def test_a_one_sided_case_is_not_a_conflict():
     X, y, names = _data(0, 12, 1, 0.01)
     factor = factor_from_arrays(X, y, names)

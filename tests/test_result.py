@@ -106,3 +106,23 @@ def test_a_short_sampled_fit_says_its_effective_sample_size_is_low(demo_frame):
     assert out.exit_code == 0, out.output
     assert f"Note: {low[0]}" in out.output
     assert np.all(np.isfinite([r["r_hat"] for r in result.rows]))
+
+
+def test_a_fit_from_an_in_memory_prior_set_saves_the_priors_it_used(demo_frame, tmp_path):
+    import tomllib
+
+    from elicit.validate import parse_priors
+
+    doc = tomllib.loads(GAUSSIAN_PRIORS.read_text())
+    result = bayes.fit(demo_frame, priors=parse_priors(doc, source="in memory"))
+    from bayes.store import save_fit
+
+    save_fit(result, tmp_path / "fit")
+    again = load_fit(tmp_path / "fit")
+    assert again.to_dict()["coefficients"] == result.to_dict()["coefficients"]
+    assert again.to_dict()["penalties"] == result.to_dict()["penalties"]
+    assert again.notes == result.notes
+    # a rescaled prior set keeps its source path but is not that file: what was used is saved
+    wide = bayes.fit(demo_frame, priors=bayes.load_priors(GAUSSIAN_PRIORS).rescaled(2.0))
+    save_fit(wide, tmp_path / "wide")
+    assert load_fit(tmp_path / "wide").to_dict()["coefficients"] == wide.to_dict()["coefficients"]
