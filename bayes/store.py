@@ -97,11 +97,12 @@ def _priors_text(priors) -> str:
     else the priors the fit used, written out (an in-memory or changed prior set); empty for
     flat priors."""
     from elicit.read import read_prior_file
+    from elicit.spec import flat_priors
     from elicit.write import dump_toml, prior_doc
 
-    if not priors.coefficients and priors.block is None and priors.noise is None:
-        return ""
     used = prior_doc(priors)
+    if used == prior_doc(flat_priors()):
+        return ""
     src = getattr(priors, "path", None)
     if src and Path(src).is_file():
         try:
