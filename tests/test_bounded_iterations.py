@@ -34,3 +34,20 @@ def test_a_laplace_prior_with_a_huge_range_ends_with_one_line(tmp_path):
     # (raw numpy warnings before it are issue 18's warnings item, outside the engine)
     assert run.stderr.splitlines()[-1].startswith("error: posterior mode: the coordinate")
     assert "duality gap is not finite" in run.stderr
+
+
+def test_the_validator_refuses_values_whose_scale_is_not_finite():
+    import pytest
+
+    from elicit.errors import PriorFileError
+    from elicit.validate import parse_priors
+
+    cases = [
+        ({"low": -1e308, "high": 1e308, "mass": 0.9}, "field 'low'.*positive and finite"),
+        ({"low": -1e300, "high": 1e300, "mass": 1e-17}, "field 'mass'.*float limit"),
+        ({"low": -1.0, "high": 1.0, "mass": 0.9, "per": 1e-320}, "field 'per'.*finite"),
+    ]
+    for fields, match in cases:
+        doc = {"coefficient": [{"name": "x1", "family": "normal", **fields}]}
+        with pytest.raises(PriorFileError, match="p.toml: coefficient 1 \\(x1\\): " + match):
+            parse_priors(doc, source="p.toml")
