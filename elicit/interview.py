@@ -6,10 +6,10 @@ output go through two callables, ``ask(prompt, type, default)`` and ``say(text)`
 command line uses :func:`click.prompt` (line based, works with stdin not a terminal) and tests
 can script them.
 
-Each accepted answer is validated by :func:`elicit.validate.parse_priors` (the one validator) and
-the whole prior file is rewritten atomically, so killing the process at any prompt loses at most
-the answer being typed. Started again with the same output file, the interview skips every
-column the file already answers and carries on.
+Each accepted answer is validated by :func:`elicit.validate.parse_priors` and the whole prior
+file rewritten atomically; the answers typed for the open question are kept in a draft
+(:mod:`elicit.outfile`), so a kill loses at most the answer being typed. Started again, the
+interview skips what the file answers, replays the draft and carries on.
 """
 
 from __future__ import annotations
@@ -24,6 +24,7 @@ import click
 from elicit import convert, show
 from elicit.errors import InputError, PriorFileError
 from elicit.feedback import block_feedback, coefficient_feedback, noise_feedback
+from elicit.outfile import Draft, OutputLock, check_writable
 from elicit.predictive import predictor_means, prior_predictive
 from elicit.read import read_prior_file
 from elicit.spec import FAMILIES, INTERCEPT, PriorSet
@@ -116,10 +117,17 @@ class Interview:
         expert: str | None = None,
     ):
         self.out = Path(out)
-        self.ask = ask
+        self._typed = ask
         self.say = say
         self.frame = frame
         self.expert = expert
+        self.response = response
+        self._response_units = response_units
+        self._draft: Draft | None = None
+        self._load()
+
+    def _load(self) -> None:
+        response = self.response
         if self.out.exists():
             priors = read_prior_file(self.out)
             if priors.response is not None and priors.response != response:
@@ -131,14 +139,29 @@ class Interview:
             self.doc.setdefault("study", {})["response"] = response
         else:
             study = {"response": response}
-            if response_units:
-                study["response_units"] = response_units
+            if self._response_units:
+                study["response_units"] = self._response_units
             self.doc = {"study": study}
         self.priors = parse_priors(self.doc, source=str(self.out))
-        self.response = response
         if self.expert is None:  # on resume, the last expert named is the default
             named = [s.expert for c in self.priors.coefficients for s in c.statements if s.expert]
             self.expert = named[-1] if named else None
+
+    def ask(self, prompt: str, type=None, default=None) -> Any:
+        """Ask through the ``ask`` callable, replaying and recording the draft."""
+        found, answer = self._draft.replay(prompt) if self._draft else (False, None)
+        if found:
+            self.say(f"{prompt}: {answer} (from the draft)")
+        else:
+            answer = self._typed(prompt, type=type, default=default)
+        if self._draft is not None:
+            self._draft.record(prompt, answer)
+        return answer
+
+    def _begin(self, item: str) -> None:
+        if self._draft is not None and self._draft.item != item:
+            if n := self._draft.begin(item):
+                self.say(f"resuming the draft: {n} typed answers")
 
     # -------------------------------------------------------------- state
     @property
@@ -240,6 +263,7 @@ class Interview:
         saved: str,
     ) -> None:
         """Ask (``answer(previous)``), validate, present, and repeat until accepted; then save."""
+        self._begin(f"{key}:{saved}")
         last = None
         while True:
             value = last = answer(last)
@@ -254,6 +278,8 @@ class Interview:
             )
             if choice == "a":
                 self._save(candidate)
+                if self._draft is not None:
+                    self._draft.clear()
                 self.say(f"saved {saved} to {self.out}")
                 return
 
@@ -309,6 +335,7 @@ class Interview:
             f"\nConditional means: the expected {self.response} at {len(rows)} reference rows "
             f"gives a correlated prior on {', '.join(names)}"
         )
+        self._begin("correlation:the conditional-means prior")
         expert = _blank_to_none(self.ask("Expert", type=str, default=self.expert or ""))
 
         def answer(last: dict[str, Any] | None) -> dict[str, Any]:
@@ -334,7 +361,24 @@ class Interview:
         self, terms: Sequence[Term], *, noise: bool = True, conditional: bool = False
     ) -> PriorSet:
         """Ask every unanswered term (or, with ``conditional``, the conditional-means rows for
-        all of them), then the noise; return the saved priors."""
+        all of them), then the noise; return the saved priors.
+
+        The output file must be writable (checked first) and is locked for the whole run.
+        Raises
+        ------
+        InputError
+            When the output file cannot be written or another interview holds its lock.
+        """
+        check_writable(self.out)
+        with OutputLock(self.out):
+            self._load()  # the file as it is now that no one else writes it
+            self._draft = Draft(self.out)
+            try:
+                return self._run(terms, noise=noise, conditional=conditional)
+            finally:
+                self._draft = None
+
+    def _run(self, terms: Sequence[Term], *, noise: bool, conditional: bool) -> PriorSet:
         done = self.answered
         todo = [t for t in terms if t.column not in done]
         if done:

@@ -9,6 +9,7 @@ the entry and the field; warnings (e.g. asymmetric quantiles) are
 from __future__ import annotations
 
 import math
+import sys
 import warnings
 from collections.abc import Mapping
 from typing import Any
@@ -76,7 +77,10 @@ def _parse_statement(r: FieldReader) -> Statement:
         center, scale = 0.0, math.nan
     elif mode == "range":
         low, high, mass = r.range()
-        center, scale = convert.from_range(family, low, high, mass, per=per or 1.0, df=df)
+        try:
+            center, scale = convert.from_range(family, low, high, mass, per=per or 1.0, df=df)
+        except (ZeroDivisionError, OverflowError):
+            raise r.error("mass", f"{mass:g} gives a scale beyond the float limit") from None
     elif mode == "quantiles":
         quantiles = _parse_quantiles(r)
         try:
@@ -101,6 +105,10 @@ def _parse_statement(r: FieldReader) -> Statement:
         scale = r.number("scale", required=True, positive=True)
     else:
         raise r.error("low", f"a {family} prior needs low/high/mass, quantiles, or center/scale")
+    if family != "flat" and not (math.isfinite(center) and math.isfinite(scale) and scale > 0):
+        key = "per" if per is not None else {"range": "low", "quantiles": "quantiles"}[mode]
+        raise r.error(key, f"gives center {center:g} and scale {scale:g}: the scale must be "
+                      f"positive and finite (at most {sys.float_info.max:.4g})")  # fmt: skip
     return Statement(
         expert=r.text("expert"),
         rationale=r.text("rationale"),

@@ -85,11 +85,18 @@ def test_kill_midway_then_resume(tmp_path):
     assert [c.column for c in saved.coefficients] == ["x1"]
     assert saved.get("x1").statements[0].expert == "analyst A"
     assert saved.noise is None
-    assert sorted(os.listdir(tmp_path)) == ["d.csv", "log1.txt", "p.toml"]  # no temp files
+    # no temp files: only the draft of x2's three typed answers and the (stale) lock
+    assert sorted(os.listdir(tmp_path)) == [
+        "d.csv", "log1.txt", "p.toml", "p.toml.draft", "p.toml.lock"]  # fmt: skip
 
-    resumed = subprocess.run(command(tmp_path), input=lines(X2_BAD + X2 + NOISE), cwd=ROOT,
+    # the three typed answers come back from the draft: the resumed input goes on from there
+    again = X2[3:8] + X2_BAD + X2[8:] + NOISE
+    resumed = subprocess.run(command(tmp_path), input=lines(again), cwd=ROOT,
                              env=env, text=True, capture_output=True)  # fmt: skip
     assert resumed.returncode == 0, resumed.stderr
+    assert "resuming the draft: 3 typed answers" in resumed.stdout
+    assert "Lowest plausible change in y per 2 of x2: -1.0 (from the draft)" in resumed.stdout
+    assert sorted(os.listdir(tmp_path)) == ["d.csv", "log1.txt", "p.toml"]
     assert "already answered: x1" in resumed.stdout
     assert "not accepted:" in resumed.stdout and "field 'high'" in resumed.stdout
     assert "P(positive)" in resumed.stdout and "implied response" in resumed.stdout
@@ -223,3 +230,43 @@ def test_conditional_interview_reproduces_the_stated_rows_and_fits(tmp_path):
         assert row.high == pytest.approx(r.high, abs=tol)
     result = fit(frame, response="y", priors=out)
     assert result.priors.block == block
+
+
+def test_a_second_interview_on_the_same_file_is_refused(tmp_path):
+    (tmp_path / "d.csv").write_text(DATA)
+    env = dict(os.environ, PYTHONPATH=str(ROOT))
+    lock = tmp_path / "p.toml.lock"
+    first = subprocess.Popen(command(tmp_path), stdin=subprocess.PIPE, stdout=subprocess.DEVNULL,
+                             stderr=subprocess.DEVNULL, cwd=ROOT, env=env, text=True)  # fmt: skip
+    try:
+        wait_for(lambda: lock.exists() and lock.read_text().strip() == str(first.pid), "the lock")
+        second = subprocess.run(command(tmp_path), input=lines(X1), cwd=ROOT, env=env,
+                                text=True, capture_output=True, timeout=60)  # fmt: skip
+        assert second.returncode == 2
+        assert second.stderr.count("\n") == 1 and "Traceback" not in second.stderr
+        assert f"another interview (pid {first.pid})" in second.stderr
+        assert not (tmp_path / "p.toml").exists()  # nothing asked, nothing written
+    finally:
+        first.kill()
+        first.wait()
+    # the lock of the killed process is stale: the next interview takes it over
+    run = subprocess.run(command(tmp_path), input=lines(X1 + X2 + NOISE), cwd=ROOT, env=env,
+                         text=True, capture_output=True, timeout=120)  # fmt: skip
+    assert run.returncode == 0, run.stderr
+    assert not lock.exists()
+
+
+def test_an_unwritable_out_is_refused_before_the_first_question(tmp_path, monkeypatch):
+    from elicit.errors import InputError
+
+    def no_questions(*args, **kwargs):
+        raise AssertionError("asked a question with an unwritable output file")
+
+    out = tmp_path / "u.toml"
+    monkeypatch.setattr(os, "access", lambda path, mode: Path(path) != tmp_path)
+    with pytest.raises(InputError, match="is not writable"):
+        Interview(out, "y", no_questions, lambda text: None).run([Term("x1")])
+    monkeypatch.setattr(os, "access", lambda path, mode: Path(path) != out)
+    out.write_text('[study]\nresponse = "y"\n')
+    with pytest.raises(InputError, match="the file is not writable"):
+        Interview(out, "y", no_questions, lambda text: None).run([Term("x1")])

@@ -26,6 +26,7 @@ from scipy import linalg
 
 from bayes.arrays import ReadOnlyArrays
 from bayes.engine.likelihood import check_prior, data_rows, residual_ss
+from bayes.errors import InputError
 from bayes.problem import DataFactor, ScaledPrior
 
 _ACTIVE_PASSES = 3  # coordinate-descent passes over the support between exact steps
@@ -112,7 +113,8 @@ def _duality_gap(XT: np.ndarray, r: np.ndarray, w: np.ndarray, lam: np.ndarray) 
     with np.errstate(divide="ignore"):
         ratio = np.where(g != 0.0, lam / np.abs(g), np.inf)
     s = min(1.0, float(ratio.min()))
-    return float(0.5 * (1 - s) ** 2 * (r @ r) + np.sum(lam * np.abs(w) - s * w * g))
+    with np.errstate(invalid="ignore", over="ignore"):  # non-finite: see _check_finite
+        return float(0.5 * (1 - s) ** 2 * (r @ r) + np.sum(lam * np.abs(w) - s * w * g))
 
 
 def _basic(X: np.ndarray, w: np.ndarray, lam: np.ndarray) -> np.ndarray:
@@ -190,6 +192,14 @@ def _polish(X: np.ndarray, target: np.ndarray, w: np.ndarray, lam: np.ndarray) -
         w[support] = new
 
 
+def _check_finite(gap: float, bound: float) -> None:
+    if not (np.isfinite(gap) and np.isfinite(bound)):
+        raise InputError(
+            f"posterior mode: the coordinate descent's duality gap is not finite (gap {gap:g}, "
+            f"bound {bound:g}): a prior scale or center too large for the arithmetic"
+        )
+
+
 def _weighted_lasso(
     X: np.ndarray,
     y: np.ndarray,
@@ -222,6 +232,7 @@ def _weighted_lasso(
         full_step = _sweep(XT, r, w, norm2, lam, cols)
         sweeps += 1
         gap = _duality_gap(XT, r, w, lam)
+        _check_finite(gap, bound)
         if gap <= bound or sweeps >= max_sweeps:
             break
         active = cols[w[cols] != 0.0]
@@ -232,6 +243,7 @@ def _weighted_lasso(
         w = _polish(X, target, w, lam)
         r = target - X @ w
         gap = _duality_gap(XT, r, w, lam)
+        _check_finite(gap, bound)
         if gap <= bound:
             break
     if gap > bound:
