@@ -114,10 +114,7 @@ def atomic_folder(folder: str | os.PathLike[str]) -> Iterator[Path]:
         tmp = Path(tempfile.mkdtemp(prefix=f".{final.name}.", dir=final.parent))
     try:
         os.chmod(tmp, folder_mode())
-        yield tmp
-        for child in tmp.rglob("*"):
-            if child.is_file():
-                os.chmod(child, file_mode())
+        yield tmp  # files the caller creates in it get the umask's mode already
         if final.exists():
             aside = Path(tempfile.mkdtemp(prefix=f".{final.name}.old.", dir=final.parent))
             os.replace(final, aside / "old")

@@ -10,7 +10,6 @@ from collections.abc import Callable
 from bayes.engine.posterior import DrawsPosterior
 from bayes.problem import DataFactor, ScaledPrior, to_natural
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
-from bayes.threads import blas_threads
 
 
 def sampled_posterior(
@@ -37,10 +36,10 @@ def sampled_posterior(
     from bayes.engine.modes import MODE_KIND, posterior_mode
 
     names = ("intercept", *factor.names)
-    # Thousands of small factorisations per chain: one BLAS thread unless the problem is wide.
-    with blas_threads(len(names)):
-        d = sample(factor, prior, sampler, progress=progress)
-        mode = posterior_mode(factor, prior)
+    # Thousands of small factorisations per chain: bayes.api.fit_factor, the one caller, runs
+    # this on one BLAS thread unless the problem is wide (bayes.threads).
+    d = sample(factor, prior, sampler, progress=progress)
+    mode = posterior_mode(factor, prior)
     nat = to_natural(factor, d.gamma)
     known = prior.noise.known
     post = DrawsPosterior(

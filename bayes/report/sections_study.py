@@ -11,7 +11,7 @@ from bayes.report.context import Context, column_units, number_cell
 from bayes.report.document import Block, Paragraph, Section, Table
 from bayes.report.quantities import collinearity, x_sd, y_sd
 from bayes.results.format import fmt
-from bayes.results.result import CONDITION_WARNING
+from bayes.results.notes import CONDITION_WARNING
 
 VIF_WARNING = 10.0  # variance inflation factor above which collinearity is strong (common practice)
 DECISIVE_RATIO = 0.8  # posterior/prior sd ratio above which the prior, not the data, decides

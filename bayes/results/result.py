@@ -23,7 +23,6 @@ from bayes.results import notes as wording
 from bayes.results.format import fmt, format_table
 from bayes.results.summary import coefficient_rows, diagnostics, penalty_rows
 
-CONDITION_WARNING = wording.CONDITION_WARNING
 CONVERGENCE_COLUMNS = ("r_hat", "ess_bulk", "ess_tail")
 
 
