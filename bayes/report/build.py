@@ -107,7 +107,7 @@ def report_from_result(
         comparison_section(ctx) if comparison is not None else None,
         method_section(ctx),
         cautions_section(ctx),
-        guideline_section(),
+        guideline_section(ctx, figures=figures),
     ]
     title = W.report_title(priors.title, result.response)
     subtitle = W.subtitle(result.response, ctx.response_units, result.factor.n)

@@ -346,3 +346,28 @@ CAUTIONS = (
     "and be reviewed by a licensed professional.",
 )
 SAMPLED_CAUTION = "Sampled results carry Monte Carlo error; see R-hat and ESS."
+
+# --------------------------------------------------------------------------- guideline checklist
+
+GUIDELINE_INTRO = (
+    "Each item of the Bayesian analysis reporting guidelines (Kruschke, 2021, Nature "
+    "Human Behaviour), whether this report covers it, and where; an item not covered says what "
+    "to run, judged from what the fit folder holds."
+)
+GUIDELINE_NO_COMPARISON = (
+    "no comparison of prior sets was saved (bayes compare ... --save FIT_DIR adds one)"
+)
+
+
+def guideline_todo(need: str) -> str:
+    """What to run to cover an item that needs ``need`` (a saved sweep, the figures)."""
+    if need == "sweep":
+        return "run bayes sweep DATA --priors FILE --save FIT_DIR, then bayes report again"
+    return "make the report with its figures"
+
+
+def guideline_not_applicable(need: str) -> str:
+    """Why an item applies to the other kind of fit only."""
+    if need == "sampled":
+        return "exact computation: no Markov chains to check"
+    return "the posterior was sampled: see the convergence items instead"
