@@ -15,6 +15,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from bayes.report.ticks import readable_axis
+
 # Okabe and Ito (2008), "Color Universal Design": the eight colours (common practice, no source).
 OKABE_ITO = {
     "black": "#000000",
@@ -114,6 +116,11 @@ def _pyplot():
     return plt
 
 
+def report_style():
+    """The report's matplotlib style, as a context manager (for drawing a figure outside)."""
+    return _pyplot().rc_context(_STYLE)
+
+
 def png_bytes(fig) -> bytes:
     """The figure as PNG bytes at the report's resolution; the figure is closed."""
     buffer = io.BytesIO()
@@ -137,51 +144,67 @@ def density_figure(panels: Sequence[DensityPanel]) -> bytes:
         A PNG image, ``PAGE_WIDTH`` inches wide.
     """
     plt = _pyplot()
+    with plt.rc_context(_STYLE):
+        return png_bytes(draw_densities(panels))
+
+
+def draw_densities(panels: Sequence[DensityPanel]):
+    """The matplotlib figure of :func:`density_figure` (call inside the report's style)."""
+    plt = _pyplot()
     cols = 2 if len(panels) > 1 else 1
     rows = math.ceil(len(panels) / cols)
-    with plt.rc_context(_STYLE):
-        fig, axes = plt.subplots(
-            rows, cols, figsize=(PAGE_WIDTH, 2.3 * rows + 0.5), squeeze=False, layout="constrained"
-        )
-        for ax, panel in zip(axes.flat, panels, strict=False):
-            top = float(np.max(panel.posterior))
-            if panel.prior is not None:
-                top = max(top, float(np.max(panel.prior)))
-            ax.fill_between(panel.x, panel.posterior, color=POSTERIOR, alpha=0.25, lw=0)
-            ax.plot(panel.x, panel.posterior, color=POSTERIOR, lw=1.8, label="posterior")
-            if panel.prior is not None:
-                ax.plot(panel.x, panel.prior, color=PRIOR, lw=1.6, ls="--", label="prior")
-            else:
-                ax.text(0.02, 0.95, "flat prior", transform=ax.transAxes, va="top",
-                        color=PRIOR, fontsize=8)  # fmt: skip
-            # One bar per statement under the axis; with several experts each bar is named
-            # (text above its left end, inside the panel) and the bars are spaced for it.
-            named = len(panel.stated) > 1
-            step = (0.14 if named else 0.06) * top
-            for i, (label, low, high) in enumerate(panel.stated):
-                y = -step * (i + 1) + (0.04 * top if named else 0.0)
-                ax.plot([low, high], [y, y], color=STATED, lw=3.5, solid_capstyle="butt",
-                        label="stated range" if i == 0 else None)  # fmt: skip
-                if named and label:
-                    ax.annotate(label, (max(low, panel.x[0]), y), xytext=(0, 2.5),
-                                textcoords="offset points", ha="left", va="bottom",
-                                fontsize=6.5, color=STATED, annotation_clip=True)  # fmt: skip
-            if panel.least_squares is not None:
-                ax.axvline(panel.least_squares, color=LEAST_SQUARES, ls=":", lw=1.6,
-                           label="least squares (flat prior)")  # fmt: skip
-            bottom = -step * (len(panel.stated) + 0.6) if panel.stated else 0.0
-            ax.set_ylim(bottom, top * 1.08)
-            ax.set_yticks([t for t in ax.get_yticks() if 0 <= t <= top * 1.08])
-            ax.set_xlim(panel.x[0], panel.x[-1])
-            ax.set_title(panel.name)
-            ax.set_xlabel(panel.units)
-            ax.set_ylabel("probability density")
-        for ax in list(axes.flat)[len(panels) :]:
-            ax.set_axis_off()
-        handles, labels = legend_entries(axes.flat)
-        fig.legend(handles, labels, loc="outside lower center", ncols=min(4, len(labels)),
-                   frameon=False)  # fmt: skip
-        return png_bytes(fig)
+    fig, axes = plt.subplots(
+        rows, cols, figsize=(PAGE_WIDTH, 2.3 * rows + 0.5), squeeze=False, layout="constrained"
+    )
+    for ax, panel in zip(axes.flat, panels, strict=False):
+        _density_panel(ax, panel)
+    for ax in list(axes.flat)[len(panels) :]:
+        ax.set_axis_off()
+    handles, labels = legend_entries(axes.flat)
+    fig.legend(handles, labels, loc="outside lower center", ncols=min(4, len(labels)),
+               frameon=False)  # fmt: skip
+    for ax in list(axes.flat)[: len(panels)]:
+        readable_axis(fig, ax)
+    return fig
+
+
+def _density_panel(ax, panel: DensityPanel) -> None:
+    top = float(np.max(panel.posterior))
+    if panel.prior is not None:
+        top = max(top, float(np.max(panel.prior)))
+    ax.fill_between(panel.x, panel.posterior, color=POSTERIOR, alpha=0.25, lw=0)
+    ax.plot(panel.x, panel.posterior, color=POSTERIOR, lw=1.8, label="posterior")
+    if panel.prior is not None:
+        ax.plot(panel.x, panel.prior, color=PRIOR, lw=1.6, ls="--", label="prior")
+    else:
+        ax.text(0.02, 0.95, "flat prior", transform=ax.transAxes, va="top",
+                color=PRIOR, fontsize=8)  # fmt: skip
+    # One bar per statement below the zero line; with several experts each bar is named beside
+    # its end (right of it, or left where the bar reaches the right of the panel), level with
+    # the bar, so no name sits on the zero line or on a curve.
+    named = len(panel.stated) > 1
+    step = (0.12 if named else 0.06) * top
+    span = panel.x[-1] - panel.x[0]
+    for i, (label, low, high) in enumerate(panel.stated):
+        y = -step * (i + 1)
+        ax.plot([low, high], [y, y], color=STATED, lw=3.5, solid_capstyle="butt",
+                label="stated range" if i == 0 else None)  # fmt: skip
+        if named and label:
+            right = high < panel.x[0] + 0.65 * span
+            at = min(high, panel.x[-1]) if right else max(low, panel.x[0])
+            ax.annotate(label, (at, y), xytext=(3 if right else -3, 0),
+                        textcoords="offset points", ha="left" if right else "right",
+                        va="center", fontsize=6.5, color=STATED, annotation_clip=False)  # fmt: skip
+    if panel.least_squares is not None:
+        ax.axvline(panel.least_squares, color=LEAST_SQUARES, ls=":", lw=1.6,
+                   label="least squares (flat prior)")  # fmt: skip
+    bottom = -step * (len(panel.stated) + 0.6) if panel.stated else 0.0
+    ax.set_ylim(bottom, top * 1.08)
+    ax.set_yticks([t for t in ax.get_yticks() if 0 <= t <= top * 1.08])
+    ax.set_xlim(panel.x[0], panel.x[-1])
+    ax.set_title(panel.name)
+    ax.set_xlabel(panel.units)
+    ax.set_ylabel("probability density")
 
 
 def legend_entries(axes) -> tuple[list, list[str]]:
@@ -286,6 +309,7 @@ def residual_figure(
         ax.set_ylabel(f"residual ({units})")
         fig.legend(*ax.get_legend_handles_labels(), loc="outside lower center", ncols=2,
                    frameon=False)  # fmt: skip
+        readable_axis(fig, ax, "x")
         return png_bytes(fig)
 
 
@@ -331,4 +355,6 @@ def predictive_figure(
         ax.set_xlabel(f"predicted mean response ({units})")
         ax.set_ylabel(f"observed response ({units})")
         ax.legend(loc="upper left", frameon=False)
+        for which in ("x", "y"):
+            readable_axis(fig, ax, which)
         return png_bytes(fig)
