@@ -30,15 +30,15 @@ def sensitivity_section(ctx: Context) -> Section:
                             ("conclusion", "P at stated priors", "status",
                              "flips when narrower by factor", "flips when wider by factor",
                              "P with flat priors"), rows))  # fmt: skip
-    influence = tuple(
-        (c.name, fmt(c.variance_ratio, 2), fmt(_finite(c.prior_share), 2))
-        for c in sweep.coefficients if _finite(c.variance_ratio) is not None
-    )  # fmt: skip
+    kept = [c for c in sweep.coefficients if _finite(c.variance_ratio) is not None]
+    headers = ("coefficient", "posterior / prior variance", "prior's share of the posterior "
+               "precision")  # fmt: skip
+    influence = [(c.name, fmt(c.variance_ratio, 2), fmt(_finite(c.prior_share), 2)) for c in kept]
+    if all(_finite(c.prior_share) is None for c in kept):  # never print an empty column
+        headers, influence = headers[:2], [row[:2] for row in influence]
     if influence:
         blocks.append(Table("influence", "How much the data dominate the priors (at the stated "
-                            "priors)", ("coefficient", "posterior / prior variance",
-                                        "prior's share of the posterior precision"),
-                            influence))  # fmt: skip
+                            "priors)", headers, tuple(influence)))  # fmt: skip
     blocks += _conflict_blocks(sweep.conflict)
     blocks += _power_blocks(sweep.power_scaling)
     blocks += _swap_blocks(ctx, sweep.family_swap)

@@ -1,7 +1,10 @@
-"""The reporting-guideline checklist says what the fit folder actually holds: an item is covered,
-not covered (with what to run), not applicable or not used, never claimed without its part."""
+"""The report claims nothing it lacks: the reporting-guideline checklist says what the fit folder
+actually holds (an item is covered, not covered with what to run, not applicable or not used),
+and no table prints a column that is empty in every row."""
 
 from __future__ import annotations
+
+import dataclasses
 
 import pandas as pd
 import pytest
@@ -80,3 +83,21 @@ def test_a_sampled_fit_covers_the_chain_items_and_not_the_exact_one():
     rows = _checklist(report_from_result(result, figures=False))
     assert rows["2B"][0] == rows["2C"][0] == "covered"
     assert rows["2D"][0] == "not applicable"
+
+
+def _table(report, key):
+    return next((b for s in report.sections for b in s.blocks
+                 if b.kind == "table" and b.key == key), None)  # fmt: skip
+
+
+def test_no_empty_column_in_the_influence_table(demo_result):
+    swept = bayes.sweep(demo_result)
+    table = _table(report_from_result(demo_result, sweep=swept, figures=False), "influence")
+    assert table.headers[-1] == "prior's share of the posterior precision"
+    assert all(row[-1] != "-" for row in table.rows)
+    # A sweep that has no prior shares (as a sampled one) drops the column, not fills it with '-'.
+    bare = dataclasses.replace(swept, coefficients=tuple(
+        dataclasses.replace(c, prior_share=None) for c in swept.coefficients))  # fmt: skip
+    table = _table(report_from_result(demo_result, sweep=bare, figures=False), "influence")
+    assert table.headers == ("coefficient", "posterior / prior variance")
+    assert all(len(row) == 2 for row in table.rows)
