@@ -28,8 +28,8 @@ from elicit.read import read_prior_file
 from elicit.validate import parse_priors
 
 NAMES = ["water_cement", "fly_ash", "curing_temp", "superplasticizer"]
-SECTION_ORDER = ["study", "data", "priors", "posterior", "figures", "sensitivity", "method",
-                 "cautions", "barg"]  # fmt: skip
+SECTION_ORDER = ["findings", "study", "data", "priors", "posterior", "figures", "sensitivity",
+                 "method", "cautions", "barg"]  # fmt: skip
 
 
 @pytest.fixture(scope="module")
@@ -171,7 +171,7 @@ def test_study_section_names_data_hash_and_provenance(tmp_path):
             str(fit_dir)]  # fmt: skip
     subprocess.run([bayes_cmd, *args], check=True, capture_output=True)
     report = build_report(fit_dir, figures=False)
-    study = dict(report.sections[0].blocks[1].rows)
+    study = dict(next(s for s in report.sections if s.key == "study").blocks[1].rows)
     # Source: hashlib.sha256 of the data file.
     digest = hashlib.sha256((DEMO / "trial_mix.csv").read_bytes()).hexdigest()
     assert study["data SHA-256"] == digest
@@ -211,10 +211,15 @@ def test_pooled_coefficient_lists_both_experts(tmp_path):
                  if getattr(b, "key", "") == "priors")  # fmt: skip
     row = next(r for r in table.rows if r[0] == "fly_ash")
     cells = dict(zip(table.headers, row, strict=True))
-    assert cells["stated by"] == ("engineer B", "engineer C")
-    assert cells["mass"] == ("90%", "80%")
     assert cells["pooled"].startswith("yes (linear pool of 2")
-    assert cells["stated range"][0] == "-4 to 0.5 MPa per 0.1 share of binder"
+    statements = next(b for s in report.sections if s.key == "priors" for b in s.blocks
+                      if getattr(b, "key", "") == "statements")  # fmt: skip
+    rows = [dict(zip(statements.headers, r, strict=True)) for r in statements.rows
+            if r[0] == "fly_ash"]  # fmt: skip
+    assert [c["stated by"] for c in rows] == ["engineer B", "engineer C"]
+    assert [c["mass"] for c in rows] == ["90%", "80%"]
+    assert [c["rationale"] for c in rows] == ["slower early strength", "plant records"]
+    assert rows[0]["stated range"] == "-4 to 0.5 MPa per 0.1 share of binder"
 
 
 def test_collinearity_note_appears_only_when_collinear():
@@ -380,7 +385,7 @@ def test_report_of_a_sampled_fit_shows_convergence(tmp_path):
     method = " ".join(b.text for s in report.sections if s.key == "method" for b in s.blocks
                       if b.kind == "paragraph")  # fmt: skip
     assert "Computation: sampling" in method
-    study = dict(report.sections[0].blocks[1].rows)
+    study = dict(next(s for s in report.sections if s.key == "study").blocks[1].rows)
     assert study["random seed"] == "not recorded"  # fit from the API without provenance
 
 

@@ -8,13 +8,12 @@ skipped with the reason. No browser is downloaded by any other route.
 from __future__ import annotations
 
 import json
-import os
 import re
-import shutil
 import subprocess
 from pathlib import Path
 
 import pytest
+from system_tools import install
 
 pytestmark = pytest.mark.browser
 
@@ -60,27 +59,11 @@ window.addEventListener("load", function () {
 </script>"""
 
 
-def _install_chromium() -> str | None:
-    """Install the Debian package where possible; return why not, or None on success."""
-    if not hasattr(os, "geteuid") or os.geteuid() != 0:
-        return "not root, cannot apt-get install chromium"
-    if shutil.which("apt-get") is None:
-        return "no apt-get on this system"
-    try:
-        for cmd in (["apt-get", "update"], ["apt-get", "install", "-y", "chromium"]):
-            subprocess.run(cmd, check=True, capture_output=True, timeout=900,
-                           env={**os.environ, "DEBIAN_FRONTEND": "noninteractive"})  # fmt: skip
-    except (subprocess.SubprocessError, OSError) as e:
-        return f"apt-get install chromium failed: {e}"
-    return None if Path(CHROMIUM).exists() else "chromium still missing after apt-get"
-
-
 @pytest.fixture(scope="session")
 def chromium() -> str:
-    if not Path(CHROMIUM).exists():
-        reason = _install_chromium()
-        if reason:
-            pytest.skip(f"headless Chromium unavailable: {reason}")
+    reason = install(CHROMIUM, "chromium")
+    if reason:
+        pytest.skip(f"headless Chromium unavailable: {reason}")
     return CHROMIUM
 
 
@@ -154,3 +137,107 @@ def test_demo_report_screenshot_without_console_errors(chromium, demo_report, tm
     assert png.startswith(b"\x89PNG\r\n\x1a\n")
     width, height = int.from_bytes(png[16:20], "big"), int.from_bytes(png[20:24], "big")
     assert (width, height) == (1200, 4000)
+
+
+# --------------------------------------------------------------------------- printed width
+
+# Printable width at 96 CSS px per inch with the report's 15 mm side margins (common practice:
+# A4 is 210 mm wide, US Letter 8.5 in = 215.9 mm).
+PRINTABLE_PX = {"A4": (210.0 - 30.0) / 25.4 * 96, "Letter": (215.9 - 30.0) / 25.4 * 96}
+
+# Forces the print rules onto the screen (the page is laid out as printed, at the window's
+# width), then records every table and figure wider than the body.
+WIDTH_SCRIPT = """<script>
+window.addEventListener("load", function () {
+  var body = document.body.getBoundingClientRect();
+  var wide = [];
+  document.querySelectorAll("table, figure img, .formula").forEach(function (el) {
+    var r = el.getBoundingClientRect();
+    var out = r.right > body.right + 0.5 || r.left < body.left - 0.5;
+    if (out || el.scrollWidth > el.clientWidth + 1)
+      wide.push((el.id || el.className || el.tagName) + " " + Math.round(r.width));
+  });
+  var pre = document.createElement("pre");
+  pre.id = "__width";
+  pre.textContent = JSON.stringify({body: body.width, wide: wide,
+                                    tables: document.querySelectorAll("table").length});
+  document.body.appendChild(pre);
+});
+</script>"""
+
+
+@pytest.fixture(scope="module")
+def field_trial_report(tmp_path_factory) -> Path:
+    """The invented field trial's report: long rationales, a factor, two agronomists."""
+    import pandas as pd
+
+    import bayes
+    from bayes.report.build import build_report
+    from bayes.report.render import write_report
+    from bayes.store import save_fit
+
+    data = Path(__file__).parent / "data" / "field_trial"
+    frame = pd.read_csv(data / "trial.csv")
+    fit = bayes.fit(frame, "yield", None, priors=bayes.load_priors(data / "priors.toml"),
+                    formula="`yield` ~ nitrogen + irrigation + sowing_day + C(soil)")  # fmt: skip
+    out = tmp_path_factory.mktemp("field")
+    folder = save_fit(fit, out / "fit")
+    html = out / "report.html"
+    write_report(build_report(folder), html=html)
+    return html
+
+
+def _widths(chromium: str, html: Path, folder: Path, width_px: float) -> dict:
+    text = html.read_text().replace("@media print {", "@media all {", 1)
+    page = folder / "printed.html"
+    page.write_text(text.replace("<head>", "<head>\n" + WIDTH_SCRIPT, 1))
+    size = f"--window-size={int(width_px)},3000"
+    run = _run(chromium, folder / "profile-width", ["--dump-dom", size], page)
+    assert run.returncode == 0, run.stderr[-2000:]
+    found = re.search(r'<pre id="__width">(.*?)</pre>', run.stdout, re.S)
+    assert found, "the width script did not run: " + run.stdout[-500:]
+    return json.loads(found.group(1).replace("&quot;", '"').replace("&amp;", "&"))
+
+
+@pytest.mark.parametrize("paper", sorted(PRINTABLE_PX))
+@pytest.mark.parametrize("which", ["demo", "field trial"])
+def test_no_table_or_figure_is_wider_than_the_printed_page(chromium, demo_report,
+                                                           field_trial_report, tmp_path,
+                                                           paper, which):  # fmt: skip
+    html = demo_report[0] if which == "demo" else field_trial_report
+    found = _widths(chromium, html, tmp_path, PRINTABLE_PX[paper])
+    assert found["tables"] > 5
+    assert abs(found["body"] - int(PRINTABLE_PX[paper])) < 20  # laid out at the page's width
+    assert found["wide"] == []
+
+
+def test_the_width_check_sees_a_table_that_is_too_wide(chromium, tmp_path):
+    cells = "".join(f"<td>{'unbreakable' * 3}{i}</td>" for i in range(12))
+    page = tmp_path / "wide.html"
+    page.write_text("<!DOCTYPE html><html><head><title>t</title><style>@media print {}</style>"
+                    f"</head><body><table><tr>{cells}</tr></table><table></table>"
+                    + "<table></table>" * 5 + "</body></html>")  # fmt: skip
+    found = _widths(chromium, page, tmp_path, PRINTABLE_PX["A4"])
+    assert found["wide"], found
+
+
+@pytest.mark.parametrize("which", ["demo", "field trial"])
+def test_printed_from_the_browser_every_heading_and_number_is_on_the_page(
+    chromium, demo_report, field_trial_report, tmp_path, which
+):
+    pdftotext = "/usr/bin/pdftotext"
+    reason = install(pdftotext, "poppler-utils")
+    if reason:
+        pytest.skip(f"pdftotext unavailable: {reason}")
+    html = demo_report[0] if which == "demo" else field_trial_report
+    pdf = tmp_path / "printed.pdf"
+    args = [f"--print-to-pdf={pdf}", "--no-pdf-header-footer"]
+    run = _run(chromium, tmp_path / "profile-pdf", args, html)
+    assert run.returncode == 0 and pdf.exists(), run.stderr[-2000:]
+    text = subprocess.run([pdftotext, "-layout", str(pdf), "-"], capture_output=True,
+                          text=True, check=True).stdout  # fmt: skip
+    page = html.read_text()
+    for title in re.findall(r"<h2>(.*?)</h2>", page):
+        assert title.replace("&#39;", "'") in text, title
+    for label in re.findall(r"<b>((?:Table|Figure) \d+)\.</b>", page):
+        assert label + "." in text, label

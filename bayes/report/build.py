@@ -21,11 +21,12 @@ from typing import TYPE_CHECKING
 from bayes.errors import InputError
 from bayes.report import wording as W
 from bayes.report.context import Context, response_units
-from bayes.report.document import Report
+from bayes.report.document import Report, numbered
 from bayes.report.guidelines import guideline_section
 from bayes.report.quantities import least_squares
 from bayes.report.sections_comparison import comparison_section
 from bayes.report.sections_figures import figures_section
+from bayes.report.sections_findings import findings_section
 from bayes.report.sections_method import cautions_section, method_section
 from bayes.report.sections_posterior import posterior_section
 from bayes.report.sections_priors import priors_section
@@ -98,6 +99,7 @@ def report_from_result(
     ctx = Context(result, response_units(result), dict(priors.units), least_squares(result),
                   sweep, comparison)  # fmt: skip
     sections = [
+        findings_section(ctx),
         study_section(ctx),
         data_section(ctx),
         priors_section(ctx),
@@ -111,7 +113,7 @@ def report_from_result(
     ]
     title = W.report_title(priors.title, result.response)
     subtitle = W.subtitle(result.response, ctx.response_units, result.factor.n)
-    return Report(title, subtitle, tuple(s for s in sections if s is not None))
+    return numbered(Report(title, subtitle, tuple(s for s in sections if s is not None)))
 
 
 def _check_sweep(sweep: SweepResult, result: FitResult, path: Path) -> None:

@@ -9,9 +9,31 @@ from bayes.report.document import Formula
 
 
 def _math(body: str) -> str:
+    """A displayed formula; ``<mspace width='1em'/>`` separates the lines of a long one, set as
+    rows of a left-aligned table so that it never runs past a printed page."""
+    lines = body.split("<mspace width='1em'/>")
+    if len(lines) > 1 and len(body) > 800:  # the model fits on one line, the others do not
+        rows = "".join(f"<mtr><mtd>{line}</mtd></mtr>" for line in lines)
+        body = f'<mtable columnalign="left">{rows}</mtable>'
     return f'<math display="block">{body}</math>'
 
 
+MODEL_TEX = (
+    r"$y_i = \beta_0 + \sum_{j=1}^{p} \beta_j x_{ij} + \varepsilon_i,\quad "
+    r"\varepsilon_i \sim \mathrm{N}(0, \sigma^2)\ \mathrm{independent}$"
+)
+PRIORS_TEX = (
+    r"$\beta_j \sim \mathrm{N}(m_j, \tau_j^2)\ \mathrm{or}\ \mathrm{Laplace}(m_j, b_j)\ "
+    r"\mathrm{or}\ t_\nu(m_j, s_j)\ \mathrm{or\ flat};\quad \sigma^2 \sim "
+    r"\mathrm{InvGamma}(a, c)\ \mathrm{or}\ p(\sigma^2) \propto 1/\sigma^2$"
+)
+PENALTY_TEX = (
+    r"$\hat\beta = \mathrm{argmin}_\beta\ \frac{1}{2}\sum_i (y_i - x_i^\prime\beta)^2 + "
+    r"\frac{1}{2}\sum_{\mathrm{normal}} \lambda_j (\beta_j - m_j)^2 + "
+    r"\sum_{\mathrm{Laplace}} \lambda_j |\beta_j - m_j|,\quad "
+    r"\lambda_j = \sigma^2/\tau_j^2\ \mathrm{(ridge)},\ \lambda_j = \sigma^2/b_j\ "
+    r"\mathrm{(lasso)}$"
+)
 MODEL = Formula(
     "y_i = beta_0 + sum_{j=1..p} beta_j x_ij + e_i,   e_i ~ Normal(0, sigma^2) independent, "
     "i = 1..n",
@@ -25,6 +47,7 @@ MODEL = Formula(
         "<mo>(</mo><mn>0</mn><mo>,</mo><msup><mi>&#x3C3;</mi><mn>2</mn></msup><mo>)</mo>"
         "<mtext>&#xA0;independent</mtext>"
     ),
+    MODEL_TEX,
 )
 PRIORS = Formula(
     "beta_j ~ Normal(m_j, tau_j^2)  or  Laplace(m_j, b_j)  or  Student-t_nu(m_j, s_j)  or flat; "
@@ -42,6 +65,7 @@ PRIORS = Formula(
         "<mtext>&#xA0;or&#xA0;</mtext><mi>p</mi><mo>(</mo><msup><mi>&#x3C3;</mi><mn>2</mn></msup>"
         "<mo>)</mo><mo>&#x221D;</mo><mn>1</mn><mo>/</mo><msup><mi>&#x3C3;</mi><mn>2</mn></msup>"
     ),
+    PRIORS_TEX,
 )
 PENALTY = Formula(
     "mode given sigma = argmin over beta of  (1/2) sum_i (y_i - x_i'beta)^2 "
@@ -65,4 +89,5 @@ PENALTY = Formula(
         "<msup><mi>&#x3C3;</mi><mn>2</mn></msup><mo>/</mo><msub><mi>b</mi><mi>j</mi></msub>"
         "<mtext>&#xA0;(lasso)</mtext>"
     ),
+    PENALTY_TEX,
 )

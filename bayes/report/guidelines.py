@@ -3,7 +3,6 @@ covers it, and where (or what to run to cover it), judged from what the fit fold
 
 from __future__ import annotations
 
-from bayes.report import wording as W
 from bayes.report.context import Context
 from bayes.report.document import Paragraph, Section, Table
 
@@ -70,6 +69,29 @@ def _table(text: str) -> tuple[tuple[str, ...], ...]:
 
 BARG_ITEMS = _table(_ITEMS)
 
+GUIDELINE_INTRO = (
+    "Each item of the Bayesian analysis reporting guidelines (Kruschke, 2021, Nature "
+    "Human Behaviour), whether this report covers it, and where; an item not covered says what "
+    "to run, judged from what the fit folder holds."
+)
+GUIDELINE_NO_COMPARISON = (
+    "no comparison of prior sets was saved (bayes compare ... --save FIT_DIR adds one)"
+)
+
+
+def guideline_todo(need: str) -> str:
+    """What to run to cover an item that needs ``need`` (a saved sweep, the figures)."""
+    if need == "sweep":
+        return "run bayes sweep DATA --priors FILE --save FIT_DIR, then bayes report again"
+    return "make the report with its figures"
+
+
+def guideline_not_applicable(need: str) -> str:
+    """Why an item applies to the other kind of fit only."""
+    if need == "sampled":
+        return "exact computation: no Markov chains to check"
+    return "the posterior was sampled: see the convergence items instead"
+
 
 def item_status(need: str, *, sampled: bool, sweep: bool, comparison: bool,
                 figures: bool) -> str:  # fmt: skip
@@ -97,11 +119,11 @@ def guideline_rows(ctx: Context, *, figures: bool) -> tuple[tuple[str, str, str,
     for item, asks, need, where in BARG_ITEMS:
         status = item_status(need, **have)
         if status == NOT_COVERED:
-            where = W.guideline_todo(need)
+            where = guideline_todo(need)
         elif status == NOT_APPLICABLE:
-            where = W.guideline_not_applicable(need)
+            where = guideline_not_applicable(need)
         elif status == NOT_USED and need == "comparison":
-            where = W.GUIDELINE_NO_COMPARISON
+            where = GUIDELINE_NO_COMPARISON
         rows.append((item, asks, status, where))
     return tuple(rows)
 
@@ -109,7 +131,7 @@ def guideline_rows(ctx: Context, *, figures: bool) -> tuple[tuple[str, str, str,
 def guideline_section(ctx: Context, *, figures: bool = True) -> Section:
     """Appendix: the reporting-guideline checklist (not numbered)."""
     return Section("barg", "Appendix: reporting guideline checklist", (
-        Paragraph(W.GUIDELINE_INTRO),
+        Paragraph(GUIDELINE_INTRO),
         Table("guideline", "Guideline items and whether this report covers them",
               ("item", "guideline asks for", "status", "covered in, or how to cover it"),
               guideline_rows(ctx, figures=figures)),

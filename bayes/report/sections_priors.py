@@ -8,8 +8,11 @@ from bayes.report.document import Block, Paragraph, Section, Table
 from bayes.report.quantities import prior_dist
 from bayes.results.format import fmt
 
-HEADERS = ("coefficient", "units", "family", "centre", "scale", "prior sd", "stated range",
-           "mass", "stated by", "rationale", "pooled", "equivalent penalty")  # fmt: skip
+HEADERS = ("coefficient", "units", "family", "centre", "scale", "prior sd", "pooled",
+           "equivalent penalty")  # fmt: skip
+# The experts' statements, one row each, apart from the priors so that free text (the rationale)
+# never widens a table of numbers beyond the page.
+STATEMENT_HEADERS = ("coefficient", "stated by", "stated range", "mass", "rationale")
 
 
 def priors_section(ctx: Context) -> Section:
@@ -22,6 +25,10 @@ def priors_section(ctx: Context) -> Section:
         Paragraph(W.PRIORS_INTRO),
         Table("priors", "Priors on the coefficients", HEADERS, rows),
     ]
+    statements = tuple(row for name in r.names for row in _statement_rows(ctx, name))
+    if statements:
+        blocks.append(Table("statements", "The experts' statements behind the priors",
+                            STATEMENT_HEADERS, statements))  # fmt: skip
     if block is not None:
         blocks.append(Paragraph(W.block_text(block.names, bool(block.rows))))
         if block.rows:
@@ -42,15 +49,28 @@ def priors_section(ctx: Context) -> Section:
     return Section("priors", "The priors", tuple(blocks))
 
 
+def _unit(ctx: Context, name: str) -> str:
+    unit = column_units(ctx, name)
+    return f"unit of {name}" if unit == "-" else unit
+
+
+def _statement_rows(ctx: Context, name: str) -> list[tuple]:
+    """One row per statement of the experts about ``name``."""
+    cp = ctx.result.priors.get(name)
+    unit = _unit(ctx, name)
+    return [
+        (name, s.expert or "not named", W.statement_range(s, unit, ctx.response_units),
+         f"{100 * s.mass:g}%" if s.mass is not None else "-", s.rationale or "-")
+        for s in (cp.statements if cp is not None else ())
+    ]  # fmt: skip
+
+
 def _prior_row(ctx: Context, name: str) -> tuple:
     """The priors table's row of one coefficient."""
     r = ctx.result
     priors = r.priors
     cp = priors.get(name)
-    unit = column_units(ctx, name)
-    unit = f"unit of {name}" if unit == "-" else unit
     statements = cp.statements if cp is not None else ()
-    ranges = tuple(W.statement_range(s, unit, ctx.response_units) for s in statements)
     if cp is None or cp.family == "flat":
         block = priors.block
         in_block = block is not None and name in block.names
@@ -58,15 +78,10 @@ def _prior_row(ctx: Context, name: str) -> tuple:
         return (name, coefficient_units(ctx, name),
                 "normal (correlated block)" if in_block else "flat",
                 number_cell(dist.mean()) if dist is not None else "-", "-",
-                number_cell(dist.std()) if dist is not None else "inf", ranges or "-",
-                "-", "-", "-", "no", "none")  # fmt: skip
+                number_cell(dist.std()) if dist is not None else "inf", "no", "none")  # fmt: skip
     family = cp.family if cp.family != "student_t" else f"student_t (df {cp.df:g})"
-    masses = tuple(f"{100 * s.mass:g}%" if s.mass is not None else "-" for s in statements)
-    experts = tuple(s.expert or "not named" for s in statements)
-    reasons = tuple(s.rationale or "-" for s in statements)
     pooled = f"yes ({cp.pool} pool of {len(statements)})" if cp.pool else "no"
     pen = next((p for p in r.penalties if p["name"] == name), None)
     penalty = f"{pen['penalty']}, lambda = {fmt(pen['lambda'], 3)}" if pen else "none"
     return (name, coefficient_units(ctx, name), family, number_cell(cp.center),
-            number_cell(cp.scale), number_cell(cp.sd), ranges or "-", masses or "-",
-            experts or "-", reasons or "-", pooled, penalty)  # fmt: skip
+            number_cell(cp.scale), number_cell(cp.sd), pooled, penalty)  # fmt: skip

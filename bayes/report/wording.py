@@ -347,27 +347,49 @@ CAUTIONS = (
 )
 SAMPLED_CAUTION = "Sampled results carry Monte Carlo error; see R-hat and ESS."
 
-# --------------------------------------------------------------------------- guideline checklist
 
-GUIDELINE_INTRO = (
-    "Each item of the Bayesian analysis reporting guidelines (Kruschke, 2021, Nature "
-    "Human Behaviour), whether this report covers it, and where; an item not covered says what "
-    "to run, judged from what the fit folder holds."
+# --------------------------------------------------------------------------- findings
+
+FINDINGS_TITLE = "Findings"
+
+
+def findings_intro(n: int, method: str, level_text: str, posterior_table: str) -> str:
+    how = "computed exactly" if method == "exact" else "sampled by Markov chain Monte Carlo"
+    return (
+        f"The answer in brief, from {n} rows; the posterior was {how}, intervals at "
+        f"{level_text} ({posterior_table} gives every coefficient)."
+    )
+
+
+def _p(probability: float) -> str:
+    """A probability to three decimals, never rounded to a certainty."""
+    if probability > 0.999:
+        return "above 0.999"
+    if probability < 0.001:
+        return "below 0.001"
+    return f"{probability:.3f}"
+
+
+def finding(statement: str, probability: float, status: str) -> str:
+    """One conclusion of the sweep: its probability at the stated priors and its status."""
+    return f"{statement}: probability {_p(probability)} at the stated priors; {status}."
+
+
+def unswept_finding(name: str, response: str, p_positive: float) -> str:
+    """A slope's sign from the fit alone (no sweep saved)."""
+    raises = p_positive >= 0.5
+    p = p_positive if raises else 1.0 - p_positive
+    verb = "raises" if raises else "lowers"
+    return f"{name} {verb} {response}: probability {_p(p)} at the stated priors."
+
+
+FINDINGS_NOTES = "Notes and warnings of the fit:"
+NOT_SWEPT = (
+    "How these conclusions depend on the prior widths was not checked: no width sweep was "
+    "saved with this fit (bayes sweep ... --save FIT_DIR adds it)."
 )
-GUIDELINE_NO_COMPARISON = (
-    "no comparison of prior sets was saved (bayes compare ... --save FIT_DIR adds one)"
-)
 
 
-def guideline_todo(need: str) -> str:
-    """What to run to cover an item that needs ``need`` (a saved sweep, the figures)."""
-    if need == "sweep":
-        return "run bayes sweep DATA --priors FILE --save FIT_DIR, then bayes report again"
-    return "make the report with its figures"
-
-
-def guideline_not_applicable(need: str) -> str:
-    """Why an item applies to the other kind of fit only."""
-    if need == "sampled":
-        return "exact computation: no Markov chains to check"
-    return "the posterior was sampled: see the convergence items instead"
+def conflict_finding(names: list[str]) -> str:
+    return "Prior-data conflict: the data sit in the far tail of the prior of " + ", ".join(
+        names) + " (see the sensitivity section)."  # fmt: skip
