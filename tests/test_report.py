@@ -236,7 +236,28 @@ def test_collinearity_note_appears_only_when_collinear():
     demo = report_from_result(bayes.fit(frame[["c", "y"]], "y"), figures=False)
     demo_texts = " ".join(b.text for s in demo.sections if s.key == "data" for b in s.blocks
                           if b.kind == "paragraph")  # fmt: skip
-    assert "No strong collinearity" in demo_texts
+    assert "No pair of predictors is correlated at |r| >= 0.8" in demo_texts
+
+
+def test_collinearity_is_told_straight_on_the_field_trial():
+    from pathlib import Path
+
+    from statsmodels.stats.outliers_influence import variance_inflation_factor
+
+    data = Path(__file__).parent / "data" / "field_trial"
+    frame = pd.read_csv(data / "trial.csv")
+    result = bayes.fit(frame, "yield", ["nitrogen", "irrigation", "sowing_day"])
+    report = report_from_result(result, figures=False)
+    texts = " ".join(b.text for s in report.sections if s.key == "data" for b in s.blocks
+                     if b.kind == "paragraph")  # fmt: skip
+    X = np.column_stack([np.ones(len(frame)), frame[["nitrogen", "irrigation", "sowing_day"]]])
+    r = np.corrcoef(frame["nitrogen"], frame["irrigation"])[0, 1]
+    assert f"nitrogen and irrigation (r = {r:.2f})" in texts
+    assert "No pair" not in texts and "No strong" not in texts
+    for j, name in ((1, "nitrogen"), (2, "irrigation")):
+        vif = variance_inflation_factor(X, j)  # statsmodels: 1 / (1 - R_j^2)
+        assert vif > 5
+        assert f"{name} {vif:.3g} (its flat-prior interval is {vif**0.5:.2g} times" in texts
 
 
 def _sweep_dir(demo_result, demo_fit_dir, tmp_path):

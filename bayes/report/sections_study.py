@@ -14,6 +14,8 @@ from bayes.results.format import fmt
 from bayes.results.notes import CONDITION_WARNING
 
 VIF_WARNING = 10.0  # variance inflation factor above which collinearity is strong (common practice)
+VIF_NOTE = 5.0  # above it a VIF is named with its widening (common practice, no source)
+CORRELATION_NOTE = 0.8  # |r| from which a pair of predictors is named (common practice, no source)
 DECISIVE_RATIO = 0.8  # posterior/prior sd ratio above which the prior, not the data, decides
 
 
@@ -75,14 +77,22 @@ def data_section(ctx: Context) -> Section:
     vif_max = float(np.max(vif)) if f.p else 1.0
     blocks.append(Paragraph(W.collinearity_text(cond_value, CONDITION_WARNING, vif_max,
                                                 VIF_WARNING)))  # fmt: skip
+    pairs = [(names[i], names[k], float(corr[i, k])) for i in range(f.p)
+             for k in range(i + 1, f.p) if abs(corr[i, k]) >= CORRELATION_NOTE]  # fmt: skip
+    inflated = sorted(((names[j], float(vif[j])) for j in range(f.p) if vif[j] > VIF_NOTE),
+                      key=lambda item: -item[1])  # fmt: skip
+    if pairs:
+        blocks.append(Paragraph(W.correlated_pairs(pairs, CORRELATION_NOTE)))
+    if inflated:
+        blocks.append(Paragraph(W.inflation_note(inflated, VIF_NOTE)))
     strong = [names[j] for j in range(f.p) if vif[j] > VIF_WARNING]
     if strong or cond_value > CONDITION_WARNING:
         ratios = {row["name"]: row.get("sd_ratio") for row in r.rows}
         decisive = [n for n in (strong or names) if (ratios.get(n) or 0) > DECISIVE_RATIO]
         blocks.append(Paragraph(W.collinear_note(strong or list(names), decisive,
                                                  DECISIVE_RATIO)))  # fmt: skip
-    else:
-        blocks.append(Paragraph(W.NO_COLLINEARITY))
+    elif not pairs and not inflated:
+        blocks.append(Paragraph(W.no_collinearity(CORRELATION_NOTE, VIF_NOTE)))
     return Section("data", "The data", tuple(blocks))
 
 

@@ -78,7 +78,26 @@ def collinear_note(names: list[str], decisive: list[str], decisive_ratio: float)
     return note
 
 
-NO_COLLINEARITY = "No strong collinearity: the data separate the predictors' effects."
+def correlated_pairs(pairs: list[tuple[str, str, float]], limit: float) -> str:
+    """The pairs of predictors whose correlation reaches ``limit`` in size."""
+    items = [f"{a} and {b} (r = {r:.2f})" for a, b, r in pairs]
+    return f"Pairs of predictors correlated at |r| >= {limit:g}: " + "; ".join(items) + "."
+
+
+def inflation_note(items: list[tuple[str, float]], limit: float) -> str:
+    """Each predictor whose VIF exceeds ``limit``, with the widening it causes."""
+    parts = [f"{name} {fmt(v, 3)} (its flat-prior interval is {fmt(v ** 0.5, 2)} times as wide "
+             "as it would be with uncorrelated predictors)" for name, v in items]  # fmt: skip
+    return f"Variance inflation factors above {limit:g}: " + "; ".join(parts) + "."
+
+
+def no_collinearity(corr_limit: float, vif_limit: float) -> str:
+    return (
+        f"No pair of predictors is correlated at |r| >= {corr_limit:g} and no variance "
+        f"inflation factor exceeds {vif_limit:g}: collinearity widens no flat-prior interval by "
+        f"more than {fmt(vif_limit**0.5, 2)} times."
+    )
+
 
 # --------------------------------------------------------------------------- the priors
 
