@@ -15,7 +15,6 @@ interview skips what the file answers, replays the draft and carries on.
 from __future__ import annotations
 
 from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -26,60 +25,16 @@ from elicit.errors import InputError, PriorFileError
 from elicit.feedback import block_feedback, coefficient_feedback, noise_feedback
 from elicit.outfile import Draft, OutputLock, check_writable
 from elicit.predictive import predictor_means, prior_predictive
+from elicit.questions import Term, above, finite, positive, probability, terms_from_data
 from elicit.read import read_prior_file
 from elicit.spec import FAMILIES, INTERCEPT, PriorSet
 from elicit.validate import parse_priors
 from elicit.write import prior_doc, write_prior_file
 
+__all__ = ["Interview", "Term", "terms_from_data"]  # Term's home is elicit.questions
+
 Ask = Callable[..., Any]
 Say = Callable[[str], None]
-
-
-@dataclass(frozen=True)
-class Term:
-    """One design column the interview asks about.
-
-    Attributes
-    ----------
-    name : str
-        Name in the prior file (the data column).
-    level : str or None
-        Categorical level: the question is about its difference from the reference level
-        (written as the prior file's ``level`` key); the ``elicit`` command makes these terms
-        from a model formula.
-    units : str or None
-        Units of the predictor, shown in the questions.
-    describe : str
-        What the data say about it (range, mean), shown before the questions.
-    reference : tuple of (label, value)
-        Predictor values at which the implied response is shown as feedback.
-    """
-
-    name: str
-    level: str | None = None
-    units: str | None = None
-    describe: str = ""
-    reference: tuple[tuple[str, float], ...] = ()
-
-    @property
-    def column(self) -> str:
-        return self.name if self.level is None else f"{self.name}[{self.level}]"
-
-
-def terms_from_data(frame, response: str, *, units: Mapping[str, str] | None = None) -> list[Term]:
-    """One :class:`Term` per numeric predictor column of ``frame`` (all but ``response``)."""
-    units = units or {}
-    terms = []
-    for name in frame.select_dtypes("number").columns:
-        if name == response:
-            continue
-        x = frame[name].dropna()
-        lo, hi = float(x.quantile(0.1)), float(x.quantile(0.9))
-        describe = f"data: {float(x.min()):.4g} to {float(x.max()):.4g}, mean {float(x.mean()):.4g}"
-        reference = ((f"{name} = {lo:.4g} (10% quantile)", lo),
-                     (f"{name} = {hi:.4g} (90% quantile)", hi))  # fmt: skip
-        terms.append(Term(name, None, units.get(name), describe, reference))
-    return terms
 
 
 def _blank_to_none(text: str) -> str | None:
@@ -202,17 +157,17 @@ class Interview:
             entry["level"] = term.level
         entry["family"] = family
         if family == "student_t":
-            entry["df"] = self.ask(
-                "Degrees of freedom", type=float, default=last.get("df", convert.DEFAULT_DF)
+            entry["df"] = self.checked(
+                "Degrees of freedom", last.get("df", convert.DEFAULT_DF), positive
             )
         if family != "flat" and term.level is not None:
             what = f"difference in {self.response} for {term.column} against the reference level"
             entry.update(self._ask_range(what, "the difference", last))
         elif family != "flat":
-            per = self.ask(
+            per = self.checked(
                 f"The range is for a change of how many {term.units or 'units'} of {term.column}",
-                type=float,
-                default=last.get("per", 1.0),
+                last.get("per", 1.0),
+                positive,
             )
             what = f"change in {self.response} per {per:g}{units} of {term.column}"
             entry.update(self._ask_range(what, "the effect", last))
@@ -244,16 +199,23 @@ class Interview:
         self.say("\n".join(show.format_predictive(implied, units=priors.response_units)))
 
     def _ask_range(self, what: str, subject: str, last: Mapping[str, Any]) -> dict[str, float]:
-        """Lowest and highest plausible ``what``, and the probability of that range."""
-        return {
-            "low": self.ask(f"Lowest plausible {what}", type=float, default=last.get("low")),
-            "high": self.ask(f"Highest plausible {what}", type=float, default=last.get("high")),
-            "mass": self.ask(
-                f"Probability that {subject} lies in that range",
-                type=float,
-                default=last.get("mass", 0.9),
-            ),
-        }
+        """Lowest and highest plausible ``what``, and the probability of that range, each
+        checked the moment it is typed (the highest above the lowest, a probability in (0, 1))."""
+        low = self.checked(f"Lowest plausible {what}", last.get("low"), finite)
+        high = self.checked(f"Highest plausible {what}", last.get("high"),
+                            lambda x: finite(x) or above(x, low, "the lowest"))  # fmt: skip
+        mass = self.checked(f"Probability that {subject} lies in that range",
+                            last.get("mass", 0.9), probability)  # fmt: skip
+        return {"low": low, "high": high, "mass": mass}
+
+    def checked(self, prompt: str, default, check: Callable[[float], str | None]) -> float:
+        """A number, asked again at once (with the reason) until ``check`` finds no problem."""
+        while True:
+            value = self.ask(prompt, type=float, default=default)
+            problem = check(value)
+            if problem is None:
+                return value
+            self.say(f"not accepted: {problem}")
 
     def _until_accepted(
         self,

@@ -19,8 +19,9 @@ DATA = "x1,x2,y\n0.1,1,2.0\n0.4,2,3.1\n0.9,1,4.2\n1.3,3,5.9\n1.8,2,6.1\n2.2,4,8.
 
 # family, per, low, high, mass, expert, rationale, accept
 X1 = ["normal", "1", "1", "4", "0.9", "analyst A", "steady rise in the invented pilot runs", "a"]
-# an invalid answer first (low above high), then revised after seeing the feedback
-X2_BAD = ["laplace", "1", "2", "-2", "0.8", "", ""]
+# an invalid answer (the highest below the lowest) refused the moment it is typed and retyped,
+# then the whole answer revised after seeing the feedback
+X2_BAD = ["laplace", "1", "2", "-2", "2.5", "0.8", "", "", "r"]
 X2 = ["laplace", "2", "-1", "1", "0.8", "analyst B", "", "r",
       "laplace", "2", "-1", "1.5", "0.8", "analyst B", "no clear direction", "a"]  # fmt: skip
 NOISE = ["0.3", "1.5", "0.9", "a"]
@@ -98,7 +99,7 @@ def test_kill_midway_then_resume(tmp_path):
     assert "Lowest plausible change in y per 2 of x2: -1.0 (from the draft)" in resumed.stdout
     assert sorted(os.listdir(tmp_path)) == ["d.csv", "log1.txt", "p.toml"]
     assert "already answered: x1" in resumed.stdout
-    assert "not accepted:" in resumed.stdout and "field 'high'" in resumed.stdout
+    assert "not accepted: must be above the lowest (2), got -2" in resumed.stdout
     assert "P(positive)" in resumed.stdout and "implied response" in resumed.stdout
     # the noise feedback of the interview: median and 90% interval of the sd, and the shape
     assert ("\nnoise sd: median 0.5547, 90% interval 0.3 .. 1.5 (inverse gamma on the variance, "
@@ -270,3 +271,28 @@ def test_an_unwritable_out_is_refused_before_the_first_question(tmp_path, monkey
     out.write_text('[study]\nresponse = "y"\n')
     with pytest.raises(InputError, match="the file is not writable"):
         Interview(out, "y", no_questions, lambda text: None).run([Term("x1")])
+
+
+def test_each_answer_is_checked_the_moment_it_is_typed(tmp_path):
+    # family, per (0 refused, then 2), low, high (below low: refused, then 3), mass (1.5
+    # refused, then 0.9), expert, rationale, accept
+    answers = iter(["normal", "0", "2", "1", "-1", "3", "1.5", "0.9", "A", "", "a"])
+    said, prompts = [], []
+
+    def ask(prompt, type=None, default=None):
+        prompts.append(prompt)
+        value = next(answers)
+        return type(value) if callable(type) and not hasattr(type, "choices") else value
+
+    priors = Interview(tmp_path / "q.toml", "y", ask, said.append).run([Term("x1")], noise=False)
+    s = priors.get("x1").statements[0]
+    assert (s.per, s.low, s.high, s.mass) == (2.0, 1.0, 3.0, 0.9)
+    # every refused answer is asked again at once, before any other question
+    per, low, high, mass = (prompts[i] for i in (1, 3, 4, 6))
+    assert prompts[1:8] == [per, per, low, high, high, mass, mass]
+    refusals = [line for line in said if line.startswith("not accepted:")]
+    assert refusals == [
+        "not accepted: must be positive, got 0",
+        "not accepted: must be above the lowest (1), got -1",
+        "not accepted: a probability must lie strictly between 0 and 1, got 1.5",
+    ]

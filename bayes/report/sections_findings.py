@@ -7,7 +7,7 @@ the fit's size and method, and every warning of the fit and the sweep.
 
 from __future__ import annotations
 
-from bayes.report import wording as W
+from bayes.report import findings_wording as W
 from bayes.report.context import Context
 from bayes.report.document import Block, Bullets, Paragraph, Section, ref
 
