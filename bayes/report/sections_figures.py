@@ -8,6 +8,7 @@ from bayes.report import wording as W
 from bayes.report.context import Context, coefficient_units
 from bayes.report.document import Block, Figure, Paragraph, Section
 from bayes.report.figures import DensityPanel, ForestRow, Interval
+from bayes.problem import model_rows
 from bayes.report.quantities import prior_dist, stated_ranges, x_sd, y_sd
 
 PREDICTIVE_ROWS = 2000  # the predictive check draws at most this many rows (seeded choice)
@@ -90,7 +91,7 @@ def _residual_blocks(ctx: Context) -> list[Block]:
         return [Paragraph(W.NO_DATA_ROWS)]
     X, y = r.data.X, r.data.y
     beta = r.posterior.mean
-    fitted = beta[0] + X @ beta[1:]
+    fitted = model_rows(X, r.factor.intercept) @ beta
     sigma = r.posterior.sigma_quantile(0.5)
     units = ctx.response_units
     blocks: list[Block] = [Figure("residuals", W.residuals_caption(sigma, units),
