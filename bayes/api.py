@@ -100,7 +100,8 @@ def fit(
                 "no response given (response=..., or [study] response in the prior file)"
             )
         design = build_design(data, response, predictors, drop_missing=drop_missing, source=source,
-                              formula=formula, reference=reference, intercept=intercept)  # fmt: skip
+                              formula=formula, reference=reference,
+                              intercept=intercept)  # fmt: skip
     if design.terms is not None:
         design.terms.check_priors(prior_set)
     factor = factor_from_arrays(design.X, design.y, design.names, intercept=design.intercept)

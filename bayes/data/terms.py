@@ -292,7 +292,8 @@ class Terms:
             terms = cls(
                 _text(doc["response"], "response"), check_formula(_text(doc["formula"], "formula")),
                 _texts(doc["variables"], "variables"), cats, _texts(doc["columns"], "columns"),
-                _texts(doc.get("notes", ()), "notes"), _flag(doc.get("intercept", True), "intercept"),
+                _texts(doc.get("notes", ()), "notes"),
+                _flag(doc.get("intercept", True), "intercept"),  # absent in older folders
             )  # fmt: skip
         except (KeyError, TypeError, AttributeError) as e:
             raise InputError(f"not a model coding (missing or bad field {e})") from None
@@ -312,8 +313,9 @@ class Terms:
             raise InputError(f"formula '{self.formula}' does not read the variables "
                              f"{', '.join(self.variables)}")  # fmt: skip
         if formula_intercept(self.formula) != self.intercept:
-            raise InputError(f"formula '{self.formula}' {'drops' if self.intercept else 'keeps'} "
-                             f"the intercept, but intercept is {str(self.intercept).lower()}")  # fmt: skip
+            said = "drops" if self.intercept else "keeps"
+            raise InputError(f"formula '{self.formula}' {said} the intercept, but intercept is "
+                             f"{str(self.intercept).lower()}")  # fmt: skip
         for c in self.categorical:
             if c.name not in self.variables:
                 raise InputError(f"categorical '{c.name}' is not one of the variables")

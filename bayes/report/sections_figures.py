@@ -4,11 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 
+from bayes.problem import model_rows
 from bayes.report import wording as W
 from bayes.report.context import Context, coefficient_units
 from bayes.report.document import Block, Figure, Paragraph, Section
 from bayes.report.figures import DensityPanel, ForestRow, Interval
-from bayes.problem import model_rows
 from bayes.report.quantities import prior_dist, stated_ranges, x_sd, y_sd
 
 PREDICTIVE_ROWS = 2000  # the predictive check draws at most this many rows (seeded choice)
