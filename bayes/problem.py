@@ -38,9 +38,10 @@ class DataFactor:
     n : int
         Number of rows used.
     x_mean, x_scale : ndarray, shape (p,)
-        Column means and scales (natural units) used to centre and scale.
+        Column means and scales (natural units) used to centre and scale (the means
+        are 0 without an intercept, and the scales root mean squares).
     y_mean : float
-        Mean of the response (response units).
+        Mean of the response (response units; 0 without an intercept).
     R : ndarray, shape (m, p + 1), m = min(n, p + 1)
         Upper-triangular (trapezoidal when n < p + 1) factor with
         ``R.T @ R == [Xs, yc].T @ [Xs, yc]`` where ``Xs = (X - x_mean) / x_scale``
