@@ -51,6 +51,7 @@ def fit(
     provenance: dict | None = None,
     formula: str | None = None,
     reference: Mapping[str, str] | None = None,
+    intercept: bool = True,
 ) -> FitResult:
     """Fit the Bayesian linear model of ``response`` on ``predictors``.
 
@@ -77,6 +78,9 @@ def fit(
         (see :mod:`bayes.data.formula`). Text predictors are categorical either way.
     reference : mapping of column -> level, optional
         Reference level of each categorical predictor (default: the most frequent).
+    intercept : bool
+        False fits a model without an intercept (the line through the origin). A formula
+        says it itself (``"y ~ x - 1"`` or ``"y ~ 0 + x"``).
 
     Returns
     -------
@@ -85,6 +89,9 @@ def fit(
     prior_set = load_priors(priors)
     if isinstance(data, Design):
         design = data
+        if not intercept and design.intercept:
+            raise InputError("intercept=False, but the design given has an intercept "
+                             "(build it with intercept=False)")  # fmt: skip
     else:
         if formula_response(formula) is None:
             response = response or prior_set.response
@@ -93,10 +100,11 @@ def fit(
                 "no response given (response=..., or [study] response in the prior file)"
             )
         design = build_design(data, response, predictors, drop_missing=drop_missing, source=source,
-                              formula=formula, reference=reference)  # fmt: skip
+                              formula=formula, reference=reference,
+                              intercept=intercept)  # fmt: skip
     if design.terms is not None:
         design.terms.check_priors(prior_set)
-    factor = factor_from_arrays(design.X, design.y, design.names)
+    factor = factor_from_arrays(design.X, design.y, design.names, intercept=design.intercept)
     return fit_factor(
         factor, prior_set, design.response, level=level, method=method, sampler=sampler,
         progress=progress, data=design, provenance=provenance,
@@ -125,13 +133,13 @@ def fit_factor(
     if method == "auto":
         method = "exact" if scaled.gaussian_only else "sample"
     if method == "exact" and not scaled.gaussian_only:
-        bad = [c for c, f in zip(("intercept", *factor.names), scaled.family, strict=True)
+        bad = [c for c, f in zip(factor.coefficient_names, scaled.family, strict=True)
                if f not in ("flat", "normal")]  # fmt: skip
         raise InputError(
             f"the priors on {', '.join(bad)} are not Gaussian: the exact engine cannot fit them; "
             "use method='sample'"
         )
-    with blas_threads(factor.p + 1):
+    with blas_threads(factor.k):
         if method == "exact":
             posterior, inference = exact_posterior(factor, scaled), None
         else:

@@ -300,9 +300,9 @@ def compare_priors(
         raise InputError(
             f"prior_sets must hold at least two prior files to compare, got {len(prior_sets)}"
         )
-    factor = factor_from_arrays(design.X, design.y, design.names)
-    with blas_threads(factor.p + 1):  # small problems run on one BLAS thread
-        names = ("intercept", *design.names)
+    factor = factor_from_arrays(design.X, design.y, design.names, intercept=design.intercept)
+    with blas_threads(factor.k):  # small problems run on one BLAS thread
+        names = factor.coefficient_names
         fits = []  # the arguments of each SetResult, the engine's LooResult for its summary
         for ps in prior_sets:
             if design.terms is not None:

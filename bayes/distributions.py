@@ -121,6 +121,8 @@ class StudentT(Distribution):
         return float(stats.t.sf(x, self.df, self.loc, self.scale))
 
     def ppf(self, q: float) -> float:
+        if self.scale == 0.0:  # a point (the mean response at the origin, no intercept)
+            return float(self.loc)
         return float(stats.t.ppf(q, self.df, self.loc, self.scale))
 
     def pdf(self, x: np.ndarray) -> np.ndarray:

@@ -184,11 +184,12 @@ def load_fit(folder: str | Path) -> FitResult:
     doc = read_json(folder / "fit.json")
     check_fit_doc(doc, path=folder / "fit.json")
     npz = folder / "posterior.npz"
-    z = load_arrays(npz)
+    intercept = doc.get("intercept", True)  # a folder without the field: an intercept
+    z = load_arrays(npz, intercept=intercept)
     try:
         factor = DataFactor(
             tuple(str(s) for s in z["factor_names"]), int(z["factor_n"]), z["x_mean"],
-            z["x_scale"], float(z["y_mean"]), z["R"],
+            z["x_scale"], float(z["y_mean"]), z["R"], intercept,
         )  # fmt: skip
         post = _posterior_from_arrays(z, doc["labels"])
     except DAMAGE as e:
@@ -208,9 +209,10 @@ def load_fit(folder: str | Path) -> FitResult:
             terms = Terms.from_dict(coding)
         except InputError as e:
             raise InputError(f"{folder / 'terms.json'}: {e}") from None
-        if terms.response != doc["response"] or terms.columns != factor.names:
+        if (terms.response != doc["response"] or terms.columns != factor.names
+                or terms.intercept != intercept):  # fmt: skip
             raise InputError(
-                f"{folder / 'terms.json'}: its response and columns differ from the fit's"
+                f"{folder / 'terms.json'}: its response, columns or intercept differ from the fit's"
             )
     data = None
     if (folder / "data.csv").exists():
@@ -220,7 +222,7 @@ def load_fit(folder: str | Path) -> FitResult:
             data = Design(
                 doc["response"], names, frame[list(names)].to_numpy(float),
                 frame[doc["response"]].to_numpy(float), str(doc["provenance"].get("data", "data")),
-                int(doc["provenance"].get("dropped", 0)), terms,
+                int(doc["provenance"].get("dropped", 0)), terms, intercept,
             )  # fmt: skip
         except (*DAMAGE, pd.errors.ParserError, pd.errors.EmptyDataError) as e:
             raise damaged(folder / "data.csv", e) from None

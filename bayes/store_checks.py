@@ -53,6 +53,8 @@ def check_fit_doc(doc: dict, *, path: Path) -> None:
         value = doc.get(key)
         if not isinstance(value, kind) or isinstance(value, bool):
             raise InputError(f"{path}: damaged: field {key!r} is missing or not a {kind.__name__}")
+    if not isinstance(doc.get("intercept", True), bool):
+        raise InputError(f"{path}: damaged: field 'intercept' is not true or false")
     if not 0 < doc["level"] < 1:
         raise InputError(f"{path}: damaged: level must lie strictly between 0 and 1")
     labels = doc.get("labels")
@@ -65,18 +67,19 @@ def check_fit_doc(doc: dict, *, path: Path) -> None:
         raise InputError(f"{path}: method must be exact or sampled, got {labels['method']!r}")
 
 
-def load_arrays(path: Path) -> dict[str, np.ndarray]:
-    """Every array of ``posterior.npz`` (no pickled objects), checked by :func:`check_arrays`."""
+def load_arrays(path: Path, *, intercept: bool = True) -> dict[str, np.ndarray]:
+    """Every array of ``posterior.npz`` (no pickled objects), checked by :func:`check_arrays`
+    (``intercept``: whether the fit's model has one, from ``fit.json``)."""
     try:
         with np.load(path, allow_pickle=False) as z:
             arrays = {k: z[k] for k in z.files}
     except DAMAGE as e:
         raise damaged(path, e) from None
-    check_arrays(arrays, path=path)
+    check_arrays(arrays, path=path, intercept=intercept)
     return arrays
 
 
-def check_arrays(z: dict[str, np.ndarray], *, path: Path) -> None:
+def check_arrays(z: dict[str, np.ndarray], *, path: Path, intercept: bool = True) -> None:
     """The arrays of ``posterior.npz`` have the keys, shapes and finite values a fit has.
 
     Raises
@@ -90,7 +93,7 @@ def check_arrays(z: dict[str, np.ndarray], *, path: Path) -> None:
     if missing:
         raise InputError(f"{path}: damaged: no array {missing[0]!r}")
     p = len(z["factor_names"])
-    k, m = p + 1, len(z["weights"])
+    k, m = p + int(intercept), len(z["weights"])
     shapes = {"factor_names": (p,), "factor_n": (), "x_mean": (p,), "x_scale": (p,),
               "y_mean": (), "names": (k,), "mode": (k,), "scalars": (3,), "weights": (m,),
               "sigma": (m,), "means": (m, k), "covs": (m, k, k)}  # fmt: skip
@@ -101,12 +104,12 @@ def check_arrays(z: dict[str, np.ndarray], *, path: Path) -> None:
         if key not in z or z[key].shape != shape:
             got = z[key].shape if key in z else "none"
             raise InputError(f"{path}: damaged: array {key!r} has shape {got}, not {shape}")
-    if z["R"].ndim != 2 or z["R"].shape[1] != k or not 1 <= z["R"].shape[0] <= k:
+    if z["R"].ndim != 2 or z["R"].shape[1] != p + 1 or not 1 <= z["R"].shape[0] <= p + 1:
         raise InputError(f"{path}: damaged: array 'R' has shape {z['R'].shape}")
     for key in ("factor_names", "names"):
         if z[key].dtype.kind != "U":
             raise InputError(f"{path}: damaged: array {key!r} is not text")
-    if list(z["names"]) != ["intercept", *z["factor_names"]]:
+    if list(z["names"]) != ["intercept"] * intercept + list(z["factor_names"]):
         raise InputError(f"{path}: damaged: the posterior's names are not the data factor's")
     numbers = [key for key in z if key not in ("factor_names", "names")]
     for key in numbers:

@@ -73,6 +73,7 @@ TERMS_DOC = {
                      "levels": ["CEM I", "CEM II", "CEM III"], "numeric": False}],
     "columns": ["water_cement", "cement_type[CEM II]", "cement_type[CEM III]",
                 "I(water_cement ** 2)"],
+    "intercept": True,
     "notes": ["cement_type: reference level 'CEM I' (as asked); each cement_type[level] "
               "coefficient is that level's difference from CEM I, in response units."],
 }  # fmt: skip

@@ -213,7 +213,8 @@ def test_prior_entries_that_do_not_fit_the_terms_are_named(mixes, entry, words):
 @pytest.mark.parametrize(
     "kwargs, words",
     [
-        ({"formula": "strength ~ water_cement - 1"}, "removes the intercept"),
+        ({"formula": "strength ~ water_cement + cement_type - 1"},
+         "'cement_type' is categorical and the model has no intercept"),
         ({"formula": "strength ~ center(water_cement)"}, "depends on the data it is fitted to"),
         ({"formula": "strength ~ water_cement +"}, "cannot read"),
         ({"formula": "strength ~ nothing_here"}, "nothing_here"),

@@ -37,9 +37,12 @@ from bayes.settings import SamplerSettings
               help="dask: compute the data factor on a dask cluster (always streams).")  # fmt: skip
 @click.option("--scheduler", metavar="ADDRESS",
               help="dask scheduler, e.g. tcp://host:8786 (default: a local cluster).")  # fmt: skip
+@click.option("--no-intercept", "no_intercept", is_flag=True,
+              help="Fit without an intercept (the line through the origin); with --formula, "
+              "write 'y ~ x - 1' instead.")  # fmt: skip
 def fit_command(data, response, predictors, priors, formula, reference, drop_missing, level, fmt,
                 method, chains, draws, warmup, seed, save_dir, digits, stream, chunk_rows, engine,
-                scheduler):  # fmt: skip
+                scheduler, no_intercept):  # fmt: skip
     """Fit the model to DATA (CSV or Parquet) and print the posterior table."""
     from bayes.data.stream import should_stream
     from bayes.errors import InputError
@@ -57,12 +60,14 @@ def fit_command(data, response, predictors, priors, formula, reference, drop_mis
     if engine == "dask" or should_stream(data, stream=stream):
         result = streamed_fit_from_options(data, response, predictors, priors, formula, reference,
                                            drop_missing, level, fmt, method, sampler,
-                                           chunk_rows, engine, scheduler)  # fmt: skip
+                                           chunk_rows, engine, scheduler,
+                                           not no_intercept)  # fmt: skip
     else:
         with progress_bar(fmt, "sampling") as progress:
             result = fit_from_options(data, response, predictors, priors, drop_missing, level,
                                       method, sampler, progress, formula=formula,
-                                      reference=reference)  # fmt: skip
+                                      reference=reference,
+                                      intercept=not no_intercept)  # fmt: skip
     if save_dir:
         from bayes.store import save_fit
 

@@ -109,7 +109,7 @@ def split_columns(text: str | None) -> list[str] | None:
 
 
 def design_from_options(data, response, predictors, prior_set, drop_missing, formula=None,
-                        reference=()):  # fmt: skip
+                        reference=(), intercept=True):  # fmt: skip
     """Read DATA and build the design the command line asks for (used by several commands)."""
     from bayes.data.coding import reference_levels
     from bayes.data.design import build_design
@@ -123,17 +123,18 @@ def design_from_options(data, response, predictors, prior_set, drop_missing, for
     return build_design(
         read_table(data), response, split_columns(predictors), drop_missing=drop_missing,
         source=Path(data).name, formula=formula, reference=reference_levels(reference),
+        intercept=intercept,
     )  # fmt: skip
 
 
 def fit_from_options(data, response, predictors, priors, drop_missing, level, method, sampler,
-                     progress=None, formula=None, reference=()):  # fmt: skip
+                     progress=None, formula=None, reference=(), intercept=True):  # fmt: skip
     """Read the files named on the command line and fit (used by several commands)."""
     from bayes.api import fit, load_priors
 
     prior_set = load_priors(priors)
     design = design_from_options(data, response, predictors, prior_set, drop_missing, formula,
-                                 reference)  # fmt: skip
+                                 reference, intercept)  # fmt: skip
     return fit(
         design, priors=prior_set, level=level, method=method, sampler=sampler, progress=progress,
         provenance=provenance(data, sampler.seed if method != "exact" else None, design.dropped),
@@ -142,7 +143,7 @@ def fit_from_options(data, response, predictors, priors, drop_missing, level, me
 
 def streamed_fit_from_options(data, response, predictors, priors, formula, reference,
                               drop_missing, level, fmt, method, sampler, chunk_rows, engine,
-                              scheduler):  # fmt: skip
+                              scheduler, intercept=True):  # fmt: skip
     """Fit from a data factor read in chunks (bayes.data.stream) or by dask (.distributed)."""
     from bayes.api import fit_factor, load_priors
     from bayes.errors import InputError
@@ -166,9 +167,14 @@ def streamed_fit_from_options(data, response, predictors, priors, formula, refer
             streamed = stream_factor(data, response, split_columns(predictors),
                                      drop_missing=drop_missing, chunk_rows=chunk_rows,
                                      progress=progress)  # fmt: skip
+    factor = streamed.factor
+    if not intercept:
+        from bayes.data.factor import without_intercept
+
+        factor = without_intercept(factor)
     with progress_bar(fmt, "sampling") as progress:
         return fit_factor(
-            streamed.factor, prior_set, response, level=level, method=method, sampler=sampler,
+            factor, prior_set, response, level=level, method=method, sampler=sampler,
             progress=progress, provenance=provenance(data, sampler.seed if method != "exact"
                                                      else None, streamed.dropped),
         )  # fmt: skip

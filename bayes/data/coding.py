@@ -8,7 +8,7 @@ from collections.abc import Iterable, Mapping, Sequence
 
 import numpy as np
 
-from bayes.data.formula import categorical_factors, model_matrix, quoted
+from bayes.data.formula import categorical_factors, formula_intercept, model_matrix, quoted
 from bayes.data.terms import Categorical, Terms, level_labels
 from bayes.errors import InputError
 
@@ -29,6 +29,15 @@ def reference_levels(pairs: Iterable[str] | None) -> dict[str, str]:
             raise InputError(f"reference level '{pair}' is not COLUMN=LEVEL")
         out[name.strip()] = level.strip()
     return out
+
+
+def categorical_without_intercept(name: str) -> InputError:
+    """The error for a categorical predictor in a model without an intercept."""
+    return InputError(
+        f"'{name}' is categorical and the model has no intercept: its levels are coded as "
+        "differences from a reference level, which needs the intercept; keep the intercept "
+        "or give the levels as numeric indicator columns"
+    )
 
 
 def make_terms(
@@ -69,7 +78,10 @@ def make_terms(
     reference = dict(reference or {})
     categorical, notes = [], []
     n = len(rows)
+    intercept = formula_intercept(rhs)
     for term, name in categorical_factors(rhs, data, source=source):
+        if not intercept:
+            raise categorical_without_intercept(term)
         numeric = data[name].dtype.kind in "fiub"
         labels = level_labels(data[name], numeric=numeric)
         found, counts = np.unique(labels, return_counts=True)
@@ -108,4 +120,5 @@ def make_terms(
     if len(set(names)) != len(names):
         twice = next(c for c in names if names.count(c) > 1)
         raise InputError(f"formula: the design column '{twice}' appears twice")
-    return Terms(response, rhs, tuple(predictors), tuple(categorical), tuple(names), tuple(notes))
+    return Terms(response, rhs, tuple(predictors), tuple(categorical), tuple(names), tuple(notes),
+                 intercept)  # fmt: skip

@@ -14,7 +14,7 @@ import numpy as np
 import pandas as pd
 
 from bayes.arrays import read_only
-from bayes.data.coding import make_terms
+from bayes.data.coding import categorical_without_intercept, make_terms
 from bayes.data.columns import (
     check_distinct,
     checked_values,
@@ -26,7 +26,7 @@ from bayes.data.columns import (
     select_columns,
     stack_columns,
 )
-from bayes.data.formula import split_formula
+from bayes.data.formula import formula_intercept, split_formula
 from bayes.errors import InputError
 
 
@@ -52,6 +52,8 @@ class Design:
     terms : bayes.data.terms.Terms, optional
         The coding of categorical predictors and derived terms (formula or
         text columns); None when the design columns are the data columns.
+    intercept : bool
+        The model has an intercept (default); its coefficient is not a column of ``X``.
     """
 
     response: str
@@ -61,6 +63,7 @@ class Design:
     source: str = "data frame"
     dropped: int = 0
     terms: object | None = None
+    intercept: bool = True
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "X", read_only(self.X, float))
@@ -85,6 +88,7 @@ def build_design(
     source: str = "data frame",
     formula: str | None = None,
     reference: Mapping[str, str] | None = None,
+    intercept: bool = True,
 ) -> Design:
     """Validate a data frame and extract the design.
 
@@ -105,6 +109,9 @@ def build_design(
         ``response``/``predictors``.
     reference : mapping of column -> level, optional
         Reference levels of categorical predictors (default: the most frequent).
+    intercept : bool
+        False for a model without an intercept; a formula says it itself (``y ~ x - 1``,
+        ``y ~ 0 + x``), and False with a formula that keeps the intercept is an error.
 
     Returns
     -------
@@ -116,9 +123,19 @@ def build_design(
             formula, response=response, predictors=predictors,
             columns=[str(c) for c in frame.columns],
         )  # fmt: skip
+        if not intercept and formula_intercept(formula):
+            raise InputError(
+                f"formula: '{formula.strip()}' keeps the intercept but a model without one was "
+                "asked for: remove it in the formula ('- 1' or '0 +')"
+            )
+        intercept = formula_intercept(formula)
     frame, predictors = select_columns(frame, response, predictors, source=source)
     sub = frame[[response, *predictors]]
     text = [c for c in predictors if is_text(sub[c])]
+    if not intercept and formula is None and text:
+        raise categorical_without_intercept(text[0])
+    if not intercept and not predictors:
+        raise InputError("a model without an intercept needs at least one predictor")
     values, dropped = checked_values(sub, source=source, drop_missing=drop_missing, text=text)
     y = np.array(values[response])  # a copy: values may be a view of the caller's frame
     terms = None
@@ -135,7 +152,7 @@ def build_design(
     if X.base is not None:  # a view (one column): own the array before freezing it
         X = X.copy()
     X.flags.writeable = y.flags.writeable = False  # fresh arrays: Design keeps them uncopied
-    return Design(response, tuple(names), X, y, source, dropped, terms)
+    return Design(response, tuple(names), X, y, source, dropped, terms, intercept)
 
 
 def predictor_matrix(

@@ -38,7 +38,12 @@ def _triangular(M: np.ndarray) -> np.ndarray:
 
 
 def factor_from_arrays(
-    X: np.ndarray, y: np.ndarray, names: Sequence[str], *, x_scale: np.ndarray | None = None
+    X: np.ndarray,
+    y: np.ndarray,
+    names: Sequence[str],
+    *,
+    x_scale: np.ndarray | None = None,
+    intercept: bool = True,
 ) -> DataFactor:
     """Centre, scale and factorise an in-memory design.
 
@@ -52,6 +57,9 @@ def factor_from_arrays(
         Design column names.
     x_scale : ndarray, shape (p,), optional
         Column scales; default the root mean square of each centred column.
+    intercept : bool
+        False for a model without an intercept: nothing is centred (the means are 0)
+        and the default scales are the root mean squares of the columns themselves.
 
     Returns
     -------
@@ -60,13 +68,14 @@ def factor_from_arrays(
     X = np.asarray(X, dtype=float)
     y = np.asarray(y, dtype=float)
     n, p = X.shape
-    x_mean = X.mean(axis=0)
+    x_mean = X.mean(axis=0) if intercept else np.zeros(p)
     Xc = X - x_mean
     if x_scale is None:
         x_scale = np.sqrt(np.mean(Xc**2, axis=0))
-    y_mean = float(y.mean())
+    y_mean = float(y.mean()) if intercept else 0.0
     M = np.column_stack([Xc / x_scale, y - y_mean])
-    return DataFactor(tuple(names), n, x_mean, np.asarray(x_scale, float), y_mean, _triangular(M))
+    return DataFactor(tuple(names), n, x_mean, np.asarray(x_scale, float), y_mean, _triangular(M),
+                      intercept)  # fmt: skip
 
 
 def centred_moments(X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -99,14 +108,24 @@ def merge_factors(
 
 
 def factor_from_moments(
-    names: Sequence[str], n: int, mean: np.ndarray, R_centred: np.ndarray
+    names: Sequence[str],
+    n: int,
+    mean: np.ndarray,
+    R_centred: np.ndarray,
+    *,
+    intercept: bool = True,
 ) -> DataFactor:
     """Scale a centred factor of ``[X, y]`` (response last) into a :class:`DataFactor`.
 
     Column scaling commutes with the triangular factor (R of ``M D`` is ``R D``),
-    so scaling after accumulation is exact.
+    so scaling after accumulation is exact. Without an intercept the means go back
+    in: the uncentred cross product is the centred one plus ``n mean mean'``, so the
+    factor is the R of ``[R_centred; sqrt(n) mean']``.
     """
     p = len(names)
+    if not intercept:
+        R_centred = _triangular(np.vstack([R_centred, np.sqrt(n) * mean[None, :]]))
+        mean = np.zeros_like(mean)
     col_norm = np.sqrt(np.sum(R_centred[:, :p] ** 2, axis=0))
     x_scale = col_norm / np.sqrt(n)
     d = np.append(1.0 / x_scale, 1.0)
@@ -114,4 +133,18 @@ def factor_from_moments(
     m = min(n, p + 1)
     if R.shape[0] < m:
         R = np.vstack([R, np.zeros((m - R.shape[0], p + 1))])
-    return DataFactor(tuple(names), n, mean[:p], x_scale, float(mean[p]), R[:m])
+    return DataFactor(tuple(names), n, mean[:p], x_scale, float(mean[p]), R[:m], intercept)
+
+
+def without_intercept(factor: DataFactor) -> DataFactor:
+    """The factor of the same rows for a model without an intercept (not centred).
+
+    ``factor`` is centred and scaled (``R'R = [Xs, yc]'[Xs, yc]``); undoing the scaling
+    gives the centred factor in natural units, and :func:`factor_from_moments` puts the
+    means back. Used for streamed and distributed reads, which centre as they go.
+    """
+    if not factor.intercept:
+        return factor
+    R_centred = np.asarray(factor.R) * np.append(factor.x_scale, 1.0)[None, :]
+    mean = np.append(factor.x_mean, factor.y_mean)
+    return factor_from_moments(factor.names, factor.n, mean, R_centred, intercept=False)

@@ -97,13 +97,17 @@ def split_formula(
             "no response column given (formula 'y ~ ...', response, or the prior file's "
             "[study] response)"
         )
-    if not any(str(t) == "1" for t in parsed):
-        raise InputError(
-            f"formula: '{formula}' removes the intercept: the model always has one "
-            "(its prior is flat unless the prior file gives one)"
-        )
     named = {m.group(1) or m.group(2) for m in _NAME.finditer(rhs)} & set(columns)
     return response, rhs, sorted({str(v) for v in parsed.required_variables} | named)
+
+
+def formula_intercept(rhs: str) -> bool:
+    """Whether the right-hand side ``rhs`` (checked by :func:`split_formula`) keeps the
+    intercept: False for ``x - 1`` and ``0 + x``."""
+    from formulaic import Formula
+
+    check_formula(rhs)
+    return any(str(t) == "1" for t in Formula(rhs))
 
 
 def model_matrix(rhs: str, frame: pd.DataFrame, *, source: str) -> tuple[list[str], np.ndarray]:
@@ -203,7 +207,5 @@ def _evaluate(rhs: str, frame: pd.DataFrame, source: str):
     if stateful:
         raise data_dependent(stateful[0])
     names = [_TREATMENT.sub("[", str(c)) for c in mm.columns]
-    if "Intercept" not in names:
-        raise InputError(f"formula: '{rhs}' removes the intercept: the model always has one")
     keep = [j for j, c in enumerate(names) if c != "Intercept"]
     return [names[j] for j in keep], keep, mm

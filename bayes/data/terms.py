@@ -27,7 +27,7 @@ import numpy as np
 import pandas as pd
 
 from bayes.data.columns import checked_values, file_rows, needed_columns
-from bayes.data.formula import model_matrix, term_key
+from bayes.data.formula import formula_intercept, model_matrix, term_key
 from bayes.data.grammar import check_formula, formula_names
 from bayes.errors import InputError
 from elicit.units import split_term
@@ -80,6 +80,8 @@ class Terms:
         Design column names (no intercept), in formulaic's order.
     notes : tuple of str
         Plain-language notes (the reference levels) for the fit's output.
+    intercept : bool
+        The model has an intercept (the formula does not remove it with ``- 1`` or ``0 +``).
     """
 
     response: str
@@ -88,6 +90,7 @@ class Terms:
     categorical: tuple[Categorical, ...]
     columns: tuple[str, ...]
     notes: tuple[str, ...] = field(default=(), compare=False)
+    intercept: bool = True
 
     def get(self, term: str) -> Categorical | None:
         """The categorical predictor whose factor is named ``term`` (or whose column is)."""
@@ -267,6 +270,7 @@ class Terms:
                 for c in self.categorical
             ],
             "columns": list(self.columns),
+            "intercept": self.intercept,
         }
 
     @classmethod
@@ -282,13 +286,14 @@ class Terms:
         try:
             cats = tuple(
                 Categorical(_text(c["name"], "categorical name"), _text(c["term"], "term"),
-                            _texts(c["levels"], "levels"), _flag(c["numeric"]))
+                            _texts(c["levels"], "levels"), _flag(c["numeric"], "numeric"))
                 for c in _list(doc["categorical"], "categorical")
             )  # fmt: skip
             terms = cls(
                 _text(doc["response"], "response"), check_formula(_text(doc["formula"], "formula")),
                 _texts(doc["variables"], "variables"), cats, _texts(doc["columns"], "columns"),
                 _texts(doc.get("notes", ()), "notes"),
+                _flag(doc.get("intercept", True), "intercept"),  # absent in older folders
             )  # fmt: skip
         except (KeyError, TypeError, AttributeError) as e:
             raise InputError(f"not a model coding (missing or bad field {e})") from None
@@ -307,6 +312,10 @@ class Terms:
         if formula_names(self.formula) != set(self.variables):
             raise InputError(f"formula '{self.formula}' does not read the variables "
                              f"{', '.join(self.variables)}")  # fmt: skip
+        if formula_intercept(self.formula) != self.intercept:
+            said = "drops" if self.intercept else "keeps"
+            raise InputError(f"formula '{self.formula}' {said} the intercept, but intercept is "
+                             f"{str(self.intercept).lower()}")  # fmt: skip
         for c in self.categorical:
             if c.name not in self.variables:
                 raise InputError(f"categorical '{c.name}' is not one of the variables")
@@ -353,9 +362,9 @@ def _list(values, field: str) -> list:
     return list(values)
 
 
-def _flag(value) -> bool:
+def _flag(value, field: str) -> bool:
     if not isinstance(value, bool):
-        raise InputError(f"numeric must be true or false, got {value!r}")
+        raise InputError(f"{field} must be true or false, got {value!r}")
     return value
 
 

@@ -90,7 +90,7 @@ def log_marginal_likelihood(factor: DataFactor, prior: ScaledPrior) -> Evidence:
     says so otherwise). The result's ``mc_se`` is 0.
     """
     rows = StackedRows.checked(factor, prior, caller="log_marginal_likelihood")
-    n, k = factor.n, factor.p + 1
+    n, k = factor.n, factor.k
     base = _gaussian_part(factor, prior) + (k - n) / 2 * LOG_2PI
     noise = prior.noise
     if noise.known:
@@ -138,7 +138,7 @@ def log_prior(factor: DataFactor, prior: ScaledPrior, gamma: np.ndarray) -> np.n
     if W.shape[0]:
         z = (gamma - prior.mean) @ W.T
         out = out - 0.5 * np.sum(z**2, axis=-1)
-    x_scale = np.concatenate([[1.0], factor.x_scale])
+    x_scale = np.concatenate([[1.0], factor.x_scale]) if factor.intercept else factor.x_scale
     for j, family in enumerate(prior.family):
         if family not in ("laplace", "student_t"):
             continue

@@ -111,7 +111,7 @@ class _Model(ReadOnlyArrays):
 
 def _model(factor: DataFactor, prior: ScaledPrior) -> _Model:
     check_prior(factor, prior)
-    k = factor.p + 1
+    k = factor.k
     fam = np.array(prior.family)
     lap = np.flatnonzero(fam == "laplace")
     stu = np.flatnonzero(fam == "student_t")
@@ -126,7 +126,7 @@ def _model(factor: DataFactor, prior: ScaledPrior) -> _Model:
     diagonal = not np.any(gram - np.diag(np.diag(gram)))
     if len(mix) == 0 and prior.noise.known:
         route = "fixed"
-    elif factor.n < factor.p and diagonal and "flat" not in prior.family[1:]:
+    elif factor.n < factor.p and diagonal and "flat" not in prior.family[factor.slopes]:
         route = "bcm"
     else:
         route = "stacked"
@@ -189,12 +189,12 @@ def _draw_gamma_bcm(model: _Model, rng, sigma: float, prec: np.ndarray) -> np.nd
     full_prec = model.prior_prec.copy()
     full_prec[model.mix] = prec
     gamma = np.empty(model.k)
-    # The intercept is separate: its data term n alpha^2 / sigma^2 is uncoupled.
-    a_prec = f.n / sigma**2 + full_prec[0]
-    gamma[0] = full_prec[0] * model.loc[0] / a_prec + rng.standard_normal() / np.sqrt(a_prec)
-    loc = model.loc[1:]
+    if f.intercept:  # separate: its data term n alpha^2 / sigma^2 is uncoupled
+        a_prec = f.n / sigma**2 + full_prec[0]
+        gamma[0] = full_prec[0] * model.loc[0] / a_prec + rng.standard_normal() / np.sqrt(a_prec)
+    loc = model.loc[f.slopes]
     target = (f.r12 - f.R11 @ loc) / sigma
-    gamma[1:] = loc + _draw_bcm(f.R11 / sigma, target, 1.0 / full_prec[1:], rng)
+    gamma[f.slopes] = loc + _draw_bcm(f.R11 / sigma, target, 1.0 / full_prec[f.slopes], rng)
     return gamma
 
 

@@ -6,6 +6,8 @@
 the predictors are centred, the residual sum of squares splits exactly:
 ``RSS(gamma) = n alpha^2 + ||r12 - R11 theta||^2``, the second term over all
 rows of the factor (which include ``r22^2`` when the factor is square).
+Without an intercept nothing is centred, ``gamma = theta`` and
+``RSS(gamma) = ||r12 - R11 theta||^2``.
 """
 
 from __future__ import annotations
@@ -18,11 +20,12 @@ from bayes.errors import InputError
 from bayes.problem import DataFactor, ScaledPrior
 
 FAMILIES = ("flat", "normal", "laplace", "student_t")
+RANK_TOL = 1e-10  # relative singular value below which a direction counts as not determined
 
 
 def coefficient_names(factor: DataFactor) -> tuple[str, ...]:
-    """Names of the p + 1 coordinates of ``gamma``: ``"intercept"`` then the columns."""
-    return ("intercept", *factor.names)
+    """Names of the k coordinates of ``gamma``: ``"intercept"`` (if any) then the columns."""
+    return factor.coefficient_names
 
 
 def data_rows(factor: DataFactor) -> tuple[np.ndarray, np.ndarray]:
@@ -30,11 +33,14 @@ def data_rows(factor: DataFactor) -> tuple[np.ndarray, np.ndarray]:
 
     Returns
     -------
-    A : ndarray, shape (m + 1, p + 1)
+    A : ndarray, shape (m + 1, p + 1), or (m, p) without an intercept
         Row 0 is ``sqrt(n) e_0`` (the intercept); rows 1.. are ``[0, R11]``.
-    b : ndarray, shape (m + 1,)
-        ``(0, r12)``, response units.
+        Without an intercept, ``R11``.
+    b : ndarray, shape (m + 1,), or (m,)
+        ``(0, r12)``, response units (``r12`` without an intercept).
     """
+    if not factor.intercept:
+        return np.array(factor.R11), np.array(factor.r12)
     m, p = factor.R11.shape
     A = np.zeros((m + 1, p + 1))
     A[0, 0] = np.sqrt(factor.n)
@@ -42,8 +48,23 @@ def data_rows(factor: DataFactor) -> tuple[np.ndarray, np.ndarray]:
     return A, np.concatenate([[0.0], factor.r12])
 
 
+def _null_space(M: np.ndarray, floor: float) -> np.ndarray:
+    """Orthonormal basis (columns) of the directions ``v`` with ``||M v|| <= floor ||v||``."""
+    _, s, Vt = np.linalg.svd(M, full_matrices=True)
+    s_full = np.zeros(M.shape[1])
+    s_full[: len(s)] = s
+    return Vt[s_full <= floor].T
+
+
 def check_identified(factor: DataFactor, prior: ScaledPrior) -> None:
     """Stop with a clear error when a flat prior leaves a direction unidentified.
+
+    The posterior is proper when the stack ``[D; W]`` of data rows and prior roots has
+    full column rank, that is when the data rows ``D`` separate every direction that the
+    proper priors ``W`` leave free (their null space ``N``). So the prior is judged on
+    its own scale (``W``'s null space) and the data on theirs (``D N`` against ``D``'s
+    largest singular value): a precise proper prior cannot make a well-determined flat
+    coefficient look aliased, as one relative threshold on the stack would.
 
     Raises
     ------
@@ -51,14 +72,18 @@ def check_identified(factor: DataFactor, prior: ScaledPrior) -> None:
         Naming the aliased columns, or when n is too small for the flat coefficients.
     """
     D, _ = data_rows(factor)
-    M = np.vstack([D, prior.root_precision])
-    _, s, Vt = np.linalg.svd(M, full_matrices=True)
-    s_full = np.zeros(M.shape[1])
-    s_full[: len(s)] = s
-    null = Vt[s_full <= s_full.max() * 1e-10]
-    if len(null):
-        weight = np.sqrt(np.sum(null**2, axis=0))
-        names = ("intercept", *factor.names)
+    W = prior.root_precision
+    k = D.shape[1]
+    free = np.eye(k)
+    if W.shape[0]:
+        free = _null_space(W, np.linalg.norm(W, 2) * RANK_TOL)
+    d_max = np.linalg.norm(D, 2)
+    null = np.zeros((k, 0))
+    if free.shape[1]:
+        null = free @ _null_space(D @ free, d_max * RANK_TOL)
+    if null.shape[1]:
+        weight = np.sqrt(np.sum(null**2, axis=1))
+        names = factor.coefficient_names
         aliased = [names[j] for j in np.flatnonzero(weight > 1e-6)]
         raise InputError(
             "the data cannot separate the columns "
@@ -79,7 +104,7 @@ def residual_ss(factor: DataFactor, gamma: np.ndarray) -> np.ndarray:
 
     Parameters
     ----------
-    gamma : ndarray, shape (..., p + 1)
+    gamma : ndarray, shape (..., k)
         Scaled coefficients.
 
     Returns
@@ -88,8 +113,9 @@ def residual_ss(factor: DataFactor, gamma: np.ndarray) -> np.ndarray:
         Response units squared.
     """
     gamma = np.asarray(gamma, dtype=float)
-    fit = gamma[..., 1:] @ factor.R11.T
-    return factor.n * gamma[..., 0] ** 2 + np.sum((factor.r12 - fit) ** 2, axis=-1)
+    fit = gamma[..., factor.slopes] @ factor.R11.T
+    rss = np.sum((factor.r12 - fit) ** 2, axis=-1)
+    return factor.n * gamma[..., 0] ** 2 + rss if factor.intercept else rss
 
 
 def check_prior(factor: DataFactor, prior: ScaledPrior) -> None:
@@ -106,8 +132,8 @@ def check_prior(factor: DataFactor, prior: ScaledPrior) -> None:
     InputError
         An improper posterior, in words the user can act on.
     """
-    names = coefficient_names(factor)
-    k = factor.p + 1
+    names = factor.coefficient_names
+    k = factor.k
     if len(prior.family) != k:
         raise ValueError(f"prior has {len(prior.family)} coordinates, the design needs {k}")
     for arr, what in ((prior.mean, "mean"), (prior.scale, "scale"), (prior.df, "df")):
@@ -135,7 +161,7 @@ def check_prior(factor: DataFactor, prior: ScaledPrior) -> None:
             "so the posterior under a Jeffreys noise prior is improper: state the noise sd "
             "or a range for it"
         )
-    if "flat" not in prior.family[1:]:
+    if "flat" not in prior.family[factor.slopes]:
         return  # proper priors on every slope; the data identify the centred intercept
     # Laplace and Student-t priors are proper: give them unit rows so that only
     # directions with flat priors and no data are reported.

@@ -18,6 +18,7 @@ from bayes.arrays import ReadOnlyArrays
 from bayes.engine.evidence import log_marginal_likelihood
 from bayes.engine.posterior import MixturePosterior
 from bayes.errors import InputError
+from bayes.problem import model_rows
 
 
 @dataclass(frozen=True, eq=False)
@@ -56,9 +57,9 @@ class LooResult(ReadOnlyArrays):
         return np.flatnonzero(self.pareto_k > self.good_k)
 
 
-def _rows(X: np.ndarray) -> np.ndarray:
-    X = np.asarray(X, dtype=float)
-    return np.column_stack([np.ones(len(X)), X])
+def _rows(X: np.ndarray, k: int) -> np.ndarray:
+    """The rows of ``k`` coefficients: with an intercept when k is one more than X's columns."""
+    return model_rows(X, k == np.shape(X)[1] + 1)
 
 
 def _loo(pointwise: np.ndarray, lppd: float, method: str, **extra) -> LooResult:
@@ -103,7 +104,7 @@ def exact_loo(posterior: MixturePosterior, X: np.ndarray, y: np.ndarray, priors)
     """
     if not isinstance(posterior, MixturePosterior):
         raise ValueError("exact_loo needs an exact posterior (use psis_loo for draws)")
-    A = _rows(X)
+    A = _rows(X, len(posterior.names))
     y = np.asarray(y, dtype=float)
     if np.isfinite(posterior.df):
         df, s2 = posterior.df, posterior.sigma[0] ** 2
@@ -134,7 +135,7 @@ def exact_loo(posterior: MixturePosterior, X: np.ndarray, y: np.ndarray, priors)
         ends = _region_ends(np.log(posterior.sigma))
         edge = terms[:, ends].max(axis=1) > top - 30.0
         for i in np.flatnonzero(edge):
-            point[i] = _loo_by_evidence(posterior.names[1:], X, y, i, priors)
+            point[i] = _loo_by_evidence(posterior.names, X, y, i, priors)
     return _loo(point, lppd, "exact (closed form, no refits)")
 
 
@@ -167,9 +168,10 @@ def _loo_by_evidence(names, X: np.ndarray, y: np.ndarray, i: int, priors) -> flo
     from bayes.data.factor import factor_from_arrays
     from bayes.engine.scaled import scaled_prior
 
+    intercept = len(names) == X.shape[1] + 1
     values = []
     for rows in (np.arange(len(y)), np.delete(np.arange(len(y)), i)):
-        factor = factor_from_arrays(X[rows], y[rows], names)
+        factor = factor_from_arrays(X[rows], y[rows], names[int(intercept) :], intercept=intercept)
         values.append(log_marginal_likelihood(factor, scaled_prior(factor, priors)).log_ml)
     return values[0] - values[1]
 
@@ -202,7 +204,7 @@ def psis_loo(
     chains, draws, _ = beta.shape
     step = max(1, int(np.ceil(chains * draws / max_draws)))
     beta, sigma = beta[:, ::step], sigma[:, ::step]
-    A = _rows(X)
+    A = _rows(X, beta.shape[-1])
     y = np.asarray(y, dtype=float)
     mu = beta @ A.T  # (chains, draws, n)
     ll = stats.norm.logpdf(y, mu, sigma[..., None])

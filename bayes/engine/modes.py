@@ -41,7 +41,7 @@ class ModeResult(ReadOnlyArrays):
 
     Attributes
     ----------
-    gamma : ndarray, shape (p + 1,)
+    gamma : ndarray, shape (k,)
         The mode (scaled units; :func:`bayes.problem.to_natural` for natural units).
     sigma : float
         Noise sd: the known value, or its value at the joint mode (response units).
@@ -291,7 +291,7 @@ def posterior_mode(
         ``0.5 ||lasso target||^2``; outer iterations (unknown noise,
         Student-t reweighting) stop when the relative step in ``gamma`` and
         ``sigma^2`` falls below ``tol ** 0.75``.
-    warm_start : ndarray, shape (p + 1,), optional
+    warm_start : ndarray, shape (k,), optional
         Starting point (for example the mode at a neighbouring prior width).
     max_iter : int
         Limit on coordinate-descent sweeps per lasso and on outer iterations;
@@ -302,7 +302,7 @@ def posterior_mode(
     ModeResult
     """
     check_prior(factor, prior)
-    k = factor.p + 1
+    k = factor.k
     fam = np.array(prior.family)
     lap = np.flatnonzero(fam == "laplace")
     other = np.flatnonzero(fam != "laplace")

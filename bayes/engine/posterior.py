@@ -202,7 +202,7 @@ class DrawsPosterior(Posterior):
 
     @property
     def cov(self) -> np.ndarray:
-        return np.cov(self.flat_draws, rowvar=False)
+        return np.atleast_2d(np.cov(self.flat_draws, rowvar=False))  # (k, k), also for k = 1
 
     def sigma_quantile(self, q: float) -> float:
         if self.noise_known:

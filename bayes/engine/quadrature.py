@@ -166,5 +166,5 @@ def noise_quadrature(factor: DataFactor, prior: ScaledPrior) -> NoiseQuadrature:
     # directions fitted): far out, where the data rows weigh nothing beside the prior's.
     far = rows.solve(1e8 * np.sqrt(max(factor.tss, rss0, 1e-300) / n)).mean
     rss_far = float(np.sum((rows.D @ far - rows.d) ** 2))
-    span = stationary_span(rss0, max(rss_far, rss0), n, factor.p + 1, prior.noise)
+    span = stationary_span(rss0, max(rss_far, rss0), n, factor.k, prior.noise)
     return log_sigma_quadrature(log_density_u, u0, span=span, scan=scan_density)

@@ -35,7 +35,7 @@ def sampled_posterior(
     from bayes.engine.gibbs import sample
     from bayes.engine.modes import MODE_KIND, posterior_mode
 
-    names = ("intercept", *factor.names)
+    names = factor.coefficient_names
     # Thousands of small factorisations per chain: bayes.api.fit_factor, the one caller, runs
     # this on one BLAS thread unless the problem is wide (bayes.threads).
     d = sample(factor, prior, sampler, progress=progress)

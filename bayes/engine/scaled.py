@@ -2,7 +2,8 @@
 
 Gaussian priors, including a correlated (conditional-means) block and a prior
 on the intercept, are written as rows of a root precision over natural-unit
-coefficients ``beta`` and mapped through ``beta = T gamma + y_mean e_0``; the
+coefficients ``beta`` and mapped through ``beta = T gamma + y_mean e_0`` (no shift and no
+intercept coordinate for a model without an intercept); the
 independent Laplace and Student-t priors are rescaled coordinate-wise
 (``theta_j = x_scale_j beta_j``).
 """
@@ -13,7 +14,7 @@ import numpy as np
 from scipy import linalg
 
 from bayes.errors import InputError
-from bayes.problem import DataFactor, NoiseSpec, ScaledPrior, natural_transform
+from bayes.problem import DataFactor, NoiseSpec, ScaledPrior, natural_shift, natural_transform
 
 
 def noise_spec(noise) -> NoiseSpec:
@@ -37,9 +38,17 @@ def scaled_prior(factor: DataFactor, priors) -> ScaledPrior:
     -------
     ScaledPrior
     """
-    names = ("intercept", *factor.names)
+    names = factor.coefficient_names
     k = len(names)
     index = {c: i for i, c in enumerate(names)}
+    given = [cp.column for cp in priors.coefficients]
+    if priors.block is not None:
+        given += list(priors.block.names)
+    if not factor.intercept and "intercept" in given:
+        raise InputError(
+            f"{priors.path or 'priors'}: a prior is given for the intercept, but the model has "
+            "no intercept: drop that entry or keep the intercept"
+        )
     for cp in priors.coefficients:
         if cp.column not in index:
             raise InputError(
@@ -60,11 +69,11 @@ def scaled_prior(factor: DataFactor, priors) -> ScaledPrior:
         if cp.family == "normal":
             rows.append(np.eye(k)[j] / cp.scale)
         else:
-            if j == 0:
+            if factor.intercept and j == 0:
                 raise InputError(
                     f"{priors.path or 'priors'}: the intercept takes a normal or flat prior only"
                 )
-            scale[j] = cp.scale * factor.x_scale[j - 1]
+            scale[j] = cp.scale * factor.x_scale[j - int(factor.intercept)]
             df[j] = cp.df if cp.family == "student_t" else np.nan
     if priors.block is not None:
         block = priors.block
@@ -90,7 +99,5 @@ def scaled_prior(factor: DataFactor, priors) -> ScaledPrior:
     T = natural_transform(factor)
     Wn = np.array(rows).reshape(len(rows), k)
     # gamma0 = T^-1 (center - y_mean e0): the scaled point matching the natural centres.
-    shifted = center.copy()
-    shifted[0] -= factor.y_mean
-    gamma0 = linalg.solve(T, shifted)
+    gamma0 = linalg.solve(T, center - natural_shift(factor))
     return ScaledPrior(tuple(family), gamma0, Wn @ T, scale, df, noise_spec(priors.noise))

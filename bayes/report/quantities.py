@@ -22,7 +22,7 @@ def least_squares(result: FitResult):
     from bayes.engine.exact import exact_posterior
     from bayes.problem import NoiseSpec, ScaledPrior
 
-    k = result.factor.p + 1
+    k = result.factor.k
     flat = ScaledPrior(("flat",) * k, np.zeros(k), np.zeros((0, k)), np.full(k, np.nan),
                        np.full(k, np.nan), NoiseSpec())  # fmt: skip
     try:
@@ -72,13 +72,30 @@ def prior_dist(priors, name: str):
 
 
 def x_sd(result: FitResult) -> np.ndarray:
-    """Predictor standard deviations (divisor n): the factor's column scales."""
-    return np.asarray(result.factor.x_scale, float)
+    """Predictor standard deviations (divisor n): the factor's column scales. A model without
+    an intercept is not centred: from the data rows (nan without them)."""
+    if result.factor.intercept:
+        return np.asarray(result.factor.x_scale, float)
+    if result.data is None:
+        return np.full(result.factor.p, np.nan)
+    return np.asarray(result.data.X, float).std(axis=0)
 
 
 def y_sd(result: FitResult) -> float:
-    """The response's standard deviation (divisor n)."""
-    return math.sqrt(result.factor.tss / result.factor.n)
+    """The response's standard deviation (divisor n); see :func:`x_sd`."""
+    if result.factor.intercept:
+        return math.sqrt(result.factor.tss / result.factor.n)
+    return float(np.std(result.data.y)) if result.data is not None else math.nan
+
+
+def x_means(result: FitResult) -> tuple[np.ndarray, float]:
+    """Predictor and response means; see :func:`x_sd`."""
+    f = result.factor
+    if f.intercept:
+        return np.asarray(f.x_mean, float), float(f.y_mean)
+    if result.data is None:
+        return np.full(f.p, np.nan), math.nan
+    return np.asarray(result.data.X, float).mean(axis=0), float(np.mean(result.data.y))
 
 
 def stated_ranges(cp) -> tuple[tuple[str, float, float], ...]:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from bayes.problem import model_rows
 from bayes.report import wording as W
 from bayes.report.context import Context, coefficient_units
 from bayes.report.document import Block, Figure, Paragraph, Section
@@ -90,7 +91,7 @@ def _residual_blocks(ctx: Context) -> list[Block]:
         return [Paragraph(W.NO_DATA_ROWS)]
     X, y = r.data.X, r.data.y
     beta = r.posterior.mean
-    fitted = beta[0] + X @ beta[1:]
+    fitted = model_rows(X, r.factor.intercept) @ beta
     sigma = r.posterior.sigma_quantile(0.5)
     units = ctx.response_units
     blocks: list[Block] = [Figure("residuals", W.residuals_caption(sigma, units),

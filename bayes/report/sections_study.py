@@ -9,7 +9,7 @@ import numpy as np
 from bayes.report import wording as W
 from bayes.report.context import Context, column_units, number_cell
 from bayes.report.document import Block, Paragraph, Section, Table
-from bayes.report.quantities import collinearity, x_sd, y_sd
+from bayes.report.quantities import collinearity, x_means, x_sd, y_sd
 from bayes.results.format import fmt
 from bayes.results.notes import CONDITION_WARNING
 
@@ -30,7 +30,7 @@ def study_section(ctx: Context) -> Section:
         ("data file", prov.get("data", W.NOT_RECORDED)),
         ("data SHA-256", prov.get("data_sha256", W.NOT_RECORDED)),
         ("observations used (n)", str(r.factor.n)),
-        ("predictors (p)", f"{r.factor.p} plus the intercept"),
+        ("predictors (p)", W.predictor_count(r.factor.p, r.factor.intercept)),
         ("rows dropped for missing values", str(prov.get("dropped", 0))),
         ("date of the fit", prov.get("date", W.NOT_RECORDED)),
         ("command line", prov.get("command", W.NOT_RECORDED)),
@@ -57,11 +57,12 @@ def data_section(ctx: Context) -> Section:
     X = r.data.X if r.data is not None else None
     y = r.data.y if r.data is not None else None
     rows = []
+    x_mean, y_mean = x_means(r)
     for j, name in enumerate(names):
         column = X[:, j] if X is not None else None
-        rows.append((name, column_units(ctx, name), number_cell(f.x_mean[j]), number_cell(sd[j]),
+        rows.append((name, column_units(ctx, name), number_cell(x_mean[j]), number_cell(sd[j]),
                      *_range_cells(column), fmt(vif[j], 3)))  # fmt: skip
-    rows.append((f"{r.response} (response)", ctx.response_units, number_cell(f.y_mean),
+    rows.append((f"{r.response} (response)", ctx.response_units, number_cell(y_mean),
                  number_cell(y_sd(r)), *_range_cells(y), ""))  # fmt: skip
     blocks: list[Block] = [
         Paragraph(W.data_intro(f.n, r.response, ctx.response_units, f.p, X is not None)),

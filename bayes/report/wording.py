@@ -36,6 +36,11 @@ def goal(response: str) -> str:
     )
 
 
+def predictor_count(p: int, intercept: bool) -> str:
+    """The study table's count of predictors."""
+    return f"{p} plus the intercept" if intercept else f"{p}, and no intercept"
+
+
 def seed_text(seed, method: str) -> str:
     if method == "exact":
         return "not used (exact computation)"

@@ -13,6 +13,8 @@ import warnings
 
 import numpy as np
 
+from bayes.problem import model_rows
+
 CHAINS = 4  # chains an exact fit's iid draws are split into (for arviz's diagnostics)
 
 
@@ -66,7 +68,7 @@ def to_inference_data(result, *, n: int = 4000, seed: int = 0):
     coords = {"coefficient": names}
     data = result.data
     if data is not None:
-        X = np.column_stack([np.ones(data.n), np.asarray(data.X)])
+        X = model_rows(data.X, result.factor.intercept)
         mu = beta @ X.T  # (chain, draw, observation)
         y = np.asarray(data.y)
         resid = (y - mu) / sigma[..., None]

@@ -7,6 +7,7 @@ import pandas as pd
 
 from bayes.data.design import predictor_matrix
 from bayes.errors import InputError
+from bayes.problem import model_rows
 from bayes.results.result import FitResult
 
 
@@ -52,7 +53,8 @@ def design_intervals(posterior, X: np.ndarray, level: float = 0.95) -> pd.DataFr
     ----------
     posterior : bayes.engine.posterior.Posterior
     X : ndarray, shape (m, p)
-        Design columns in natural units, without the intercept.
+        Design columns in natural units, without the intercept (whether the model has
+        one is read from the posterior's coefficients).
     level : float
         Level of both intervals.
 
@@ -63,8 +65,8 @@ def design_intervals(posterior, X: np.ndarray, level: float = 0.95) -> pd.DataFr
         :func:`predict`), one row per row of ``X``.
     """
     out = []
-    for x in X:
-        a = np.concatenate([[1.0], x])
+    X = np.asarray(X, dtype=float)
+    for a in model_rows(X, len(posterior.names) == X.shape[1] + 1):
         mean_dist = posterior.marginal(a)
         pred_dist = posterior.marginal(a, noise=True)
         lo, hi = mean_dist.interval(level)

@@ -227,6 +227,7 @@ class FitResult:
         return {
             "n": self.factor.n,
             "p": self.factor.p,
+            "intercept": self.factor.intercept,
             "level": self.level,
             "method": post.method,
             "detail": post.detail,
@@ -266,7 +267,8 @@ class FitResult:
             "",
             format_table(headers, body),
             "",
-            f"n = {d['n']}, p = {d['p']} predictors + intercept, residual sd = "
+            f"n = {d['n']}, p = {d['p']} predictors"
+            f"{' + intercept' if self.factor.intercept else ', no intercept'}, residual sd = "
             f"{fmt(d['residual_sd'], 4)}, R^2 = {d['r_squared']:.4f}, "
             f"condition number (scaled design) = {fmt(d['condition_number'], 4)}",
         ]

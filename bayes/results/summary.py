@@ -27,9 +27,11 @@ def prior_sd(cp) -> float:
 def fitted_rss(factor: DataFactor, beta: np.ndarray) -> float:
     """Residual sum of squares of the natural-unit coefficients ``beta`` on the data factor."""
     p = factor.p
-    theta = beta[1:] * factor.x_scale
-    alpha = beta[0] - factor.y_mean + float(np.dot(factor.x_mean, beta[1:]))
-    r = factor.R[:, :p] @ theta - factor.R[:, p]
+    slopes = np.asarray(beta)[factor.slopes]
+    r = factor.R[:, :p] @ (slopes * factor.x_scale) - factor.R[:, p]
+    if not factor.intercept:
+        return float(r @ r)
+    alpha = beta[0] - factor.y_mean + float(np.dot(factor.x_mean, slopes))
     return float(factor.n * alpha**2 + r @ r)
 
 
@@ -87,7 +89,7 @@ def penalty_rows(priors, noise_sd: float, noise_basis: str) -> list[dict]:
 
 def diagnostics(factor: DataFactor, posterior: Posterior) -> dict:
     """n, p, rss and residual sd at the posterior mean, R^2, condition number, noise sd."""
-    k = factor.p + 1
+    k = factor.k
     rss = fitted_rss(factor, posterior.mean)
     dof = factor.n - k
     return {

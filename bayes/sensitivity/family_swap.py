@@ -29,7 +29,7 @@ def family_swap(
     """
     if not any(c.family in FAMILIES for c in priors.coefficients):
         return None
-    names = ("intercept", *factor.names)
+    names = factor.coefficient_names
     a = (1 - level) / 2
     per = {}
     for fam in FAMILIES:

@@ -69,7 +69,7 @@ class WeightedDraws:
         from bayes.engine.gibbs import sample
 
         out = sample(factor, prior, sampler)
-        nat = to_natural(factor, out.gamma.reshape(-1, factor.p + 1))
+        nat = to_natural(factor, out.gamma.reshape(-1, factor.k))
         return cls(nat, np.full(len(nat), 1.0 / len(nat)))
 
     @property
@@ -156,7 +156,7 @@ class SampledEngine:
 
         self.factor, self.priors, self.columns, self.expert = factor, priors, columns, expert
         self._priors_at: dict[float, ScaledPrior] = {}
-        k = factor.p + 1
+        k = factor.k
         i1 = int(np.flatnonzero(grid == 1.0)[0])
         modes = np.full((len(grid) + 1, k), np.nan)
         for side in (range(i1, -1, -1), range(i1, len(grid))):
@@ -237,5 +237,5 @@ class SampledEngine:
         gamma, sigma, nat, lp = self.runs[1.0]
         n = self.factor.n
         log_lik = -n * np.log(sigma) - residual_ss(self.factor, gamma) / (2 * sigma**2)
-        names = ("intercept", *self.factor.names)
+        names = self.factor.coefficient_names
         return conflict, power_scaling_draws(names, nat, lp, log_lik)

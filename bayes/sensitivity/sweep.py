@@ -117,7 +117,7 @@ def sweep(
     for name, value in (("level", level), ("conclusion_level", conclusion_level)):
         if not 0.0 < value < 1.0:
             raise InputError(f"{name} must lie strictly between 0 and 1, got {value}")
-    names = ("intercept", *factor.names)
+    names = factor.coefficient_names
     columns = None if columns is None or len(columns) == 0 else list(columns)
     swept, selection = widened(priors, names, columns=columns, expert=expert)
     thresholds = thresholds_for(thresholds, names)
@@ -184,5 +184,5 @@ def sweep_design(design, priors, **options) -> SweepResult:
     **options
         Passed to :func:`sweep`.
     """
-    factor = factor_from_arrays(design.X, design.y, design.names)
+    factor = factor_from_arrays(design.X, design.y, design.names, intercept=design.intercept)
     return sweep(factor, priors, design.response, **options)
