@@ -55,6 +55,11 @@ def scaled_prior(factor: DataFactor, priors) -> ScaledPrior:
         j = index[cp.column]
         if cp.family == "flat":
             continue
+        if cp.family == "mixture":  # fitted by bayes.engine.mixture_fit, through bayes.fit only
+            raise InputError(
+                f"{priors.path or 'priors'}: '{cp.column}' has a mixture prior: this step does "
+                "not support mixtures yet (bayes fit does)"
+            )
         family[j] = cp.family
         center[j] = cp.center
         if cp.family == "normal":
