@@ -136,8 +136,9 @@ def fit_factor(
         )
     with blas_threads(factor.p + 1):
         if mixed:
-            posterior, inference = mixture_posterior(factor, priors, method=method,
-                                                     sampler=sampler, progress=progress)  # fmt: skip
+            posterior, inference = mixture_posterior(
+                factor, priors, method=method, sampler=sampler, progress=progress
+            )
         elif method == "exact":
             posterior, inference = exact_posterior(factor, scaled), None
         else:
