@@ -57,8 +57,8 @@ def scaled_prior(factor: DataFactor, priors) -> ScaledPrior:
             continue
         if cp.family == "mixture":  # fitted by bayes.engine.mixture_fit, through bayes.fit only
             raise InputError(
-                f"{priors.path or 'priors'}: '{cp.column}' has a mixture prior: this step does "
-                "not support mixtures yet (bayes fit does)"
+                f"{priors.path or 'priors'}: '{cp.column}' has a mixture prior: sweeps and "
+                "comparisons do not support mixture priors yet (bayes fit and report do)"
             )
         family[j] = cp.family
         center[j] = cp.center
