@@ -21,7 +21,7 @@ import numpy as np
 
 from bayes.engine.evidence import log_marginal_likelihood
 from bayes.engine.exact import exact_posterior
-from bayes.engine.mixture_mode import mixture_mode
+from bayes.engine.mixture_mode import LogJoint, mixture_mode
 from bayes.engine.mixture_prior import (
     EXACT_COMBINATIONS,
     all_normal,
@@ -129,7 +129,7 @@ def exact_mixture_posterior(factor: DataFactor, priors) -> MixturePosterior:
     for c in np.argsort(-W):
         gamma = T_inv @ (posts[c].mode - factor.y_mean * np.eye(factor.p + 1)[0])
         starts.append(gamma if known else np.append(gamma, np.log(posts[c].sigma_mode)))
-    mode, sigma_mode = mixture_mode(factor, base, coordinates, np.array(starts))
+    mode, sigma_mode = mixture_mode(LogJoint(factor, base, coordinates), np.array(starts))
     combos = combination_count(priors)
     nodes = "" if known else ", each with its noise sd integrated out by quadrature"
     return MixturePosterior(

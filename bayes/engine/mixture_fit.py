@@ -15,7 +15,7 @@ from collections.abc import Callable
 import numpy as np
 
 from bayes.engine.mixture_exact import check_exact, exact_applies, exact_mixture_posterior
-from bayes.engine.mixture_mode import log_joint, mixture_mode
+from bayes.engine.mixture_mode import LogJoint, mixture_mode
 from bayes.engine.mixture_prior import base_priors, mixed_coordinates
 from bayes.engine.modes import MODE_KIND
 from bayes.engine.posterior import DrawsPosterior, Posterior
@@ -47,9 +47,10 @@ def sampled_mixture_posterior(
     known = base.noise.known
     gamma = d.gamma.reshape(-1, factor.p + 1)
     log_sigma = None if known else np.log(d.sigma.reshape(-1))
-    order = np.argsort(-log_joint(factor, base, coordinates, gamma, log_sigma))
+    log_joint = LogJoint(factor, base, coordinates)
+    order = np.argsort(-log_joint(gamma, log_sigma))
     starts = gamma[order] if known else np.column_stack([gamma, log_sigma])[order]
-    mode, sigma_mode = mixture_mode(factor, base, coordinates, starts)
+    mode, sigma_mode = mixture_mode(log_joint, starts)
     names = ("intercept", *factor.names)
     nat = to_natural(factor, d.gamma)
     post = DrawsPosterior(
