@@ -12,7 +12,7 @@ import numpy as np
 from scipy import optimize
 
 from bayes.engine.likelihood import data_rows
-from bayes.engine.mixture_prior import MixedCoordinate, log_mixed_prior
+from bayes.engine.mixture_prior import log_mixed_prior
 from bayes.problem import DataFactor, ScaledPrior
 
 MAX_STARTS = 4  # local searches from the most promising starts
@@ -114,8 +114,8 @@ def mixture_mode(log_joint: LogJoint, starts: np.ndarray) -> tuple[np.ndarray, f
 
     best, best_value = None, np.inf
     for x0 in np.asarray(starts, dtype=float)[:MAX_STARTS]:
-        found = optimize.minimize(minus, x0, jac=True, method="L-BFGS-B",
-                                  options={"ftol": 1e-15, "gtol": 1e-10, "maxiter": 5000})  # fmt: skip
+        options = {"ftol": 1e-15, "gtol": 1e-10, "maxiter": 5000}
+        found = optimize.minimize(minus, x0, jac=True, method="L-BFGS-B", options=options)
         if kinks:
             found = optimize.minimize(lambda x: minus(x)[0], found.x, method="Powell",
                                       options={"xtol": 1e-9, "ftol": 1e-13})  # fmt: skip
