@@ -171,10 +171,10 @@ def _parse_coefficients(
         group = groups.setdefault(
             column, {"name": name, "level": level, "statements": [], "readers": [], "record": None}
         )
-        if group["record"] is not None or (r.has("statement") and group["readers"]):
+        if group["record"] is not None or (group["readers"] and r.has("statement") | is_mixture(r)):
             raise r.error("name", f"{column} has a pooled entry, which must be its only entry")
         group["readers"].append(r)
-        if r.has("statement") or r.has("component"):
+        if r.has("statement") or is_mixture(r) or r.has("component"):
             group["record"] = _parse_record(r, name, level)
         else:
             for key in ("pool", "pool_misfit"):
