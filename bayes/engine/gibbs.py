@@ -256,13 +256,13 @@ def _run_chain(model: _Model, rng, draws: int, warmup: int, tick: Callable[[int]
         s2 = noise.sd**2
     else:  # dispersed around the variance of the response
         s2 = max(f.tss, np.finfo(float).tiny) / max(f.n - 1, 1) * np.exp(rng.standard_normal())
-    state = _initial_mixing(model, rng)
+    prec = _initial_mixing(model, rng)
     shape = noise.shape + f.n / 2
     for it in range(warmup + draws):
-        gamma = draw_gamma(model, rng, np.sqrt(s2), state)
+        gamma = draw_gamma(model, rng, np.sqrt(s2), prec)
         if not noise.known:
             s2 = (noise.scale + float(residual_ss(f, gamma)) / 2) / rng.gamma(shape)
-        state = _draw_mixing(model, rng, gamma)
+        prec = _draw_mixing(model, rng, gamma)
         if it >= warmup:
             gamma_out[it - warmup] = gamma
             sigma_out[it - warmup] = np.sqrt(s2)
