@@ -14,6 +14,8 @@ from bayes.data.design import Design, build_design
 from bayes.data.factor import factor_from_arrays
 from bayes.data.formula import formula_response
 from bayes.engine.exact import exact_posterior
+from bayes.engine.mixture_fit import mixture_posterior
+from bayes.engine.mixture_prior import has_mixture
 from bayes.engine.scaled import scaled_prior
 from bayes.errors import InputError
 from bayes.problem import DataFactor
@@ -129,10 +131,11 @@ def fit_factor(
     if method not in METHODS:
         raise InputError(f"method must be one of {', '.join(METHODS)}, got {method!r}")
     priors = load_priors(priors)
-    scaled = scaled_prior(factor, priors)
-    if method == "auto":
+    mixed = has_mixture(priors)  # the experts' mixture kept as a prior: its own engines
+    scaled = None if mixed else scaled_prior(factor, priors)
+    if method == "auto" and not mixed:
         method = "exact" if scaled.gaussian_only else "sample"
-    if method == "exact" and not scaled.gaussian_only:
+    if method == "exact" and not mixed and not scaled.gaussian_only:
         bad = [c for c, f in zip(factor.coefficient_names, scaled.family, strict=True)
                if f not in ("flat", "normal")]  # fmt: skip
         raise InputError(
@@ -140,7 +143,11 @@ def fit_factor(
             "use method='sample'"
         )
     with blas_threads(factor.k):
-        if method == "exact":
+        if mixed:
+            posterior, inference = mixture_posterior(
+                factor, priors, method=method, sampler=sampler, progress=progress
+            )
+        elif method == "exact":
             posterior, inference = exact_posterior(factor, scaled), None
         else:
             from bayes.engine.sampled import sampled_posterior

@@ -111,8 +111,9 @@ def show(priors: str, noise_sd: float | None, data: str | None, response: str | 
 @click.argument("priors", type=click.Path(dir_okay=False))
 @click.option("--out", required=True, type=click.Path(dir_okay=False), help="Pooled prior file.")
 @click.option("--method", type=click.Choice(["linear", "log"]), help="Overrides [pool] method.")
-@click.option("--family", type=click.Choice(["normal", "laplace", "student_t"]),
-              help="Family of pooled priors (overrides [pool] family).")  # fmt: skip
+@click.option("--family", type=click.Choice(["normal", "laplace", "student_t", "mixture"]),
+              help="Family of pooled priors (overrides [pool] family); mixture keeps the "
+                   "experts' distributions as a mixture.")  # fmt: skip
 @click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text")
 def pool(priors: str, out: str, method: str | None, family: str | None, fmt: str):
     """Pool several experts' entries per coefficient; keep their statements in OUT."""
@@ -138,6 +139,7 @@ def pool(priors: str, out: str, method: str | None, family: str | None, fmt: str
             "pool": c.pool,
             "pool_misfit": c.pool_misfit,
             "statements": len(c.statements),
+            "components": [vars(p) for p in c.components] or None,
         }
         for c in prior_set.coefficients
     ]
@@ -145,7 +147,12 @@ def pool(priors: str, out: str, method: str | None, family: str | None, fmt: str
         click.echo(json.dumps({"out": out, "coefficients": rows}, allow_nan=False))
         return
     for r in rows:
-        if r["pool"]:
+        if r["components"]:
+            click.echo(
+                f"{r['name']}: {r['statements']} statements kept as a mixture of "
+                f"{len(r['components'])} components (mean {r['center']:.4g}, sd {r['scale']:.4g})"
+            )
+        elif r["pool"]:
             click.echo(
                 f"{r['name']}: {r['statements']} statements, {r['pool']} pool -> {r['family']}"
                 f"(center={r['center']:.4g}, scale={r['scale']:.4g}), largest cdf difference "

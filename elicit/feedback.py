@@ -96,7 +96,8 @@ def stated_range(c: CoefficientPrior) -> tuple[float, float, float, bool]:
             ranges.append((v_lo / s.per, v_hi / s.per, round(p_hi - p_lo, 12)))
     if ranges and len(ranges) == len(c.statements) and len({m for *_, m in ranges}) == 1:
         return min(r[0] for r in ranges), max(r[1] for r in ranges), ranges[0][2], True
-    low, high = convert.central_range(c.family, c.center, c.scale, 0.9, df=c.df)
+    mixed = c.dist().interval(0.9) if c.components else None  # a mixture: its own quantiles
+    low, high = mixed or convert.central_range(c.family, c.center, c.scale, 0.9, df=c.df)
     return low, high, 0.9, False
 
 

@@ -100,6 +100,19 @@ def _match(family: str, df: float | None, grid: np.ndarray, cdf: np.ndarray, qua
     return PoolResult(fit.center, fit.scale, misfit)
 
 
+def linear_misfit(
+    opinions: Sequence[Opinion], family: str, center: float, scale: float, *, df=None
+) -> float:
+    """Worst cdf error ``sup_x |F_fitted(x) - F_pool(x)|`` of a prior fitted to a linear pool.
+
+    The supremum is taken on the pool's grid of 4001 points (as :func:`linear_pool` does);
+    used when a pooled entry was written without its ``pool_misfit``.
+    """
+    grid = _grid(opinions)
+    fitted = distribution(family, center, scale, df=df).cdf(grid)
+    return float(np.max(np.abs(mixture_cdf(opinions, grid) - fitted)))
+
+
 def linear_pool(opinions: Sequence[Opinion], family: str, *, df: float | None = None) -> PoolResult:
     """Linear opinion pool (weighted mixture) matched to ``family`` by quantiles.
 

@@ -18,7 +18,8 @@ any other key is an error.
 ``[pool]`` (how several entries for one coefficient are combined, see :mod:`elicit.pool`)
     ``method = "linear" | "log"`` (default ``"linear"``); ``family`` and ``df`` of pooled
     priors (default: the family the entries share; required when they differ). A column with
-    a single entry keeps its own family.
+    a single entry keeps its own family. ``family = "mixture"`` keeps the linear pool as the
+    experts' mixture (normal or Laplace entries; see :mod:`elicit.validate_mixture`).
 ``[[coefficient]]`` (one per statement; several for one column are pooled)
     ``name`` (required: column name, or ``"intercept"``); ``level`` (a categorical level: the
     prior is on its difference from the reference level, column ``name[level]``);
@@ -38,7 +39,9 @@ any other key is an error.
     (and ``df``) with ``pool = "linear" | "log"`` and ``pool_misfit``, followed by the original
     statements as ``[[coefficient.statement]]`` tables (same keys as a plain entry, without
     ``name`` and ``level``); its values are taken as written and it must be the only entry for
-    its column.
+    its column. Without ``pool_misfit`` (files written before it was recorded) the misfit of a
+    linear pool is recomputed from the statements. A mixture entry has ``family = "mixture"``
+    and ``[[coefficient.component]]`` tables (``weight``, ``family``, ``center``, ``scale``).
 ``[correlation]`` (a conditional-means prior: correlated Gaussian, see :mod:`elicit.conditional`)
     ``names`` (coefficient columns, may include ``"intercept"``; none may also have a
     ``[[coefficient]]`` entry); ``mean`` (k numbers) and ``cov`` (k x k, positive definite),

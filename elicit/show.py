@@ -49,12 +49,20 @@ def format_coefficient(c: CoefficientFeedback, *, noise_sd: float | None = None)
     if c.family == "flat":
         return [f"{c.name}: flat prior (the data alone decide)"]
     df = f", df={c.df:g}" if c.df is not None else ""
-    name = {"normal": "sd", "laplace": "b", "student_t": "scale"}[c.family]
-    lines = [f"{c.name}: {c.family}(center={_g(c.center)}, {name}={_g(c.scale)}{df})"]
+    if c.family == "mixture":
+        lines = [
+            f"{c.name}: mixture of the experts' priors (mean={_g(c.center)}, sd={_g(c.scale)})"
+        ]
+    else:
+        name = {"normal": "sd", "laplace": "b", "student_t": "scale"}[c.family]
+        lines = [f"{c.name}: {c.family}(center={_g(c.center)}, {name}={_g(c.scale)}{df})"]
     if c.experts:
         lines[0] += f"  [{', '.join(c.experts)}]"
-    if c.pool:
-        lines.append(f"  pooled ({c.pool}); largest cdf difference of the fit {c.pool_misfit:.3g}")
+    if c.family == "mixture":
+        lines.append("  pooled (linear) and kept as the mixture: no fit to a family")
+    elif c.pool:
+        misfit = "not recorded" if c.pool_misfit is None else f"{c.pool_misfit:.3g}"
+        lines.append(f"  pooled ({c.pool}); largest cdf difference of the fit {misfit}")
     lines.append(
         "  quantiles  " + "  ".join(f"{float(k):.0%}: {_g(v)}" for k, v in c.quantiles.items())
     )

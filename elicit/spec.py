@@ -16,9 +16,12 @@ from dataclasses import dataclass, field, replace
 from elicit import convert
 from elicit.conditional import CorrelatedBlock
 from elicit.errors import InputError, PriorFileError
-from elicit.pool import DEFAULT_METHOD, pool
+from elicit.pool import DEFAULT_METHOD, linear_misfit, pool
+from elicit.pool_mixture import MIXTURE, Component, MixtureDistribution, from_opinions, moments
+from elicit.pool_mixture import widened as widened_components
 
 FAMILIES = ("normal", "laplace", "student_t", "flat")
+POOL_FAMILIES = (*FAMILIES, MIXTURE)  # a pool may also be kept as the experts' mixture
 INTERCEPT = "intercept"
 
 
@@ -80,11 +83,11 @@ class CoefficientPrior:
     level : str or None
         Categorical level (difference from the reference level).
     family : str
-        One of FAMILIES.
+        One of FAMILIES, or "mixture" (the experts' linear pool kept as it is).
     center : float
-        Response units per one unit of predictor (0 for flat).
+        Response units per one unit of predictor (0 for flat; the mean of a mixture).
     scale : float
-        Normal sd, Laplace b, Student-t scale (nan for flat).
+        Normal sd, Laplace b, Student-t scale (nan for flat; the sd of a mixture).
     df : float or None
         Student-t degrees of freedom.
     statements : tuple of Statement
@@ -92,7 +95,11 @@ class CoefficientPrior:
     pool : str or None
         "linear" or "log" when pooled from several statements.
     pool_misfit : float or None
-        Loss of fit of the pooled prior to its family (see :mod:`elicit.pool`).
+        Loss of fit of the pooled prior to its family (see :mod:`elicit.pool`): the worst cdf
+        error ``sup_x |F_fitted(x) - F_pool(x)|`` (None when not recorded; see
+        :attr:`pool_error`).
+    components : tuple of elicit.pool_mixture.Component
+        The mixture's components (family "mixture" only).
     """
 
     name: str
@@ -104,6 +111,7 @@ class CoefficientPrior:
     statements: tuple[Statement, ...] = ()
     pool: str | None = None
     pool_misfit: float | None = None
+    components: tuple[Component, ...] = ()
 
     @property
     def column(self) -> str:
@@ -113,13 +121,48 @@ class CoefficientPrior:
     @property
     def sd(self) -> float:
         """Prior standard deviation (inf for flat and for Student-t with df <= 2)."""
+        if self.family == MIXTURE:
+            return self.scale
         return _sd(self.family, self.scale, self.df)
 
+    @property
+    def pool_error(self) -> float | None:
+        """Worst cdf error of a prior fitted to the experts' linear pool (None: not one).
+
+        The recorded ``pool_misfit``, or, for an entry written without it, recomputed from
+        its statements (:func:`elicit.pool.linear_misfit`).
+        """
+        if self.pool != "linear" or self.family in ("flat", MIXTURE):
+            return None
+        if self.pool_misfit is not None:
+            return self.pool_misfit
+        if not self.statements or any(s.family == "flat" for s in self.statements):
+            return None
+        return linear_misfit(self.statements, self.family, self.center, self.scale, df=self.df)
+
     def dist(self):
-        """Frozen scipy.stats distribution of the prior (None for flat)."""
+        """Frozen scipy.stats distribution of the prior (None for flat).
+
+        A mixture gives a :class:`elicit.pool_mixture.MixtureDistribution` (same methods).
+        """
         if self.family == "flat":
             return None
+        if self.family == MIXTURE:
+            return MixtureDistribution(self.components)
         return convert.distribution(self.family, self.center, self.scale, df=self.df)
+
+    @classmethod
+    def mixture(
+        cls,
+        name: str,
+        level: str | None,
+        parts: tuple[Component, ...],
+        statements: tuple[Statement, ...] = (),
+        pool: str | None = "linear",
+    ) -> CoefficientPrior:
+        """A mixture prior of ``parts`` (its center and scale are the mixture's mean and sd)."""
+        center, scale = moments(parts)
+        return cls(name, level, MIXTURE, center, scale, None, statements, pool, None, parts)
 
     @classmethod
     def from_statements(
@@ -142,6 +185,9 @@ class CoefficientPrior:
             return cls(name, level, s.family, s.center, s.scale, s.df, statements)
         if family == "flat":
             return cls(name, level, "flat", 0.0, math.nan, None, statements)
+        if family == MIXTURE:  # the linear pool kept as it is
+            parts = from_opinions(statements, method=method, column=name)
+            return cls.mixture(name, level, parts, statements)
         method = method or DEFAULT_METHOD
         result = pool(statements, method=method, family=family, df=df)
         return cls(
@@ -149,9 +195,15 @@ class CoefficientPrior:
         )
 
     def rescaled(self, factor: float) -> CoefficientPrior:
-        """The same prior with its scale multiplied by ``factor`` (> 0); flat stays flat."""
+        """The same prior with its scale multiplied by ``factor`` (> 0); flat stays flat.
+
+        A mixture widens each component about its own centre.
+        """
         if self.family == "flat":
             return self
+        if self.family == MIXTURE:
+            parts = widened_components(self.components, factor)
+            return replace(self, scale=moments(parts)[1], components=parts)
         return replace(self, scale=self.scale * factor)
 
     def as_family(self, family: str, *, df: float | None = None) -> CoefficientPrior:
@@ -160,13 +212,19 @@ class CoefficientPrior:
         The prior's central interval at the stated mass (0.9 when the statements do not share
         one) is kept and re-read as ``family`` (Student-t: ``df``, default 5). The statements
         stay as they are: they are the record of what was said. A flat prior stays flat; to
-        "flat", the parameters are dropped.
+        "flat", the parameters are dropped. A mixture is matched to ``family`` as its linear
+        pool is (:func:`elicit.pool.linear_pool`).
         """
         new_df = (df if df is not None else convert.DEFAULT_DF) if family == "student_t" else None
         if self.family == "flat" or (family, new_df) == (self.family, self.df):
             return self
         if family == "flat":
-            return replace(self, family="flat", center=0.0, scale=math.nan, df=None)
+            return replace(self, family="flat", center=0.0, scale=math.nan, df=None, components=())
+        if self.family == MIXTURE:
+            result = pool(self.components, method="linear", family=family, df=new_df)
+            return replace(self, family=family, center=result.center, scale=result.scale,
+                           df=new_df, pool="linear", pool_misfit=result.misfit,
+                           components=())  # fmt: skip
         masses = {s.mass for s in self.statements if s.mass is not None}
         mass = masses.pop() if len(masses) == 1 else 0.9
         low, high = convert.central_range(self.family, self.center, self.scale, mass, df=self.df)

@@ -22,20 +22,21 @@ from elicit.errors import ElicitationWarning, PriorFileError
 from elicit.fields import FieldReader
 from elicit.pool import DEFAULT_METHOD, METHODS
 from elicit.spec import (
-    FAMILIES,
     INTERCEPT,
+    POOL_FAMILIES,
     CoefficientPrior,
     NoisePrior,
     PriorSet,
     ReferenceRow,
     Statement,
 )
+from elicit.validate_mixture import is_mixture, mixture_record
 
 _STATEMENT_KEYS = frozenset(
     {"family", "low", "high", "mass", "per", "quantiles", "center", "scale", "df"}
     | {"expert", "rationale", "weight"}
 )
-_ENTRY_KEYS = _STATEMENT_KEYS | {"name", "level", "pool", "pool_misfit", "statement"}
+_ENTRY_KEYS = _STATEMENT_KEYS | {"name", "level", "pool", "pool_misfit", "statement", "component"}
 _TOP_KEYS = frozenset(
     {"study", "units", "noise", "pool", "coefficient", "correlation", "reference_row"}
 )
@@ -88,11 +89,8 @@ def _parse_statement(r: FieldReader) -> Statement:
         except ValueError as exc:
             raise r.error("quantiles", str(exc)) from None
         if fit.warning:
-            warnings.warn(
-                f"{r.source}: {r.where}: field 'quantiles': {fit.warning}",
-                ElicitationWarning,
-                stacklevel=2,
-            )
+            warnings.warn(f"{r.source}: {r.where}: field 'quantiles': {fit.warning}",
+                          ElicitationWarning, stacklevel=2)  # fmt: skip
         center, scale = fit.center, fit.scale
     elif mode == "center":
         if per is not None:
@@ -160,7 +158,7 @@ def _parse_coefficients(
         if method not in METHODS:
             raise pool_table.error("method", f"must be one of {', '.join(METHODS)}, got {method!r}")
         pool_family = pool_table.text("family")
-        if pool_family is not None and pool_family not in FAMILIES:
+        if pool_family is not None and pool_family not in POOL_FAMILIES:
             raise pool_table.error("family", f"unknown family {pool_family!r}")
         pool_df = pool_table.number("df", positive=True)
 
@@ -173,10 +171,10 @@ def _parse_coefficients(
         group = groups.setdefault(
             column, {"name": name, "level": level, "statements": [], "readers": [], "record": None}
         )
-        if group["record"] is not None or (r.has("statement") and group["readers"]):
+        if group["record"] is not None or (group["readers"] and r.has("statement") | is_mixture(r)):
             raise r.error("name", f"{column} has a pooled entry, which must be its only entry")
         group["readers"].append(r)
-        if r.has("statement"):
+        if r.has("statement") or is_mixture(r) or r.has("component"):
             group["record"] = _parse_record(r, name, level)
         else:
             for key in ("pool", "pool_misfit"):
@@ -213,6 +211,8 @@ def _parse_coefficients(
 
 
 def _parse_record(r: FieldReader, name: str, level: str | None) -> CoefficientPrior:
+    if is_mixture(r) or r.has("component"):
+        return mixture_record(r, name, level, _parse_statement, _STATEMENT_KEYS)
     for key in ("low", "high", "mass", "quantiles", "per", "expert", "rationale", "weight"):
         if r.has(key):
             raise r.error(key, "a pooled entry holds center/scale; statements go in its tables")

@@ -3,7 +3,8 @@
 What :func:`write_prior_file` writes, :func:`elicit.read.read_prior_file` reads back to an equal
 PriorSet (floats are written with ``repr``, which round-trips exactly). A column with one
 statement is written as the statement itself; a pooled (or otherwise changed) column is written
-as a pooled entry with its statements in ``[[coefficient.statement]]`` tables.
+as a pooled entry with its statements in ``[[coefficient.statement]]`` tables; a mixture as its
+``[[coefficient.component]]`` tables and its statements (:mod:`elicit.validate_mixture`).
 """
 
 from __future__ import annotations
@@ -106,6 +107,15 @@ def coefficient_doc(c: CoefficientPrior) -> dict[str, Any]:
     ):
         return head | _statement_doc(only)
     head["family"] = c.family
+    if c.components:  # a mixture: its components hold the parameters
+        head["pool"] = c.pool or "linear"
+        head["component"] = [
+            {"weight": p.weight, "family": p.family, "center": p.center, "scale": p.scale}
+            for p in c.components
+        ]
+        if c.statements:
+            head["statement"] = [_statement_doc(s) for s in c.statements]
+        return head
     if c.family != "flat":
         head.update(center=c.center, scale=c.scale)
     if c.df is not None:

@@ -15,6 +15,9 @@ Casella (2008) the coefficients' scale mixture is independent of sigma:
   d = gamma_j - c, ``1 / tau^2 ~ InverseGaussian(mean 1 / (b |d|), shape 1 / b^2)``.
 * Student-t(df, c, s) = N(c, tau^2) mixed over tau^2 ~ InvGamma(df / 2,
   df s^2 / 2); given d, ``tau^2 ~ InvGamma((df + 1) / 2, (df s^2 + d^2) / 2)``.
+* A mixture prior takes its component label as a latent variable
+  (:mod:`bayes.engine.labels`): given the label, the coefficient's prior is that
+  normal or Laplace component; given gamma, the label is categorical.
 * Given the mixing variances and sigma^2 the coefficients are jointly Gaussian
   and are drawn in one block; given the coefficients
   ``sigma^2 ~ InvGamma(shape + n / 2, scale + RSS(gamma) / 2)``.
@@ -37,7 +40,9 @@ import numpy as np
 from scipy import linalg
 
 from bayes.arrays import ReadOnlyArrays
+from bayes.engine.labels import PriorState, mixed_prior_draws, mixed_rows
 from bayes.engine.likelihood import check_prior, data_rows, residual_ss
+from bayes.engine.mixture_prior import MixedCoordinate, proper_stand_in
 from bayes.problem import DataFactor, ScaledPrior
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
 
@@ -101,7 +106,8 @@ class _Model(ReadOnlyArrays):
     loc: np.ndarray  # (k,) prior centres (0 where flat)
     lap: np.ndarray  # indices of Laplace coordinates
     stu: np.ndarray  # indices of Student-t coordinates
-    mix: np.ndarray  # lap then stu
+    mixed: tuple[MixedCoordinate, ...]  # coordinates with a mixture prior (flat in ``prior``)
+    mix: np.ndarray  # lap, stu, then the mixed coordinates: one diagonal row each
     route: str  # "fixed", "stacked" or "bcm"
     template: np.ndarray  # stacked rows [A, b; P, P mu; mixing rows], (rows, k + 1)
     n_data: int  # number of data rows at the top of the template
@@ -109,13 +115,13 @@ class _Model(ReadOnlyArrays):
     lwork: int  # LAPACK workspace for the QR of the template
 
 
-def _model(factor: DataFactor, prior: ScaledPrior) -> _Model:
-    check_prior(factor, prior)
+def _model(factor: DataFactor, prior: ScaledPrior, mixed: tuple = ()) -> _Model:
+    check_prior(factor, proper_stand_in(prior, mixed))
     k = factor.k
     fam = np.array(prior.family)
     lap = np.flatnonzero(fam == "laplace")
     stu = np.flatnonzero(fam == "student_t")
-    mix = np.concatenate([lap, stu])
+    mix = np.concatenate([lap, stu, [m.index for m in mixed]]).astype(int)
     A, b = data_rows(factor)
     P = prior.root_precision
     template = np.zeros((A.shape[0] + P.shape[0] + len(mix), k + 1))
@@ -133,8 +139,9 @@ def _model(factor: DataFactor, prior: ScaledPrior) -> _Model:
     loc = np.where(fam == "flat", 0.0, prior.mean)
     lwork = int(_geqrf_lwork(*template.shape)[0])
     return _Model(
-        factor, prior, k, loc, lap, stu, mix, route, template, A.shape[0], np.diag(gram), lwork
-    )
+        factor, prior, k, loc, lap, stu, tuple(mixed), mix, route, template, A.shape[0],
+        np.diag(gram), lwork,
+    )  # fmt: skip
 
 
 def _solve_stacked(S: np.ndarray, k: int, z: np.ndarray, lwork: int) -> np.ndarray:
@@ -151,14 +158,14 @@ def _solve_stacked(S: np.ndarray, k: int, z: np.ndarray, lwork: int) -> np.ndarr
     return x if z.ndim == 2 else x[:, 0]
 
 
-def _draw_stacked(model: _Model, rng, sigma: float, prec: np.ndarray) -> np.ndarray:
-    """gamma | sigma, mixing precisions: QR of the stacked rows, one triangular solve."""
+def _draw_stacked(model: _Model, rng, sigma: float, state: PriorState) -> np.ndarray:
+    """gamma | sigma, mixing rows: QR of the stacked rows, one triangular solve."""
     S = model.template.copy(order="F")
     S[: model.n_data] /= sigma
-    root = np.sqrt(prec)
+    root = np.sqrt(state.prec)
     rows = S.shape[0] - len(model.mix) + np.arange(len(model.mix))
     S[rows, model.mix] = root
-    S[rows, -1] = root * model.loc[model.mix]
+    S[rows, -1] = root * state.loc
     return _solve_stacked(S, model.k, rng.standard_normal(model.k), model.lwork)
 
 
@@ -183,44 +190,53 @@ def _draw_bcm(
     return u + PD.T @ w
 
 
-def _draw_gamma_bcm(model: _Model, rng, sigma: float, prec: np.ndarray) -> np.ndarray:
-    """gamma | sigma, mixing precisions when n < p and the prior precision is diagonal."""
+def _draw_gamma_bcm(model: _Model, rng, sigma: float, state: PriorState) -> np.ndarray:
+    """gamma | sigma, mixing rows when n < p and the prior precision is diagonal."""
     f = model.factor
-    full_prec = model.prior_prec.copy()
-    full_prec[model.mix] = prec
+    full_prec, full_loc = model.prior_prec.copy(), model.loc.copy()
+    full_prec[model.mix], full_loc[model.mix] = state.prec, state.loc
     gamma = np.empty(model.k)
     if f.intercept:  # separate: its data term n alpha^2 / sigma^2 is uncoupled
         a_prec = f.n / sigma**2 + full_prec[0]
-        gamma[0] = full_prec[0] * model.loc[0] / a_prec + rng.standard_normal() / np.sqrt(a_prec)
-    loc = model.loc[f.slopes]
+        gamma[0] = full_prec[0] * full_loc[0] / a_prec + rng.standard_normal() / np.sqrt(a_prec)
+    loc = full_loc[f.slopes]
     target = (f.r12 - f.R11 @ loc) / sigma
     gamma[f.slopes] = loc + _draw_bcm(f.R11 / sigma, target, 1.0 / full_prec[f.slopes], rng)
     return gamma
 
 
-def _draw_mixing(model: _Model, rng, gamma: np.ndarray) -> np.ndarray:
-    """Precisions 1 / tau_j^2 of the Laplace then Student-t coordinates, given gamma."""
+def _laplace_precision(rng, b: np.ndarray, d: np.ndarray) -> np.ndarray:
+    """``1 / tau^2`` of Laplace(c, b) coordinates given their offsets ``d = gamma_j - c``."""
+    d = np.maximum(np.abs(d), 1e-100 * b)
+    return inverse_gaussian(rng, 1.0 / (b * d), 1.0 / b**2)
+
+
+def _draw_mixing(model: _Model, rng, gamma: np.ndarray) -> PriorState:
+    """Rows of the Laplace, Student-t (precisions 1 / tau_j^2) and mixed coordinates | gamma."""
     prior = model.prior
     parts = []
     if len(model.lap):
         b = prior.scale[model.lap]
-        d = np.maximum(np.abs(gamma[model.lap] - model.loc[model.lap]), 1e-100 * b)
-        parts.append(inverse_gaussian(rng, 1.0 / (b * d), 1.0 / b**2))
+        parts.append(_laplace_precision(rng, b, gamma[model.lap] - model.loc[model.lap]))
     if len(model.stu):
         df, s = prior.df[model.stu], prior.scale[model.stu]
         d = gamma[model.stu] - model.loc[model.stu]
         parts.append(rng.gamma((df + 1) / 2) / ((df * s**2 + d**2) / 2))
-    return np.concatenate(parts) if parts else np.empty(0)
+    prec, loc = mixed_rows(model.mixed, rng, gamma, _laplace_precision)
+    fixed = model.loc[model.mix[: len(model.lap) + len(model.stu)]]
+    return PriorState(np.concatenate([*parts, prec]), np.concatenate([fixed, loc]))
 
 
-def _initial_mixing(model: _Model, rng) -> np.ndarray:
-    """Mixing precisions drawn from their priors: dispersed starting points."""
+def _initial_mixing(model: _Model, rng) -> PriorState:
+    """Mixing precisions (and mixture labels) drawn from their priors: dispersed starts."""
     prior = model.prior
     b = prior.scale[model.lap]
     lap = 1.0 / rng.exponential(2 * b**2)
     df, s = prior.df[model.stu], prior.scale[model.stu]
     stu = rng.gamma(df / 2) / (df * s**2 / 2)
-    return np.concatenate([lap, stu])
+    prec, loc = mixed_rows(model.mixed, rng, None, _laplace_precision)
+    fixed = model.loc[model.mix[: len(model.lap) + len(model.stu)]]
+    return PriorState(np.concatenate([lap, stu, prec]), np.concatenate([fixed, loc]))
 
 
 def _run_chain(model: _Model, rng, draws: int, warmup: int, tick: Callable[[int], None]):
@@ -255,7 +271,7 @@ def _run_chain(model: _Model, rng, draws: int, warmup: int, tick: Callable[[int]
 
 
 def prior_draws(
-    prior: ScaledPrior, rng: np.random.Generator, draws: int
+    prior: ScaledPrior, rng: np.random.Generator, draws: int, mixed: tuple = ()
 ) -> tuple[np.ndarray, np.ndarray]:
     """Independent draws from the prior of the scaled problem.
 
@@ -263,7 +279,8 @@ def prior_draws(
     coordinates: when P is square in the Gaussian coordinates N, integrating
     them out leaves a constant, so the prior factorises as the independent
     Laplace/Student-t coordinates times ``gamma_N | rest``, Gaussian. Flat
-    coordinates give nan, and so does any Gaussian coordinate tied to one.
+    coordinates give nan, and so does any Gaussian coordinate tied to one. Mixed
+    coordinates (``mixed``, flat in ``prior``) draw their label, then its component.
 
     Returns
     -------
@@ -277,6 +294,7 @@ def prior_draws(
         out[:, j] = rng.laplace(prior.mean[j], prior.scale[j], draws)
     for j in np.flatnonzero(fam == "student_t"):
         out[:, j] = prior.mean[j] + prior.scale[j] * rng.standard_t(prior.df[j], draws)
+    mixed_prior_draws(mixed, rng, out)
     normal = np.flatnonzero(fam == "normal")
     P = prior.root_precision
     if len(normal) and P.shape[0] == len(normal):
@@ -303,6 +321,7 @@ def sample(
     sampler: SamplerSettings = DEFAULT_SAMPLER,
     *,
     progress: Callable[[int, int], None] | None = None,
+    mixed: tuple[MixedCoordinate, ...] = (),
 ) -> Draws:
     """Gibbs sampler for the posterior of ``(gamma, sigma)``.
 
@@ -320,13 +339,15 @@ def sample(
         Number of chains, kept draws per chain, discarded sweeps per chain, seed.
     progress : callable(done, total), optional
         Called as sweeps complete (``total = chains * (warmup + draws)``).
+    mixed : tuple of MixedCoordinate
+        Coordinates with a mixture prior, flat in ``prior`` (:mod:`bayes.engine.labels`).
 
     Returns
     -------
     Draws
     """
     chains, draws, warmup, seed = sampler.chains, sampler.draws, sampler.warmup, sampler.seed
-    model = _model(factor, prior)
+    model = _model(factor, prior, mixed)
     total = chains * (warmup + draws)
     every = max(1, total // 200)
     done = 0
@@ -349,6 +370,6 @@ def sample(
             model, np.random.default_rng(chain_seeds[c]), draws, warmup, tick
         )
         prior_gamma[c], prior_sigma[c] = prior_draws(
-            prior, np.random.default_rng(prior_seeds[c]), draws
+            prior, np.random.default_rng(prior_seeds[c]), draws, mixed
         )
     return Draws(gamma, sigma, prior_gamma, prior_sigma)

@@ -64,6 +64,11 @@ def scaled_prior(factor: DataFactor, priors) -> ScaledPrior:
         j = index[cp.column]
         if cp.family == "flat":
             continue
+        if cp.family == "mixture":  # fitted by bayes.engine.mixture_fit, through bayes.fit only
+            raise InputError(
+                f"{priors.path or 'priors'}: '{cp.column}' has a mixture prior: sweeps and "
+                "comparisons do not support mixture priors yet (bayes fit and report do)"
+            )
         family[j] = cp.family
         center[j] = cp.center
         if cp.family == "normal":

@@ -90,3 +90,23 @@ def noise_modes(modes: Sequence[tuple[float, float]]) -> str | None:
         "at the smaller noise level the data win, at the larger the priors do. The exact "
         "posterior mixes both: its means and intervals may sit where neither mode does."
     )
+
+
+POOL_MISFIT_WARNING = (
+    0.05  # worst cdf error that calls a fitted pool a miss (our choice, no source)
+)
+
+
+def pool_misfit(errors: Sequence[tuple[str, float | None]]) -> list[str]:
+    """A warning for each coefficient whose prior, one family fitted to the experts' linear
+    pool, misses the pool: its worst cdf error ``sup_x |F_fitted(x) - F_pool(x)|`` exceeds
+    ``POOL_MISFIT_WARNING``. ``errors`` holds ``(column, worst cdf error or None)``."""
+    return [
+        f"the prior on {name} is one distribution fitted to the experts' linear pool and misses "
+        f"it: its cumulative probability is off by up to {fmt(error, 2)} (above "
+        f"{POOL_MISFIT_WARNING:g}), so it may put mass where no expert does. To keep the "
+        'experts\' disagreement, pool them as a mixture ([pool] family = "mixture", or '
+        "elicit pool --family mixture)."
+        for name, error in errors
+        if error is not None and error > POOL_MISFIT_WARNING
+    ]

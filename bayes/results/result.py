@@ -130,6 +130,7 @@ class FitResult:
             out.append(wording.lasso_zeros(*self._lasso_zeros()))
         out.append(wording.ill_conditioned(self.diagnostics["condition_number"]))
         out.append(wording.noise_modes(getattr(self.posterior, "noise_modes", ())))
+        out += wording.pool_misfit([(c.column, c.pool_error) for c in p.coefficients])
         dropped = self.data.dropped if self.data is not None else self.provenance.get("dropped", 0)
         out.append(wording.dropped_rows(int(dropped or 0)))
         if self.terms is not None:
