@@ -250,11 +250,11 @@ def test_more_coefficients_than_rows_under_jeffreys_is_refused_as_improper():
     assert np.all(np.isfinite([r["mean"] for r in fitted.rows]))
 
 
-@pytest.mark.parametrize("informative", [False, True])
-def test_data_fitted_exactly_are_refused_as_improper(informative):
+@pytest.mark.parametrize("family", ["flat", "normal", "laplace"])  # conjugate, quadrature, sampled
+def test_data_fitted_exactly_are_refused_as_improper(family):
     x = np.linspace(0.0, 5.0, 8)
     frame = pd.DataFrame({"x0": x, "y": 2.0 + 3.0 * x})  # a line through every point
-    priors = _priors({"x0": ("normal", 3.0, 1.0)} if informative else {})
+    priors = _priors({} if family == "flat" else {"x0": (family, 3.0, 1.0)})
     with pytest.raises(InputError, match="improper posterior.*zero to rounding"):
         fit(frame, response="y", priors=priors)
 
@@ -310,6 +310,7 @@ def test_se_matches_statsmodels_ols_bse():
     assert np.array([r["se"] for r in result.rows]) == pytest.approx(bse, rel=1e-10)
     doc = result.to_dict()
     assert doc["coefficients"][1]["se"] == pytest.approx(bse[1], rel=1e-10)
+    assert "<th>se</th>" in result._repr_html_()
 
 
 def test_se_is_absent_where_a_prior_is_informative():
@@ -319,3 +320,4 @@ def test_se_is_absent_where_a_prior_is_informative():
     assert all(c["se"] is None for c in json.loads(json.dumps(result.to_dict()))["coefficients"])
     assert " se " not in result.text().splitlines()[2]
     assert result.summary()["se"].isna().all()
+    assert "<th>se</th>" not in result._repr_html_()

@@ -144,23 +144,29 @@ class MixturePosterior(Posterior):
             return InfiniteVarianceMixture(self.weights, locs, scales)
         return NormalMixture(self.weights, locs, scales)
 
-    def _grows(self, A: np.ndarray) -> np.ndarray:
-        """``G[i, j]``: whether ``A[i]' beta`` and ``A[j]' beta`` share growing variance.
+    def _mixture_cov(self) -> np.ndarray:
+        """The covariance of the mixture itself (over the quadrature's nodes)."""
+        dev = self.means - self.mean  # about the mean: no cancellation
+        return np.einsum("k,kij->ij", self.weights, self.covs) + np.einsum(
+            "k,ki,kj->ij", self.weights, dev, dev
+        )
 
-        ``A growth A'`` against the truncated mixture's own covariance times
-        ``E[sigma^2]``: a genuine growth is of its order, rounding in the natural
-        transform some 1e-30 of it.
+    def _grows(self, A: np.ndarray) -> np.ndarray:
+        """Whether the covariance of contrasts ``A[i]' beta`` and ``A[j]' beta`` grows with sigma.
+
+        ``A growth A'`` times the mixture's ``E[sigma^2]``, against the mixture's own
+        covariance: a genuine growth is of its order, rounding in the natural transform
+        some 1e-30 of it.
+
+        Returns
+        -------
+        ndarray of bool, shape (len(A), len(A))
         """
         if self.growth is None:
             return np.zeros((len(A), len(A)), dtype=bool)
-        grow = A @ self.growth @ A.T
-        dev = self.means - self.weights @ self.means
-        cov = np.einsum("k,kij->ij", self.weights, self.covs) + np.einsum(
-            "k,ki,kj->ij", self.weights, dev, dev
-        )
-        ref = np.abs(A @ cov @ A.T)
-        scale = np.sqrt(np.outer(np.diag(ref), np.diag(ref)))
-        return np.abs(grow) * float(self.weights @ self.sigma**2) > 1e-12 * scale
+        grow = np.abs(A @ self.growth @ A.T) * float(self.weights @ self.sigma**2)
+        ref = np.abs(np.diag(A @ self._mixture_cov() @ A.T))
+        return grow > 1e-12 * np.sqrt(np.outer(ref, ref))
 
     @property
     def mean(self) -> np.ndarray:
@@ -170,10 +176,7 @@ class MixturePosterior(Posterior):
     def cov(self) -> np.ndarray:
         if np.isfinite(self.df):
             return self.covs[0] * self.df / (self.df - 2) if self.df > 2 else self.covs[0] * np.inf
-        dev = self.means - self.mean  # about the mean: no cancellation
-        cov = np.einsum("k,kij->ij", self.weights, self.covs) + np.einsum(
-            "k,ki,kj->ij", self.weights, dev, dev
-        )
+        cov = self._mixture_cov()
         if self.tail_df <= 2 and self.growth is not None:
             cov = np.where(self._grows(np.eye(self.k)), np.copysign(np.inf, self.growth), cov)
         return cov
