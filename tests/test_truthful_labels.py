@@ -189,10 +189,12 @@ def test_flat_coefficients_have_infinite_sd_exactly_when_the_tail_df_is_at_most_
         line = next(ln for ln in result.text().splitlines() if ln.startswith("x0 "))
         assert " inf " in line
         assert np.isinf(result.posterior.cov[1, 1]) and np.isfinite(result.posterior.cov[2, 2])
+        assert any(n.startswith("intercept, x0: infinite posterior sd") for n in result.notes)
         a = np.array([1.0, 0.3, 0.5])  # a prediction: touches the flat intercept
         assert result.posterior.marginal(a).sd == np.inf
     else:
         assert np.isfinite(sd["intercept"]) and np.isfinite(sd["x0"])
+        assert not any("infinite posterior sd" in n for n in result.notes)
     assert np.isfinite(sd["x1"])  # held by its proper prior however large sigma is
     # A new response adds the noise itself: E[sigma^2] is infinite when df <= 2.
     new_row = result.posterior.marginal(np.eye(3)[2], noise=True).sd

@@ -107,6 +107,18 @@ def least_squares_columns(df: float | None) -> str:
     return f"{text}; the posterior sd is infinite (df = n - k = {df:g} <= 2)."
 
 
+def infinite_variance(names: Sequence[str], df: float) -> str | None:
+    """Which coefficients have an infinite posterior sd, and why (``df``: the noise tail's)."""
+    if not names:
+        return None
+    return (
+        f"{', '.join(names)}: infinite posterior sd: the noise sd's posterior falls only like "
+        f"sigma^-{fmt(df + 1, 4)} at large sigma (df = {fmt(df, 4)} <= 2, too few rows beyond "
+        "the flat-prior coefficients), so E[sigma^2] diverges; the intervals and P(>0) "
+        + ("stand." if df > 1 else "stand, but the mean does not exist either (df <= 1).")
+    )
+
+
 def noise_modes(modes: Sequence[tuple[float, float]]) -> str | None:
     """The prior-data conflict note when two or more noise modes each carry noticeable mass.
 

@@ -164,6 +164,7 @@ class FitResult:
             out.append(wording.monte_carlo(self.level, *self._largest_mcse()))
         if self.rows[0]["se"] is not None:
             out.append(wording.least_squares_columns(self._jeffreys_df()))
+        out.append(wording.infinite_variance(*self._infinite_sd()))
         out.append(wording.ill_conditioned(self.diagnostics["condition_number"]))
         out.append(wording.noise_modes(getattr(self.posterior, "noise_modes", ())))
         dropped = self.data.dropped if self.data is not None else self.provenance.get("dropped", 0)
@@ -178,6 +179,13 @@ class FitResult:
         ends = max(max(r["mcse_lower"], r["mcse_upper"]) / r["sd"] for r in self.rows
                    if r["sd"] > 0)  # fmt: skip
         return p, ends
+
+    def _infinite_sd(self) -> tuple[list[str], float]:
+        """The coefficients whose exact posterior sd is infinite, and the noise tail's df."""
+        post = self.posterior
+        df = getattr(post, "df", np.inf)
+        df = df if np.isfinite(df) else getattr(post, "tail_df", np.inf)
+        return [r["name"] for r in self.rows if r["sd"] == math.inf], float(df)
 
     def _jeffreys_df(self) -> float | None:
         """n - k when the noise has the Jeffreys prior (sd = se sqrt(df / (df - 2))), else None."""
