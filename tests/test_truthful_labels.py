@@ -230,6 +230,12 @@ def test_a_saved_fit_keeps_its_infinite_sd(tmp_path):
     again = load_fit(tmp_path / "fit")
     assert again.rows[0]["sd"] == np.inf and again.posterior.tail_df == 2
     assert again.rows[2]["sd"] == result.rows[2]["sd"]
+    npz = tmp_path / "fit" / "posterior.npz"
+    with np.load(npz) as z:
+        arrays = dict(z)
+    np.savez(npz, **{**arrays, "growth": np.eye(2)})  # damaged: the wrong shape
+    with pytest.raises(InputError, match="growth"):
+        load_fit(tmp_path / "fit")
 
 
 # ------------------------------------------------------------------ 3. improper posterior
