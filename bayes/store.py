@@ -134,6 +134,8 @@ def _posterior_arrays(post: Posterior) -> dict[str, np.ndarray]:
         df, extra = post.df, {} if post.sigma_cdf is None else {"sigma_cdf": post.sigma_cdf}
         if post.noise_modes:  # (sigma, mass) of each mode of the noise posterior
             extra["noise_modes"] = np.array(post.noise_modes, dtype=float).reshape(-1, 2)
+        if post.growth is not None:  # the noise posterior's tail (infinite variances)
+            extra.update(tail_df=np.array(post.tail_df), growth=post.growth)
     return {
         "names": np.array(post.names, dtype=str),
         **mixture,
@@ -158,6 +160,8 @@ def _posterior_from_arrays(z, labels: dict) -> Posterior:
         df=float(df), sigma_cdf=z["sigma_cdf"] if "sigma_cdf" in z else None,
         noise_modes=tuple((float(s), float(m)) for s, m in z["noise_modes"])
         if "noise_modes" in z else (),
+        tail_df=float(z["tail_df"]) if "tail_df" in z else np.inf,
+        growth=z["growth"] if "growth" in z else None,
     )  # fmt: skip
 
 

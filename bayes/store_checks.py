@@ -100,6 +100,8 @@ def check_arrays(z: dict[str, np.ndarray], *, path: Path, intercept: bool = True
     if "draws" in z:
         shapes["draws"] = (*z["draws"].shape[:-1], k)
         shapes["sigma_draws"] = z["draws"].shape[:-1]
+    if "growth" in z or "tail_df" in z:  # both or neither: the noise posterior's tail
+        shapes.update(growth=(k, k), tail_df=())
     for key, shape in shapes.items():
         if key not in z or z[key].shape != shape:
             got = z[key].shape if key in z else "none"
@@ -116,7 +118,7 @@ def check_arrays(z: dict[str, np.ndarray], *, path: Path, intercept: bool = True
         if z[key].dtype.kind not in "fiub":
             raise InputError(f"{path}: damaged: array {key!r} is not numbers")
     for key in ("x_mean", "x_scale", "y_mean", "R", "mode", "weights", "sigma", "means", "covs",
-                "draws", "sigma_draws", "factor_n"):  # fmt: skip
+                "draws", "sigma_draws", "factor_n", "growth", "tail_df"):  # fmt: skip
         if key in z and not np.all(np.isfinite(z[key])):
             raise InputError(f"{path}: damaged: array {key!r} has values that are not finite")
     if int(z["factor_n"]) < 1 or np.any(z["x_scale"] <= 0) or np.any(z["weights"] < 0):

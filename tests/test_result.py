@@ -57,8 +57,20 @@ def test_fit_folders_saved_by_version_0_1_still_load(name):
     stored = json.loads((folder / "fit.json").read_text())
     result = load_fit(folder)
     now = result.to_dict()
-    assert now["notes"] == stored["notes"]
+    # Notes added since 0.1.0 (the flat fit's se column, a sampled fit's Monte Carlo errors)
+    # come in between; the old ones are all there, in their order.
+    added = ("flat priors: the mean column is", "Monte Carlo standard errors (arviz)")
+    assert [n for n in now["notes"] if not n.startswith(added)] == stored["notes"]
     assert now["method"] == stored["method"] and now["detail"] == stored["detail"]
+    for pen in stored["penalties"]:
+        # Issue 17: 0.1.0 gave lambda at the posterior median of the noise sd, which the
+        # mode does not solve; that one is now lambda_at_median_noise_sd, lambda is at the
+        # mode's noise sd.
+        pen["lambda_at_median_noise_sd"], pen["median_noise_sd"] = (
+            pen.pop("lambda"),
+            pen.pop("noise_sd"),
+        )
+        pen.pop("noise_basis")
     for key in ("coefficients", "penalties"):
         assert len(now[key]) == len(stored[key])
         for mine, theirs in zip(now[key], stored[key], strict=True):

@@ -138,20 +138,34 @@ def to_inference_data(
     return az.from_dict(**groups, coords={"coefficient": list(names)}, dims=dims)
 
 
-def monte_carlo_errors(draws: np.ndarray) -> dict[str, np.ndarray]:
-    """Monte Carlo standard errors of each coefficient's posterior mean and sd, from arviz.
+def monte_carlo_errors(draws: np.ndarray, level: float | None = None) -> dict[str, np.ndarray]:
+    """Monte Carlo standard errors of each coefficient's summaries, from arviz.
 
     Parameters
     ----------
     draws : ndarray, shape (chains, draws, k)
+    level : float, optional
+        Credible level of the equal-tailed interval whose ends get theirs.
 
     Returns
     -------
     dict
-        ``mcse_mean`` and ``mcse_sd``, arrays of shape (k,).
+        ``mcse_mean`` and ``mcse_sd``; with ``level`` also ``mcse_lower`` and ``mcse_upper``
+        (the interval's end quantiles) and ``mcse_p_positive`` (the mean of the indicator
+        draws ``beta > 0``, i.e. of P(beta > 0)); arrays of shape (k,).
     """
     az = _arviz()
-    ds = az.convert_to_dataset({"beta": np.asarray(draws, dtype=float)})
-    return {
-        f"mcse_{m}": np.atleast_1d(az.mcse(ds, method=m)["beta"].values) for m in ("mean", "sd")
-    }
+    draws = np.asarray(draws, dtype=float)
+    ds = az.convert_to_dataset({"beta": draws})
+
+    def each(data, **how) -> np.ndarray:
+        return np.atleast_1d(az.mcse(data, **how)["beta"].values)
+
+    out = {f"mcse_{m}": each(ds, method=m) for m in ("mean", "sd")}
+    if level is not None:
+        tail = (1.0 - level) / 2.0
+        out["mcse_lower"] = each(ds, method="quantile", prob=tail)
+        out["mcse_upper"] = each(ds, method="quantile", prob=1.0 - tail)
+        positive = az.convert_to_dataset({"beta": (draws > 0).astype(float)})
+        out["mcse_p_positive"] = each(positive, method="mean")
+    return out

@@ -19,6 +19,7 @@ stack is solved by QR: the normal equations are never formed.
 from __future__ import annotations
 
 import numpy as np
+from scipy import linalg
 
 from bayes.engine.likelihood import coefficient_names
 from bayes.engine.noise_rule import QUADRATURE_NODES
@@ -91,6 +92,8 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> MixturePosterior:
     u_mode = _joint_mode(rows, quad.nodes[np.argmax(quad.log_density)])
     mode_sol = rows.solve(np.exp(u_mode))
     mode, _ = _natural(factor, mode_sol.mean[None], mode_sol.cov[None])
+    tail_df, growth = noise_tail(rows)
+    T = natural_transform(factor)
     return MixturePosterior(
         names=names, method="exact",
         detail=f"noise sd integrated out exactly ({QUADRATURE_NODES}-node Gauss-Legendre "
@@ -98,7 +101,48 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> MixturePosterior:
         mode=mode[0], mode_kind="joint mode of (beta, sigma^2)", sigma_mode=float(np.exp(u_mode)),
         weights=weights, sigma=sigma, means=means, covs=covs, sigma_cdf=quad.sigma_cdf(),
         noise_modes=tuple((float(np.exp(u)), float(m)) for u, m in quad.modes),
+        tail_df=tail_df, growth=T @ growth @ T.T,
     )  # fmt: skip
+
+
+def noise_tail(rows: StackedRows) -> tuple[float, np.ndarray]:
+    """The noise posterior's tail: its degrees of freedom, and how the covariance grows there.
+
+    As sigma -> inf the Gaussian-prior directions are held by their priors and the ``f``
+    flat directions (the null space of ``W``, basis ``N``) by the data alone, so
+    ``p(y | sigma) ~ sigma^-(n - f)`` and, with the noise prior's ``sigma^-(2 a + 1)``
+    (InvGamma(a, b); a = 0 for Jeffreys), ``p(sigma | y) ~ sigma^-(df + 1)`` with
+    ``df = n + 2 a - f``: the same degrees of freedom as the conjugate Student-t when every
+    direction is flat. Given sigma the coefficients' covariance is
+    ``sigma^2 G + O(1)`` with ``G = N (N' D'D N)^-1 N'`` and their mean stays bounded, so
+    the variance of a contrast ``a' gamma`` is finite iff ``df > 2`` or ``a' G a = 0``
+    (``E[sigma^2]`` converges iff ``df > 2``).
+
+    Returns
+    -------
+    df : float
+    growth : ndarray, shape (k, k)
+        ``G``, scaled units (zero when no direction is flat).
+    """
+    W, D = rows.W, rows.D
+    k = D.shape[1]
+    used = np.any(W != 0, axis=0)
+    null = [np.eye(k)[:, ~used]]  # flat coordinates: exact unit vectors
+    if used.any():
+        _, s, Vt = np.linalg.svd(W[:, used])
+        s_full = np.zeros(int(used.sum()))
+        s_full[: len(s)] = s
+        inner = Vt[s_full <= s_full.max() * 1e-10].T  # a flat direction mixing coordinates
+        embedded = np.zeros((k, inner.shape[1]))
+        embedded[used] = inner
+        null.append(embedded)
+    N = np.hstack(null)
+    df = float(rows.n + 2 * rows.noise.shape - N.shape[1])
+    if N.shape[1] == 0:
+        return df, np.zeros((k, k))
+    R = np.linalg.qr(D @ N, mode="r")
+    Rinv = linalg.solve_triangular(R, np.eye(R.shape[0]))
+    return df, N @ Rinv @ Rinv.T @ N.T
 
 
 def _joint_mode(rows: StackedRows, u0: float) -> float:

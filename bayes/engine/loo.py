@@ -30,7 +30,8 @@ class LooResult(ReadOnlyArrays):
     elpd : float
         ``sum_i log p(y_i | y_-i)`` (log density in 1 / response units).
     se : float
-        Its usual standard error, ``sqrt(n) * sd(pointwise)``.
+        Its usual standard error, ``sqrt(n * var(pointwise))`` with the variance's divisor
+        n (ddof 0), as ``arviz.loo`` computes it.
     pointwise : ndarray, shape (n,)
     p_loo : float
         Effective number of parameters, ``lppd - elpd``.
@@ -65,7 +66,7 @@ def _rows(X: np.ndarray, k: int) -> np.ndarray:
 def _loo(pointwise: np.ndarray, lppd: float, method: str, **extra) -> LooResult:
     n = len(pointwise)
     elpd = float(np.sum(pointwise))
-    se = float(np.sqrt(n) * np.std(pointwise, ddof=1)) if n > 1 else np.nan
+    se = float(np.sqrt(n * np.var(pointwise))) if n > 1 else np.nan  # ddof 0, as arviz.loo
     return LooResult(elpd, se, pointwise, float(lppd - elpd), method, **extra)
 
 

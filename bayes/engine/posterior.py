@@ -110,6 +110,15 @@ class MixturePosterior(Posterior):
         Each mode of the noise sd's posterior, ``(sigma, mass)``, when the noise was
         integrated out by quadrature (empty otherwise, and for fits saved before modes
         were recorded). Two with noticeable mass mean a prior-data conflict.
+    tail_df : float
+        When the noise was integrated out by quadrature: the noise sd's posterior falls
+        like ``sigma^-(tail_df + 1)`` at large sigma (worked out from the model, see
+        :func:`bayes.engine.exact.noise_tail`; inf when not recorded).
+    growth : ndarray, shape (k, k), optional
+        With ``tail_df``: the coefficients' covariance given sigma is
+        ``sigma^2 growth + O(1)`` as sigma grows (nonzero only along flat-prior
+        directions). A contrast ``a' beta`` with ``a' growth a > 0`` has infinite
+        variance when ``tail_df <= 2``, however finite the quadrature's truncated sum.
     """
 
     weights: np.ndarray
@@ -119,6 +128,8 @@ class MixturePosterior(Posterior):
     df: float = np.inf
     sigma_cdf: np.ndarray | None = None
     noise_modes: tuple[tuple[float, float], ...] = ()
+    tail_df: float = np.inf
+    growth: np.ndarray | None = None
 
     def marginal(self, a: np.ndarray, offset: float = 0.0, noise: bool = False) -> Distribution:
         a = np.asarray(a, dtype=float)
@@ -129,7 +140,33 @@ class MixturePosterior(Posterior):
         scales = np.sqrt(np.maximum(var, 0.0))
         if np.isfinite(self.df):
             return StudentT(float(locs[0]), float(scales[0]), self.df)
+        if self.tail_df <= 2 and (noise or self._grows(a[None])[0, 0]):
+            return InfiniteVarianceMixture(self.weights, locs, scales)
         return NormalMixture(self.weights, locs, scales)
+
+    def _mixture_cov(self) -> np.ndarray:
+        """The covariance of the mixture itself (over the quadrature's nodes)."""
+        dev = self.means - self.mean  # about the mean: no cancellation
+        return np.einsum("k,kij->ij", self.weights, self.covs) + np.einsum(
+            "k,ki,kj->ij", self.weights, dev, dev
+        )
+
+    def _grows(self, A: np.ndarray) -> np.ndarray:
+        """Whether the covariance of contrasts ``A[i]' beta`` and ``A[j]' beta`` grows with sigma.
+
+        ``A growth A'`` times the mixture's ``E[sigma^2]``, against the mixture's own
+        covariance: a genuine growth is of its order, rounding in the natural transform
+        some 1e-30 of it.
+
+        Returns
+        -------
+        ndarray of bool, shape (len(A), len(A))
+        """
+        if self.growth is None:
+            return np.zeros((len(A), len(A)), dtype=bool)
+        grow = np.abs(A @ self.growth @ A.T) * float(self.weights @ self.sigma**2)
+        ref = np.abs(np.diag(A @ self._mixture_cov() @ A.T))
+        return grow > 1e-12 * np.sqrt(np.outer(ref, ref))
 
     @property
     def mean(self) -> np.ndarray:
@@ -139,10 +176,10 @@ class MixturePosterior(Posterior):
     def cov(self) -> np.ndarray:
         if np.isfinite(self.df):
             return self.covs[0] * self.df / (self.df - 2) if self.df > 2 else self.covs[0] * np.inf
-        dev = self.means - self.mean  # about the mean: no cancellation
-        return np.einsum("k,kij->ij", self.weights, self.covs) + np.einsum(
-            "k,ki,kj->ij", self.weights, dev, dev
-        )
+        cov = self._mixture_cov()
+        if self.tail_df <= 2 and self.growth is not None:
+            cov = np.where(self._grows(np.eye(self.k)), np.copysign(np.inf, self.growth), cov)
+        return cov
 
     def sigma_quantile(self, q: float) -> float:
         if self.noise_known:
@@ -157,6 +194,19 @@ class MixturePosterior(Posterior):
         order = np.argsort(self.sigma)
         cum = np.cumsum(self.weights[order])
         return float(np.interp(q, cum - self.weights[order] / 2, self.sigma[order]))
+
+
+class InfiniteVarianceMixture(NormalMixture):
+    """The quadrature's normal mixture of a contrast whose exact variance is infinite.
+
+    Its cdf, quantiles and density are those of the mixture (the mass beyond the nodes is
+    below exp(-46) of the peak's); its sd, which the truncated sum would make finite, is
+    inf (see :attr:`MixturePosterior.growth`).
+    """
+
+    @property
+    def sd(self) -> float:
+        return np.inf
 
 
 @dataclass(frozen=True, eq=False, kw_only=True)

@@ -22,7 +22,12 @@ from scipy import linalg, stats
 from bayes.arrays import ReadOnlyArrays
 from bayes.engine.likelihood import check_identified, data_rows
 from bayes.engine.noise_rule import NoiseQuadrature, log_sigma_quadrature, stationary_span
+from bayes.errors import InputError
 from bayes.problem import DataFactor, NoiseSpec, ScaledPrior
+
+#: The data are fitted exactly when the least-squares residual's norm is below this share of
+#: the centred response's: rounding leaves about 1e-16 times the design's condition number.
+EXACT_FIT_RTOL = 1e-10
 
 
 @dataclass(frozen=True, eq=False)
@@ -87,11 +92,13 @@ class StackedRows(ReadOnlyArrays):
         ValueError
             When a prior is neither flat nor normal (``caller`` names the function).
         InputError
-            When a flat prior leaves a direction the data cannot determine.
+            When a flat prior leaves a direction the data cannot determine, or the
+            posterior is improper (:func:`check_proper`).
         """
         if not prior.gaussian_only:
             raise ValueError(f"{caller} handles flat and normal priors only")
         check_identified(factor, prior)
+        check_proper(factor, prior)
         return cls.build(factor, prior)
 
     @property
@@ -127,6 +134,59 @@ class StackedRows(ReadOnlyArrays):
         diag = np.abs(np.diagonal(R, axis1=1, axis2=2))
         quad = diag[:, k] ** 2 if diag.shape[1] > k else np.zeros(len(sigma))
         return quad, np.sum(np.log(diag[:, :k]), axis=1)
+
+
+def exact_fit(factor: DataFactor) -> tuple[bool, int]:
+    """Whether the model fits the data exactly, and the rank of its design (intercept included).
+
+    Exactly: the design's rank reaches the number of rows (so any response is fitted), or
+    the least-squares residual is below :data:`EXACT_FIT_RTOL` of the centred response.
+    """
+    D, d = data_rows(factor)
+    s = np.linalg.svd(D, compute_uv=False)
+    rank = int(np.sum(s > s.max() * max(D.shape) * np.finfo(float).eps)) if s.size else 0
+    if rank >= factor.n:
+        return True, rank
+    coef = np.linalg.lstsq(D, d, rcond=None)[0]
+    resid = float(np.linalg.norm(D @ coef - d))
+    return resid <= EXACT_FIT_RTOL * float(np.linalg.norm(d)), rank
+
+
+def check_proper(factor: DataFactor, prior: ScaledPrior) -> None:
+    """Stop with a clear error when the noise sd's posterior cannot be normalised.
+
+    With the noise prior's density near sigma = 0 no lighter than ``1 / sigma`` (the
+    Jeffreys prior; an inverse-gamma prior of scale 0) and data the model fits exactly,
+    ``p(y | sigma)`` (the coefficients integrated out) tends to a positive constant times
+    ``sigma^(rank - n)`` as sigma -> 0, so ``p(sigma | y)`` grows at least like
+    ``1 / sigma`` there and its integral diverges at 0. (At large sigma it falls like
+    ``sigma^-(n + 2 a - f + 1)`` with f flat directions, and :func:`check_identified`
+    keeps ``n > f``.)
+
+    Raises
+    ------
+    InputError
+        Naming the cause and the two ways out: a proper noise prior or more rows.
+    """
+    noise = prior.noise
+    if noise.known or noise.scale > 0:
+        return
+    exact, rank = exact_fit(factor)
+    if not exact:
+        return
+    what = (
+        "the Jeffreys noise prior" if noise.jeffreys else "an inverse-gamma noise prior of scale 0"
+    )
+    how = (
+        f"{factor.n} rows and a design of rank {rank}"
+        if rank >= factor.n
+        else f"the least-squares residual is zero to rounding ({factor.n} rows, rank {rank})"
+    )
+    raise InputError(
+        f"improper posterior: the model fits the data exactly ({how}), so under {what} the "
+        "noise sd's posterior grows like 1/sigma near sigma = 0 and cannot be normalised: "
+        "state the noise sd or a range for it ([noise] in the prior file), or add rows"
+    )
 
 
 def log_noise_prior(prior: ScaledPrior, s2):

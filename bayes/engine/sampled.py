@@ -34,7 +34,9 @@ def sampled_posterior(
     from bayes.engine.diagnostics import to_inference_data
     from bayes.engine.gibbs import sample
     from bayes.engine.modes import MODE_KIND, posterior_mode
+    from bayes.engine.quadrature import check_proper
 
+    check_proper(factor, prior)  # data fitted exactly under the Jeffreys prior: no posterior
     names = factor.coefficient_names
     # Thousands of small factorisations per chain: bayes.api.fit_factor, the one caller, runs
     # this on one BLAS thread unless the problem is wide (bayes.threads).

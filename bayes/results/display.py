@@ -37,14 +37,16 @@ def fit_html(result) -> str:
     """The coefficient table of a :class:`bayes.results.result.FitResult`, with units."""
     pct = f"{100 * result.level:g}%"
     units = result.units()
+    se = ["se"] if result.rows[0]["se"] is not None else []  # flat-prior fits only
     rows = [
         (r["name"], units[r["name"]], r["prior"], fmt(r["mean"], 4), fmt(r["sd"], 3),
-         fmt(r["lower"], 4), fmt(r["upper"], 4), f"{r['p_positive']:.3f}")
+         *(fmt(r[c], 3) for c in se), fmt(r["lower"], 4), fmt(r["upper"], 4),
+         f"{r['p_positive']:.3f}")
         for r in result.rows
     ]  # fmt: skip
     d = result.diagnostics
     lines = [f"{result.posterior.detail}; n = {d['n']}, residual sd = {fmt(d['residual_sd'], 4)}"]
-    headers = ("coefficient", "units", "prior", "mean", "sd", f"{pct} lower", f"{pct} upper",
+    headers = ("coefficient", "units", "prior", "mean", "sd", *se, f"{pct} lower", f"{pct} upper",
                "P(>0)")  # fmt: skip
     return html_block(f"Posterior for '{result.response}'", headers, rows, lines=lines,
                       notes=result.notes)  # fmt: skip

@@ -75,6 +75,50 @@ def lasso_zeros(at_location: int, laplace: int) -> str | None:
     )
 
 
+def monte_carlo(level: float, p_positive: float, ends: float) -> str:
+    """The Monte Carlo error of a sampled fit's P(> 0) column and interval ends.
+
+    ``p_positive`` is the largest MCSE of P(> 0) over the coefficients, ``ends`` the largest
+    MCSE of an interval end divided by that coefficient's posterior sd.
+    """
+    return (
+        f"Monte Carlo standard errors (arviz): at most {fmt(p_positive, 2)} for P(>0) and "
+        f"{fmt(ends, 2)} posterior sd for the {100 * level:g}% interval ends (per coefficient: "
+        "mcse_p_positive, mcse_lower, mcse_upper in the JSON output and summary())."
+    )
+
+
+def least_squares_columns(df: float | None) -> str:
+    """What the se column of a flat-prior fit is beside sd.
+
+    ``df`` is ``n - k`` under the Jeffreys noise prior (None for another noise prior).
+    """
+    text = (
+        "flat priors: the mean column is the least-squares estimate and se its classical "
+        "standard error (s times the root of the diagonal of (X'X)^-1, s^2 = RSS / (n - k))"
+    )
+    if df is None:
+        return text + "; sd is the posterior sd under the stated noise prior."
+    if df > 2:
+        return (
+            f"{text}; sd is the posterior sd, se * sqrt(df / (df - 2)) with df = n - k = {df:g}, "
+            "and the intervals are the classical t intervals."
+        )
+    return f"{text}; the posterior sd is infinite (df = n - k = {df:g} <= 2)."
+
+
+def infinite_variance(names: Sequence[str], df: float) -> str | None:
+    """Which coefficients have an infinite posterior sd, and why (``df``: the noise tail's)."""
+    if not names:
+        return None
+    return (
+        f"{', '.join(names)}: infinite posterior sd: the noise sd's posterior falls only like "
+        f"sigma^-{fmt(df + 1, 4)} at large sigma (df = {fmt(df, 4)} <= 2, too few rows beyond "
+        "the flat-prior coefficients), so E[sigma^2] diverges; the intervals and P(>0) "
+        + ("stand." if df > 1 else "stand, but the mean does not exist either (df <= 1).")
+    )
+
+
 def noise_modes(modes: Sequence[tuple[float, float]]) -> str | None:
     """The prior-data conflict note when two or more noise modes each carry noticeable mass.
 

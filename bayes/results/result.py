@@ -21,9 +21,17 @@ from bayes.engine.posterior import Posterior
 from bayes.problem import DataFactor
 from bayes.results import notes as wording
 from bayes.results.format import fmt, format_table
-from bayes.results.summary import coefficient_rows, diagnostics, penalty_rows
+from bayes.results.summary import (
+    coefficient_rows,
+    diagnostics,
+    every_prior_flat,
+    least_squares_se,
+    penalty_rows,
+)
 
 CONVERGENCE_COLUMNS = ("r_hat", "ess_bulk", "ess_tail")
+#: Monte Carlo standard errors in a sampled fit's rows (arviz), after the convergence columns.
+MCSE_COLUMNS = ("mcse_mean", "mcse_sd", "mcse_lower", "mcse_upper", "mcse_p_positive")
 
 
 def _frozen(row: Mapping) -> Mapping:
@@ -88,14 +96,30 @@ class FitResult:
         post = self.posterior
         return summarize_draws(post.draws, post.sigma_draws, self.names)
 
+    @property
+    def flat(self) -> bool:
+        """True when every coefficient has a flat prior (the least-squares limit)."""
+        return every_prior_flat(self.priors, self.names)
+
     @cached_property
     def rows(self) -> tuple[Mapping, ...]:
-        """The coefficient table: one read-only mapping per coefficient (intercept first)."""
-        rows = coefficient_rows(self.posterior, self.priors, self.level)
+        """The coefficient table: one read-only mapping per coefficient (intercept first).
+
+        ``se`` is the classical least-squares standard error in flat-prior fits (None
+        otherwise); sampled fits add R-hat, the effective sample sizes and the Monte Carlo
+        standard errors of the mean, sd, interval ends and P(> 0) (:data:`MCSE_COLUMNS`).
+        """
+        se = least_squares_se(self.factor) if self.flat else None
+        rows = coefficient_rows(self.posterior, self.priors, self.level, se)
         if self.convergence is not None:
+            from bayes.engine.diagnostics import monte_carlo_errors
+
+            mcse = monte_carlo_errors(self.posterior.draws, self.level)
             for j, row in enumerate(rows):
                 for key in CONVERGENCE_COLUMNS:
                     row[key] = float(self.convergence[key][j])
+                for key in MCSE_COLUMNS:
+                    row[key] = float(mcse[key][j])
         return tuple(_frozen(r) for r in rows)
 
     @cached_property
@@ -105,16 +129,25 @@ class FitResult:
 
     @cached_property
     def noise_basis(self) -> tuple[float, str]:
-        """The noise sd the equivalent penalties use, and what it is."""
+        """The noise sd the equivalent penalties use, and what it is: that of the reported mode.
+
+        At that sd the mode column is the penalised least-squares solution with the printed
+        lambda (:func:`bayes.results.summary.penalty_rows`).
+        """
         if self.posterior.noise_known:
-            return self.posterior.sigma_quantile(0.5), "known noise sd"
-        return self.diagnostics["noise_sd_median"], "posterior median of the noise sd"
+            return self.posterior.sigma_mode, "known noise sd"
+        return self.posterior.sigma_mode, "noise sd at the reported mode"
 
     @cached_property
     def penalties(self) -> tuple[Mapping, ...]:
-        """Equivalent ridge (sigma^2/tau^2) and lasso (sigma^2/b) penalties, natural units."""
+        """Equivalent ridge (sigma^2/tau^2) and lasso (sigma^2/b) penalties, natural units.
+
+        ``lambda`` at the noise sd of the reported mode; ``lambda_at_median_noise_sd`` at
+        the posterior median of the noise sd.
+        """
         sigma, basis = self.noise_basis
-        return tuple(_frozen(r) for r in penalty_rows(self.priors, sigma, basis))
+        median = self.diagnostics["noise_sd_median"]
+        return tuple(_frozen(r) for r in penalty_rows(self.priors, sigma, basis, median))
 
     @cached_property
     def notes(self) -> tuple[str, ...]:
@@ -128,6 +161,10 @@ class FitResult:
             k = len(self.names)  # sigma, when sampled, is not part of the table's notes
             out += wording.convergence(self.names, c.r_hat[:k], c.ess_bulk[:k], c.ess_tail[:k])
             out.append(wording.lasso_zeros(*self._lasso_zeros()))
+            out.append(wording.monte_carlo(self.level, *self._largest_mcse()))
+        if self.rows[0]["se"] is not None:
+            out.append(wording.least_squares_columns(self._jeffreys_df()))
+        out.append(wording.infinite_variance(*self._infinite_sd()))
         out.append(wording.ill_conditioned(self.diagnostics["condition_number"]))
         out.append(wording.noise_modes(getattr(self.posterior, "noise_modes", ())))
         out += wording.pool_misfit([(c.column, c.pool_error) for c in p.coefficients])
@@ -136,6 +173,25 @@ class FitResult:
         if self.terms is not None:
             out.extend(self.terms.notes)
         return tuple(n for n in out if n)
+
+    def _largest_mcse(self) -> tuple[float, float]:
+        """The largest MCSE of P(> 0), and of an interval end in posterior sds, over the rows."""
+        p = max(r["mcse_p_positive"] for r in self.rows)
+        ends = max(max(r["mcse_lower"], r["mcse_upper"]) / r["sd"] for r in self.rows
+                   if r["sd"] > 0)  # fmt: skip
+        return p, ends
+
+    def _infinite_sd(self) -> tuple[list[str], float]:
+        """The coefficients whose exact posterior sd is infinite, and the noise tail's df."""
+        post = self.posterior
+        df = getattr(post, "df", np.inf)
+        df = df if np.isfinite(df) else getattr(post, "tail_df", np.inf)
+        return [r["name"] for r in self.rows if r["sd"] == math.inf], float(df)
+
+    def _jeffreys_df(self) -> float | None:
+        """n - k when the noise has the Jeffreys prior (sd = se sqrt(df / (df - 2))), else None."""
+        noise = self.priors.noise
+        return None if noise is not None else float(self.factor.n - len(self.names))
 
     def _lasso_zeros(self) -> tuple[int, int]:
         """(modes exactly at their Laplace prior's location, Laplace-prior coefficients)."""
@@ -162,8 +218,8 @@ class FitResult:
     def summary(self):
         """The coefficient table as a pandas DataFrame indexed by coefficient name.
 
-        Columns: those of :attr:`rows`, the coefficient's ``units`` and, for sampled fits,
-        the Monte Carlo standard errors ``mcse_mean`` and ``mcse_sd`` (arviz).
+        Columns: the coefficient's ``units``, then those of :attr:`rows` (for sampled
+        fits with the Monte Carlo standard errors of :data:`MCSE_COLUMNS`, from arviz).
 
         Examples
         --------
@@ -177,11 +233,7 @@ class FitResult:
 
         table = pd.DataFrame([dict(r) for r in self.rows]).set_index("name")
         table.insert(0, "units", [self.units()[n] for n in table.index])
-        if self.sampled:
-            from bayes.engine.diagnostics import monte_carlo_errors
-
-            for key, values in monte_carlo_errors(self.posterior.draws).items():
-                table[key] = values
+        table["se"] = table["se"].astype(float)  # NaN where not a flat-prior fit
         return table
 
     def sample(self, n: int = 4000, *, seed: int = 0):
@@ -252,12 +304,13 @@ class FitResult:
         """The terminal table with the diagnostics and notes below it."""
         pct = f"{100 * self.level:g}%"
         extra = [c for c in CONVERGENCE_COLUMNS if c in self.rows[0]]
-        headers = ["coefficient", "prior", "mean", "mode", "sd", f"{pct} lower", f"{pct} upper",
-                   "P(>0)", "sd/prior sd", *extra]  # fmt: skip
+        se = ["se"] if self.rows[0]["se"] is not None else []
+        headers = ["coefficient", "prior", "mean", "mode", "sd", *se, f"{pct} lower",
+                   f"{pct} upper", "P(>0)", "sd/prior sd", *extra]  # fmt: skip
         body = [
             [r["name"], r["prior"], fmt(r["mean"], digits), fmt(r["mode"], digits),
-             fmt(r["sd"], 3), fmt(r["lower"], digits), fmt(r["upper"], digits),
-             f"{r['p_positive']:.3f}", fmt(r["sd_ratio"], 3),
+             fmt(r["sd"], 3), *(fmt(r[c], 3) for c in se), fmt(r["lower"], digits),
+             fmt(r["upper"], digits), f"{r['p_positive']:.3f}", fmt(r["sd_ratio"], 3),
              *(fmt(r[c], 4) for c in extra)]
             for r in self.rows
         ]  # fmt: skip

@@ -5,9 +5,11 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from scipy import linalg
 
+from bayes.engine.likelihood import data_rows
 from bayes.engine.posterior import Posterior
-from bayes.problem import DataFactor
+from bayes.problem import DataFactor, natural_transform
 
 
 def prior_text(cp) -> str:
@@ -43,8 +45,41 @@ def condition_number(factor: DataFactor) -> float:
     return float(s[0] / s[-1])
 
 
-def coefficient_rows(posterior: Posterior, priors, level: float) -> list[dict]:
-    """One row per coefficient: mean, mode, sd, interval, P(> 0), sd ratio."""
+def every_prior_flat(priors, names) -> bool:
+    """True when no coefficient of ``names`` has a proper prior (no prior file, or only flat)."""
+    if priors is None:
+        return True
+    if getattr(priors, "block", None) is not None:
+        return False
+    return all((cp := priors.get(n)) is None or cp.family == "flat" for n in names)
+
+
+def least_squares_se(factor: DataFactor) -> np.ndarray | None:
+    """The classical least-squares standard errors, natural units, intercept first.
+
+    ``s sqrt(diag((X'X)^-1))`` with ``s^2 = RSS / (n - k)`` and X the design with its
+    intercept column (what ``statsmodels`` OLS reports as ``bse``), from the data factor by
+    QR; None when ``n <= k``. With flat priors and the Jeffreys noise prior the posterior sd
+    is ``se * sqrt(df / (df - 2))``, ``df = n - k``.
+    """
+    D, d = data_rows(factor)
+    dof = factor.n - D.shape[1]
+    if dof <= 0:
+        return None
+    Q, R = np.linalg.qr(D)
+    resid = D @ linalg.solve_triangular(R, Q.T @ d) - d
+    spread = natural_transform(factor) @ linalg.solve_triangular(R, np.eye(R.shape[0]))
+    return np.sqrt(float(resid @ resid) / dof) * np.sqrt(np.sum(spread**2, axis=1))
+
+
+def coefficient_rows(
+    posterior: Posterior, priors, level: float, se: np.ndarray | None = None
+) -> list[dict]:
+    """One row per coefficient: mean, mode, sd, interval, P(> 0), sd ratio, classical se.
+
+    ``se`` (:func:`least_squares_se`, for flat-prior fits) fills the ``se`` field; it is
+    None otherwise.
+    """
     rows = []
     for j, name in enumerate(posterior.names):
         cp = priors.get(name) if priors is not None else None
@@ -63,26 +98,35 @@ def coefficient_rows(posterior: Posterior, priors, level: float) -> list[dict]:
                 "upper": upper,
                 "p_positive": m.sf(0.0),
                 "sd_ratio": sd / psd if math.isfinite(psd) else None,
+                "se": None if se is None else float(se[j]),
             }
         )
     return rows
 
 
-def penalty_rows(priors, noise_sd: float, noise_basis: str) -> list[dict]:
-    """Equivalent ridge (sigma^2/tau^2) and lasso (sigma^2/b) penalties, natural units."""
+def penalty_rows(priors, noise_sd: float, noise_basis: str, median_sd: float) -> list[dict]:
+    """Equivalent ridge (sigma^2/tau^2) and lasso (sigma^2/b) penalties, natural units.
+
+    ``lambda`` is at ``noise_sd``, the noise sd of the reported mode: the mode is then the
+    penalised least-squares solution, ridge minimising ``||y - X beta||^2 + lambda
+    (beta_j - c_j)^2`` and lasso ``||y - X beta||^2 / 2 + lambda |beta_j - c_j|`` over each
+    penalised coefficient ``j`` (prior centre ``c_j``). ``lambda_at_median_noise_sd`` is
+    the same penalty at ``median_noise_sd``, the posterior median of the noise sd.
+    """
     rows = []
     if priors is None:
         return rows
     for cp in priors.coefficients:
         if cp.family == "normal":
-            kind, lam = "ridge", noise_sd**2 / cp.scale**2
+            kind, lam, lam_median = "ridge", noise_sd**2 / cp.scale**2, median_sd**2 / cp.scale**2
         elif cp.family == "laplace":
-            kind, lam = "lasso", noise_sd**2 / cp.scale
+            kind, lam, lam_median = "lasso", noise_sd**2 / cp.scale, median_sd**2 / cp.scale
         else:
             continue
         rows.append(
             {"name": cp.column, "penalty": kind, "lambda": lam, "noise_sd": noise_sd,
-             "noise_basis": noise_basis}
+             "noise_basis": noise_basis, "median_noise_sd": median_sd,
+             "lambda_at_median_noise_sd": lam_median}
         )  # fmt: skip
     return rows
 
