@@ -173,6 +173,38 @@ def replace_files(
         shutil.rmtree(tmp, ignore_errors=True)
 
 
+def csv_bytes(frame, *, header: bool = True) -> bytes:
+    """``frame`` (without its index) as CSV, fast: pyarrow's writer (floats to full precision,
+    booleans as true/false; no quotes unless a block has a value that needs them, and then
+    every text value of that block is quoted), for a table written block by block.
+
+    Parameters
+    ----------
+    header : bool
+        Begin with the header line (the first block of a file).
+    """
+    import pyarrow as pa
+    import pyarrow.csv as pacsv
+
+    try:
+        table = pa.Table.from_pandas(frame, preserve_index=False)
+    except (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError):
+        # a column of mixed objects (numbers and labels): written as its text
+        mixed = frame.select_dtypes(include="object").columns
+        frame = frame.assign(**{c: frame[c].map(lambda v: "" if v is None or v != v else str(v))
+                                for c in mixed})  # fmt: skip
+        table = pa.Table.from_pandas(frame, preserve_index=False)
+    for quoting in ("none", "needed"):  # "none" refuses a value with a comma, quote or newline
+        sink = pa.BufferOutputStream()
+        options = pacsv.WriteOptions(include_header=header, quoting_style=quoting)
+        try:
+            pacsv.write_csv(table, sink, write_options=options)
+        except pa.ArrowInvalid:
+            continue
+        break
+    return sink.getvalue().to_pybytes()
+
+
 # ----------------------------------------------------------------------------- reading
 
 

@@ -24,7 +24,11 @@ from bayes.results.result import FitResult
 
 COLUMNS = ("mean", "lower", "upper", "pred_lower", "pred_upper")  # the prediction columns
 FLAG = "extrapolated"  # True where a row lies outside the fitted data's range
-BLOCK_VALUES = 2**21  # values held per row block (rows x components or draws): 16 MiB
+# Values per row block (rows x components, rows x draws): a mixture's block stays in the cache
+# through its Newton steps (2**15: 1.2 s CPU per 100,000 rows of a 64-node mixture, against
+# 3.0 s at 2**21); draws are partitioned once, so larger blocks only save calls.
+MIXTURE_BLOCK = 2**15
+DRAWS_BLOCK = 2**21
 
 
 def check_level(level: float) -> None:
@@ -56,9 +60,9 @@ def predict(
         the expected response), ``lower``/``upper`` (credible interval of the expected
         response) and ``pred_lower``/``pred_upper`` (predictive interval of a new
         observation), all in response units; then, when the fit holds its data rows,
-        ``extrapolated`` (a design column beyond the data's minimum or maximum).
-        ``attrs`` holds ``response``, ``units`` (None when the prior file gives none)
-        and ``level``.
+        ``extrapolated`` (a design column beyond the data's minimum or maximum) and, when
+        the prior file gives the response's units, ``units``. ``attrs`` holds
+        ``response``, ``units`` (None when the prior file gives none) and ``level``.
     """
     check_level(level)
     predictor = Predictor(result, level, source)
@@ -105,8 +109,10 @@ class Predictor:
 
     @property
     def columns(self) -> tuple[str, ...]:
-        """The columns appended to each block."""
-        return COLUMNS if self.span is None else (*COLUMNS, FLAG)
+        """The columns appended to each block: :data:`COLUMNS`, then :data:`FLAG` when the
+        data's range is known and ``units`` when the response's units are."""
+        flag = () if self.span is None else (FLAG,)
+        return (*COLUMNS, *flag, *(("units",) if self.attrs["units"] else ()))
 
     def design(self, frame: pd.DataFrame) -> np.ndarray:
         """The design columns of ``frame``'s rows, validated (missing, non-numeric and
@@ -138,6 +144,8 @@ class Predictor:
                 self.outside[name] = self.outside.get(name, 0) + int(beyond[:, j].sum())
             table[FLAG] = beyond.any(axis=1)
             self.flagged += int(table[FLAG].sum())
+        if self.attrs["units"]:
+            table["units"] = self.attrs["units"]
         self.rows += len(frame)
         table.index = frame.index
         return pd.concat([frame, table], axis=1)
@@ -171,13 +179,13 @@ def design_intervals(posterior, X: np.ndarray, level: float = 0.95) -> pd.DataFr
     ends = np.empty((len(X), 4))
     if isinstance(posterior, DrawsPosterior):
         mean = A @ posterior.mean
-        width = posterior.flat_draws.shape[0]
+        step = DRAWS_BLOCK // posterior.flat_draws.shape[0]
         fill = _draws_ends
     else:
         mean = A @ (posterior.weights @ posterior.means)
-        width = len(posterior.weights)
+        step = MIXTURE_BLOCK // len(posterior.weights)
         fill = _mixture_ends
-    step = max(1, BLOCK_VALUES // max(width, 1))
+    step = max(step, 1)
     for start in range(0, len(A), step):
         block = slice(start, start + step)
         ends[block] = fill(posterior, A[block], level)
