@@ -39,6 +39,11 @@ def folder_mode() -> int:
     return 0o777 & ~_umask()
 
 
+# Our temporary names, and nothing else, are what a later run cleans up (see recover_folder):
+# "<name>" stands for the folder's or file's own name, XXXXXXXX for tempfile's 8 characters.
+_TEMP = r"[a-z0-9_]{8}"
+
+
 @contextlib.contextmanager
 def naming(target: Path) -> Iterator[None]:
     """Re-raise an OSError of the block (a temporary file beside ``target`` that cannot be made)
@@ -64,6 +69,7 @@ def atomic_output(path: str | os.PathLike[str]) -> Iterator[Path]:
     """
     target = Path(path)
     with naming(target):
+        remove_leftovers(target)
         fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=f".tmp{target.suffix}",
                                    dir=target.parent)  # fmt: skip
     os.close(fd)
@@ -78,6 +84,20 @@ def atomic_output(path: str | os.PathLike[str]) -> Iterator[Path]:
     except BaseException:
         tmp_path.unlink(missing_ok=True)
         raise
+
+
+def temp_name(target: Path) -> re.Pattern[str]:
+    """The names :func:`atomic_output` gives its temporary files beside ``target``."""
+    return re.compile(rf"\.{re.escape(target.name)}\.{_TEMP}\.tmp{re.escape(target.suffix)}")
+
+
+def remove_leftovers(target: Path) -> None:
+    """Remove the temporary files a killed :func:`atomic_output` left beside ``target``."""
+    ours = temp_name(target)
+    if target.parent.is_dir():
+        for p in target.parent.iterdir():
+            if ours.fullmatch(p.name) and p.is_file():
+                p.unlink(missing_ok=True)
 
 
 def atomic_write_bytes(path: str | os.PathLike[str], content: bytes) -> None:
@@ -100,9 +120,6 @@ def atomic_write_text(path: str | os.PathLike[str], text: str, *, encoding: str 
     atomic_write_bytes(path, text.encode(encoding))
 
 
-# Our temporary names, and nothing else, are what a later run cleans up (see recover_folder):
-# "<name>" stands for the folder's or file's own name, XXXXXXXX for tempfile's 8 characters.
-_TEMP = r"[a-z0-9_]{8}"
 PARTIAL = ".partial-"  # .<name>.partial-XXXXXXXX: a new folder being written beside its place
 BACKUP = ".backup"  # .<name>.backup: the old folder, moved aside while the new one moves in
 PENDING = ".replace-pending"  # inside a folder: complete new files being renamed in
@@ -252,38 +269,6 @@ def _roll_forward(folder: Path) -> None:
         if Path(name).name == name:
             (folder / name).unlink(missing_ok=True)
     shutil.rmtree(pending, ignore_errors=True)
-
-
-def csv_bytes(frame, *, header: bool = True) -> bytes:
-    """``frame`` (without its index) as CSV, fast: pyarrow's writer (floats to full precision,
-    booleans as true/false; no quotes unless a block has a value that needs them, and then
-    every text value of that block is quoted), for a table written block by block.
-
-    Parameters
-    ----------
-    header : bool
-        Begin with the header line (the first block of a file).
-    """
-    import pyarrow as pa
-    import pyarrow.csv as pacsv
-
-    try:
-        table = pa.Table.from_pandas(frame, preserve_index=False)
-    except (pa.ArrowInvalid, pa.ArrowTypeError, pa.ArrowNotImplementedError):
-        # a column of mixed objects (numbers and labels): written as its text
-        mixed = frame.select_dtypes(include="object").columns
-        frame = frame.assign(**{c: frame[c].map(lambda v: "" if v is None or v != v else str(v))
-                                for c in mixed})  # fmt: skip
-        table = pa.Table.from_pandas(frame, preserve_index=False)
-    for quoting in ("none", "needed"):  # "none" refuses a value with a comma, quote or newline
-        sink = pa.BufferOutputStream()
-        options = pacsv.WriteOptions(include_header=header, quoting_style=quoting)
-        try:
-            pacsv.write_csv(table, sink, write_options=options)
-        except pa.ArrowInvalid:
-            continue
-        break
-    return sink.getvalue().to_pybytes()
 
 
 # ----------------------------------------------------------------------------- reading

@@ -105,7 +105,8 @@ def predict_command(fit_dir, newdata, level, fmt, out, chunk_rows):
     predictor = Predictor(load_fit(fit_dir), level, source=Path(newdata).name)
     blocks = predictor.blocks(table_chunks(newdata, chunk_rows))
     if out:
-        from elicit.io import atomic_output, csv_bytes
+        from elicit.io import atomic_output
+        from elicit.outputs import csv_bytes
 
         with atomic_output(out) as tmp, open(tmp, "wb") as fh:
             for i, block in enumerate(blocks):
@@ -118,7 +119,7 @@ def predict_command(fit_dir, newdata, level, fmt, out, chunk_rows):
         )
         return
     if fmt == "csv":  # row blocks as they come: a file with a bad row far down stops there
-        from elicit.io import csv_bytes
+        from elicit.outputs import csv_bytes
 
         for i, block in enumerate(blocks):
             click.echo(csv_bytes(block, header=i == 0), nl=False)
