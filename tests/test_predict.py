@@ -227,3 +227,16 @@ def test_sampled_saved_fit_predicts_from_a_file(tmp_path):
     assert (table["pred_lower"] < table["lower"]).all() and (
         table["upper"] < table["pred_upper"]
     ).all()
+
+
+def test_a_streamed_fit_has_no_data_range_to_flag(tmp_path, demo_frame):
+    fit_dir = tmp_path / "fit"
+    out = run("fit", DEMO / "trial_mix.csv", "--response", "strength", "--stream", "--save",
+              fit_dir)  # fmt: skip
+    assert out.exit_code == 0, out.output
+    assert not (fit_dir / "data.csv").exists()  # a streamed fit keeps no rows
+    path, _ = _new_file(tmp_path, demo_frame, n=5)
+    res = run("predict", fit_dir, path, "--format", "csv")
+    assert res.exit_code == 0 and res.stderr == ""
+    table = pd.read_csv(io.StringIO(res.stdout))
+    assert list(table.columns) == ["plot", *PREDICTORS, *COLUMNS]  # no prior file: no units

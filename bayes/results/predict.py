@@ -147,8 +147,9 @@ class Predictor:
         if self.attrs["units"]:
             table["units"] = self.attrs["units"]
         self.rows += len(frame)
-        table.index = frame.index
-        return pd.concat([frame, table], axis=1)
+        out = pd.concat([frame.reset_index(drop=True), table], axis=1)
+        out.index = frame.index  # the data-row numbers of a file's block, or the caller's labels
+        return out
 
     def blocks(self, frames: Iterable[pd.DataFrame]) -> Iterator[pd.DataFrame]:
         """:meth:`frame` of each block of rows, as they come."""
