@@ -121,7 +121,7 @@ def atomic_write_text(path: str | os.PathLike[str], text: str, *, encoding: str 
 
 
 PARTIAL = ".partial-"  # .<name>.partial-XXXXXXXX: a new folder being written beside its place
-BACKUP = ".backup"  # .<name>.backup: the old folder, moved aside while the new one moves in
+BACKUP = ".swap-old"  # .<name>.swap-old: the old folder, aside while the new one moves in
 PENDING = ".replace-pending"  # inside a folder: complete new files being renamed in
 MANIFEST = "manifest.json"  # in PENDING: the names to rename in and the names to remove
 
@@ -129,7 +129,7 @@ MANIFEST = "manifest.json"  # in PENDING: the names to rename in and the names t
 def recover_folder(folder: str | os.PathLike[str], *, owned: Sequence[str] = ()) -> None:
     """Finish what a killed :func:`atomic_folder` or :func:`replace_files` left behind.
 
-    A folder moved aside (``.<name>.backup``, or an older version's
+    A folder moved aside (``.<name>.swap-old``, or an older version's
     ``.<name>.old.XXXXXXXX/old``) is put back when ``folder`` is missing and removed when it
     is there; half-written new folders (``.<name>.partial-XXXXXXXX``, and an older version's
     ``.<name>.XXXXXXXX`` when every file in it is one of ``owned``) are removed; inside
@@ -174,7 +174,7 @@ def atomic_folder(folder: str | os.PathLike[str]) -> Iterator[Path]:
 
     The folder gets :func:`folder_mode` and its files are written by the caller (each through
     the normal file API: they get :func:`file_mode`). An existing ``folder`` is renamed to
-    ``.<name>.backup``, the new one renamed in, and the backup removed: at every moment the
+    ``.<name>.swap-old``, the new one renamed in, and the backup removed: at every moment the
     complete old folder or the complete new one is in place or, between the two renames, the
     old one is the backup, which :func:`recover_folder` (run here first, and by readers) puts
     back. On failure the new folder is removed and ``folder`` is untouched.

@@ -64,7 +64,7 @@ def test_new_folder_swap_killed_between_renames_is_recovered(tmp_path, fits, mon
             for name in ("fit.json", "posterior.npz", "priors.toml", "data.csv"):
                 shutil.copy(fit_dir / name, tmp / name)
     if nth == 2:  # killed after the old folder was moved aside: no fit folder at all
-        assert not fit_dir.exists() and (tmp_path / ".fit.backup").is_dir()
+        assert not fit_dir.exists() and (tmp_path / ".fit.swap-old").is_dir()
     np.testing.assert_array_equal(_mean(fit_dir), a.posterior.mean)  # the load recovers it
     assert sorted(p.name for p in tmp_path.iterdir()) == ["fit"]  # no backup, no partial
 
@@ -97,7 +97,7 @@ def test_recovery_touches_only_our_temporary_names(tmp_path):
     ours = [tmp_path / ".fit.partial-abc123_z", fit_dir / ".replace.k2j4h5g6"]
     legacy = tmp_path / ".fit.a1b2c3d4"  # an older version's temporary folder: fit files only
     users = [tmp_path / ".fit.mynotes1", tmp_path / ".fit.partial-notes", fit_dir / ".replace",
-             tmp_path / "fit.backup"]  # fmt: skip
+             tmp_path / "fit.backup", tmp_path / ".fit.backup"]  # fmt: skip
     for p in [*ours, legacy, *users]:
         p.mkdir()
     (legacy / "fit.json").write_text("{}")

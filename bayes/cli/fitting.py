@@ -112,11 +112,11 @@ def predict_command(fit_dir, newdata, level, fmt, out, chunk_rows):
             for i, block in enumerate(blocks):
                 fh.write(csv_bytes(block, header=i == 0))
         _warn_outside(predictor)
-        doc = {**predictor.attrs, "rows": predictor.rows, "out": str(out),
-               "extrapolated": predictor.flagged}  # fmt: skip
-        emit(
-            doc, f"Wrote {predictor.rows} predictions to {out}", "json" if fmt == "json" else "text"
-        )
+        n = predictor.rows
+        doc = {**predictor.attrs, "rows": n, "out": str(out),
+               "extrapolated_rows": predictor.flagged}  # fmt: skip
+        text = f"Wrote {n} prediction{'s' * (n != 1)} to {out}"
+        emit(doc, text, "json" if fmt == "json" else "text")
         return
     if fmt == "csv":  # row blocks as they come: a file with a bad row far down stops there
         from elicit.outputs import csv_bytes
