@@ -208,23 +208,38 @@ def mixture_quantile(
     each = locs + zq * scales
     lo, hi = each.min(axis=1), each.max(axis=1)
     x = each @ weights
+    inv = 1.0 / scales  # the loop multiplies; a few (k, K) temporaries, reused in place
+    shift, smin = locs * inv, scales.min(axis=1)
+    dens_weights = weights / np.sqrt(2 * np.pi)
+    live = np.arange(len(x))  # the mixtures still searching; the others have converged
+    z = np.empty_like(locs)
     for _ in range(200):
-        z = (x[:, None] - locs) / scales
-        F = special.ndtr(z) @ weights - q
+        zl = z[: len(live)]
+        np.multiply(x[live, None], inv, out=zl)
+        zl -= shift
+        F = special.ndtr(zl) @ weights - q
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             # far tails overflow to a zero density: the step is then a bisection
-            dens = (np.exp(-0.5 * z**2) / (np.sqrt(2 * np.pi) * scales)) @ weights
+            np.square(zl, out=zl)
+            zl *= -0.5
+            np.exp(zl, out=zl)
+            zl *= inv
+            dens = zl @ dens_weights
             step = np.where(dens > 0, F / dens, np.inf)
-        lo = np.where(F < 0, x, lo)
-        hi = np.where(F > 0, x, hi)
-        new = x - step
+        xl, lol, hil = x[live], lo[live], hi[live]
+        lol = np.where(F < 0, xl, lol)
+        hil = np.where(F > 0, xl, hil)
+        new = xl - step
         # Closed bracket: a converged step rounds to x, which may be a bracket end;
         # sending it to the midpoint would restart the search by bisection.
-        outside = ~((new >= lo) & (new <= hi))
-        new = np.where(outside, 0.5 * (lo + hi), new)
-        tol = 1e-15 * (np.abs(new) + scales.min(axis=1))
-        done = (np.abs(new - x) <= tol) | (hi - lo <= tol)
-        x = new
+        outside = ~((new >= lol) & (new <= hil))
+        new = np.where(outside, 0.5 * (lol + hil), new)
+        tol = 1e-15 * (np.abs(new) + smin[live])
+        done = (np.abs(new - xl) <= tol) | (hil - lol <= tol)
+        x[live], lo[live], hi[live] = new, lol, hil
         if np.all(done):
             break
+        if done.mean() > 0.25:  # drop the converged mixtures from the search
+            keep = ~done
+            live, inv, shift = live[keep], inv[keep], shift[keep]
     return x

@@ -5,8 +5,10 @@ A fit folder holds ``fit.json`` (the JSON of ``bayes fit --format json``),
 prior file as given) and, for in-memory fits, ``data.csv`` (the rows used).
 A model with categorical predictors or derived terms adds ``terms.json`` (its
 coding, see :class:`bayes.data.terms.Terms`), which ``bayes predict`` applies to new rows.
-Sampled fits add ``posterior.nc``, an arviz InferenceData file. The folder is
-written beside its final place and swapped in only when complete.
+Sampled fits add ``posterior.nc``, an arviz InferenceData file (checked against the
+draws on loading, and the loaded fit's ``inference``). The folder is written beside its
+final place and swapped in only when complete; a save killed part way is finished or undone
+by the next save or load (:func:`elicit.io.recover_folder`).
 """
 
 from __future__ import annotations
@@ -24,8 +26,15 @@ from bayes.engine.posterior import DrawsPosterior, MixturePosterior, Posterior
 from bayes.errors import InputError
 from bayes.problem import DataFactor
 from bayes.results.result import FitResult
-from bayes.store_checks import DAMAGE, check_fit_doc, damaged, load_arrays, read_json
-from elicit.io import atomic_folder, atomic_write_text, replace_files
+from bayes.store_checks import (
+    DAMAGE,
+    check_fit_doc,
+    damaged,
+    load_arrays,
+    load_inference,
+    read_json,
+)
+from elicit.io import atomic_folder, atomic_write_text, recover_folder, replace_files
 
 if TYPE_CHECKING:  # annotations only: loading a fit needs neither
     from bayes.compare import Comparison
@@ -182,6 +191,10 @@ def load_fit(folder: str | Path) -> FitResult:
     from elicit.validate import parse_priors
 
     folder = Path(folder)
+    try:  # a save killed part way: put the complete old or new fit in place
+        recover_folder(folder, owned=OWNED)
+    except OSError:
+        pass  # a folder we may not change: read what is there
     missing = [f for f in FILES if not (folder / f).exists()]
     if missing:
         raise InputError(f"{folder}: not a saved fit (missing {', '.join(missing)})")
@@ -232,8 +245,16 @@ def load_fit(folder: str | Path) -> FitResult:
             raise damaged(folder / "data.csv", e) from None
         if data.n != factor.n or not (np.isfinite(data.X).all() and np.isfinite(data.y).all()):
             raise InputError(f"{folder / 'data.csv'}: damaged: its rows are not the fit's")
+    inference = None
+    if (folder / "posterior.nc").exists():
+        if not isinstance(post, DrawsPosterior):
+            raise InputError(f"{folder / 'posterior.nc'}: not this fit's InferenceData: "
+                             "the fit is exact and has no draws")  # fmt: skip
+        inference = load_inference(folder / "posterior.nc", post.names, post.draws,
+                                   post.sigma_draws)  # fmt: skip
     result = FitResult(doc["response"], factor, priors, post, doc["level"], data=data,
-                       provenance=doc["provenance"], terms=terms)  # fmt: skip
+                       provenance=doc["provenance"], terms=terms,
+                       inference=inference)  # fmt: skip
     if coding is not None and "notes" not in coding:
         # Saved by 0.1.0: the coding's notes (reference levels) are only in fit.json, as the
         # notes that the fit itself does not make.

@@ -123,3 +123,53 @@ def check_arrays(z: dict[str, np.ndarray], *, path: Path, intercept: bool = True
             raise InputError(f"{path}: damaged: array {key!r} has values that are not finite")
     if int(z["factor_n"]) < 1 or np.any(z["x_scale"] <= 0) or np.any(z["weights"] < 0):
         raise InputError(f"{path}: damaged: the row count, scales or weights are out of range")
+
+
+def load_inference(path: Path, names: tuple[str, ...], draws: np.ndarray, sigma: np.ndarray):
+    """The arviz InferenceData of ``posterior.nc``, read into memory and checked against the
+    draws of ``posterior.npz``: a ``posterior`` group whose ``beta`` has dimensions (chain,
+    draw, coefficient) with the coefficient names ``names`` and whose ``sigma`` has (chain,
+    draw), both of the draws' shapes, finite, and equal to them.
+
+    Parameters
+    ----------
+    path : Path
+    names : tuple of str
+        The coefficients ("intercept" first).
+    draws : ndarray, shape (chains, draws, k)
+    sigma : ndarray, shape (chains, draws)
+
+    Raises
+    ------
+    InputError
+        One line naming the file: not a netCDF file arviz reads, or not this fit's draws.
+    """
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # arviz announces its refactor on import
+        import arviz as az
+
+        try:
+            with az.rc_context(rc={"data.load": "eager"}):
+                idata = az.from_netcdf(str(path), engine="h5netcdf")
+            post = idata.posterior
+            beta, noise = post["beta"], post["sigma"]
+        except (*DAMAGE, RuntimeError, ImportError) as e:
+            raise damaged(path, e) from None
+    bad = None
+    if tuple(beta.dims) != ("chain", "draw", "coefficient") or beta.shape != draws.shape:
+        bad = f"its beta has dimensions {dict(beta.sizes)}, not the fit's {draws.shape}"
+    elif tuple(noise.dims) != ("chain", "draw") or noise.shape != sigma.shape:
+        bad = f"its sigma has dimensions {dict(noise.sizes)}, not the fit's {sigma.shape}"
+    elif "coefficient" not in beta.coords or [
+        str(c) for c in beta.coords["coefficient"].values
+    ] != list(names):
+        bad = "its coefficient names are not the fit's"
+    elif not (np.isfinite(beta.values).all() and np.isfinite(noise.values).all()):
+        bad = "it has draws that are not finite"
+    elif not (np.array_equal(beta.values, draws) and np.array_equal(noise.values, sigma)):
+        bad = "its draws are not those of posterior.npz"
+    if bad:
+        raise InputError(f"{path}: not this fit's InferenceData: {bad}")
+    return idata

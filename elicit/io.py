@@ -7,7 +7,9 @@ pandas is imported inside the reader, so that ``elicit --help`` and ``bayes --he
 from __future__ import annotations
 
 import contextlib
+import json
 import os
+import re
 import shutil
 import tempfile
 from collections.abc import Iterator, Sequence
@@ -37,6 +39,11 @@ def folder_mode() -> int:
     return 0o777 & ~_umask()
 
 
+# Our temporary names, and nothing else, are what a later run cleans up (see recover_folder):
+# "<name>" stands for the folder's or file's own name, XXXXXXXX for tempfile's 8 characters.
+_TEMP = r"[a-z0-9_]{8}"
+
+
 @contextlib.contextmanager
 def naming(target: Path) -> Iterator[None]:
     """Re-raise an OSError of the block (a temporary file beside ``target`` that cannot be made)
@@ -62,6 +69,7 @@ def atomic_output(path: str | os.PathLike[str]) -> Iterator[Path]:
     """
     target = Path(path)
     with naming(target):
+        remove_leftovers(target)
         fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=f".tmp{target.suffix}",
                                    dir=target.parent)  # fmt: skip
     os.close(fd)
@@ -76,6 +84,20 @@ def atomic_output(path: str | os.PathLike[str]) -> Iterator[Path]:
     except BaseException:
         tmp_path.unlink(missing_ok=True)
         raise
+
+
+def temp_name(target: Path) -> re.Pattern[str]:
+    """The names :func:`atomic_output` gives its temporary files beside ``target``."""
+    return re.compile(rf"\.{re.escape(target.name)}\.{_TEMP}\.tmp{re.escape(target.suffix)}")
+
+
+def remove_leftovers(target: Path) -> None:
+    """Remove the temporary files a killed :func:`atomic_output` left beside ``target``."""
+    ours = temp_name(target)
+    if target.parent.is_dir():
+        for p in target.parent.iterdir():
+            if ours.fullmatch(p.name) and p.is_file():
+                p.unlink(missing_ok=True)
 
 
 def atomic_write_bytes(path: str | os.PathLike[str], content: bytes) -> None:
@@ -98,28 +120,78 @@ def atomic_write_text(path: str | os.PathLike[str], text: str, *, encoding: str 
     atomic_write_bytes(path, text.encode(encoding))
 
 
+PARTIAL = ".partial-"  # .<name>.partial-XXXXXXXX: a new folder being written beside its place
+BACKUP = ".swap-old"  # .<name>.swap-old: the old folder, aside while the new one moves in
+PENDING = ".replace-pending"  # inside a folder: complete new files being renamed in
+MANIFEST = "manifest.json"  # in PENDING: the names to rename in and the names to remove
+
+
+def recover_folder(folder: str | os.PathLike[str], *, owned: Sequence[str] = ()) -> None:
+    """Finish what a killed :func:`atomic_folder` or :func:`replace_files` left behind.
+
+    A folder moved aside (``.<name>.swap-old``, or an older version's
+    ``.<name>.old.XXXXXXXX/old``) is put back when ``folder`` is missing and removed when it
+    is there; half-written new folders (``.<name>.partial-XXXXXXXX``, and an older version's
+    ``.<name>.XXXXXXXX`` when every file in it is one of ``owned``) are removed; inside
+    ``folder``, a complete set of new files (:data:`PENDING`) is renamed in and a half-written
+    one (``.replace.XXXXXXXX``) removed. Nothing else is touched. Safe to call at any time
+    when no other process is saving the same folder.
+    """
+    final = Path(folder)
+    parent, name = final.parent, re.escape(final.name)
+    backups = [parent / f".{final.name}{BACKUP}"]
+    if parent.is_dir():
+        old = re.compile(rf"\.{name}\.old\.{_TEMP}")
+        backups += [p / "old" for p in parent.iterdir() if old.fullmatch(p.name)]
+    for backup in backups:
+        if backup.is_dir() and not final.exists():
+            os.replace(backup, final)
+        elif backup.exists():
+            shutil.rmtree(backup)
+        if backup.name == "old" and backup.parent.is_dir():
+            shutil.rmtree(backup.parent)
+    if parent.is_dir():
+        partial = re.compile(rf"\.{name}{re.escape(PARTIAL)}{_TEMP}")
+        legacy = re.compile(rf"\.{name}\.{_TEMP}")
+        for p in parent.iterdir():
+            ours = partial.fullmatch(p.name) or (
+                owned and legacy.fullmatch(p.name) and p.is_dir()
+                and all(f.name in owned for f in p.iterdir())
+            )  # fmt: skip
+            if ours and p.is_dir():
+                shutil.rmtree(p)
+    if final.is_dir():
+        _roll_forward(final)
+        stale = re.compile(rf"\.replace\.{_TEMP}")
+        for p in final.iterdir():
+            if stale.fullmatch(p.name) and p.is_dir():
+                shutil.rmtree(p)
+
+
 @contextlib.contextmanager
 def atomic_folder(folder: str | os.PathLike[str]) -> Iterator[Path]:
     """Yield a new empty folder beside ``folder``; when the block ends, it takes its place.
 
     The folder gets :func:`folder_mode` and its files are written by the caller (each through
-    the normal file API: they get :func:`file_mode`). An existing ``folder`` is moved aside,
-    the new one renamed in, and the old one removed, so that the complete old folder or the
-    complete new one is there at every moment. On failure the new folder is removed and
-    ``folder`` is untouched.
+    the normal file API: they get :func:`file_mode`). An existing ``folder`` is renamed to
+    ``.<name>.swap-old``, the new one renamed in, and the backup removed: at every moment the
+    complete old folder or the complete new one is in place or, between the two renames, the
+    old one is the backup, which :func:`recover_folder` (run here first, and by readers) puts
+    back. On failure the new folder is removed and ``folder`` is untouched.
     """
     final = Path(folder)
     with naming(final):
         final.parent.mkdir(parents=True, exist_ok=True)
-        tmp = Path(tempfile.mkdtemp(prefix=f".{final.name}.", dir=final.parent))
+        recover_folder(final)
+        tmp = Path(tempfile.mkdtemp(prefix=f".{final.name}{PARTIAL}", dir=final.parent))
     try:
         os.chmod(tmp, folder_mode())
         yield tmp  # files the caller creates in it get the umask's mode already
         if final.exists():
-            aside = Path(tempfile.mkdtemp(prefix=f".{final.name}.old.", dir=final.parent))
-            os.replace(final, aside / "old")
+            backup = final.parent / f".{final.name}{BACKUP}"
+            os.replace(final, backup)
             os.replace(tmp, final)
-            shutil.rmtree(aside, ignore_errors=True)
+            shutil.rmtree(backup, ignore_errors=True)
         else:
             os.replace(tmp, final)
     except BaseException:
@@ -139,7 +211,10 @@ def replace_files(
     (atomic), the names in ``last`` after the others (the file a reader looks for first); the
     names in ``owned`` that the block did not write are removed, since they belong to what was
     replaced. ``folder`` itself is never moved or removed. On failure nothing in ``folder``
-    changes and the new folder is removed.
+    changes and the new folder is removed. Once every new file is on disk the set is
+    committed: the temporary folder, with a manifest of what to rename and remove, becomes
+    :data:`PENDING`; a run killed while renaming is finished by :func:`recover_folder` (run
+    here first, and by readers), so a reader never sees old and new files mixed for long.
 
     Parameters
     ----------
@@ -152,6 +227,7 @@ def replace_files(
     """
     final = Path(folder)
     with naming(final):
+        recover_folder(final)
         tmp = Path(tempfile.mkdtemp(prefix=".replace.", dir=final))
     try:
         yield tmp
@@ -164,13 +240,35 @@ def replace_files(
             with open(tmp / name, "rb+") as handle:
                 os.fsync(handle.fileno())
             os.chmod(tmp / name, file_mode())
-        for name in written:
-            os.replace(tmp / name, final / name)
-        for name in owned:
-            if name not in written:
-                (final / name).unlink(missing_ok=True)
+        plan = {"write": written, "remove": [n for n in owned if n not in written]}
+        with open(tmp / MANIFEST, "w", encoding="utf-8") as handle:
+            json.dump(plan, handle)
+            handle.flush()
+            os.fsync(handle.fileno())
+        os.replace(tmp, final / PENDING)  # committed: from here on the set goes in
+        _roll_forward(final)
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
+
+
+def _roll_forward(folder: Path) -> None:
+    """Rename the committed new files of ``folder/PENDING`` in, remove the owned files the
+    set did not hold, then remove PENDING (each step can be repeated after a kill)."""
+    pending = folder / PENDING
+    if not pending.is_dir():
+        return
+    try:
+        plan = json.loads((pending / MANIFEST).read_text(encoding="utf-8"))
+        write, remove = list(plan["write"]), list(plan["remove"])
+    except (OSError, ValueError, KeyError, TypeError):
+        write, remove = [], []  # not a committed set: nothing of it has been renamed in
+    for name in write:
+        if Path(name).name == name and (pending / name).is_file():
+            os.replace(pending / name, folder / name)
+    for name in remove:
+        if Path(name).name == name:
+            (folder / name).unlink(missing_ok=True)
+    shutil.rmtree(pending, ignore_errors=True)
 
 
 # ----------------------------------------------------------------------------- reading

@@ -83,22 +83,95 @@ def fit_command(data, response, predictors, priors, formula, reference, drop_mis
 @click.option("--level", type=float, default=0.95, show_default=True)
 @click.option("--format", "fmt", type=click.Choice(["text", "json", "csv"]), default="text",
               show_default=True)  # fmt: skip
-def predict_command(fit_dir, newdata, level, fmt):
-    """Posterior mean, credible and predictive intervals for the rows of NEWDATA."""
-    from bayes.results.format import fmt as num
-    from bayes.results.predict import predict
-    from bayes.store import load_fit
-    from elicit.io import read_table
+@click.option("--out", "out", type=click.Path(dir_okay=False),
+              help="Write the predictions to this CSV file, row block by row block "
+              "(replaced only when complete).")  # fmt: skip
+@click.option(
+    "--chunk-rows",
+    type=click.IntRange(1),
+    metavar="N",
+    help="Rows of NEWDATA read at a time (default: about 16 MiB of values).",
+)
+def predict_command(fit_dir, newdata, level, fmt, out, chunk_rows):
+    """Posterior mean, credible and predictive intervals for the rows of NEWDATA.
 
-    result = load_fit(fit_dir)
-    table = predict(result, read_table(newdata), level=level, source=Path(newdata).name)
-    if fmt == "csv":
-        click.echo(table.to_csv(index=False), nl=False)
+    NEWDATA's columns are kept in their order and the prediction columns appended; rows
+    beyond the range of the fitted data are flagged in the column 'extrapolated'.
+    """
+    from bayes.cli.options import fit_folder_files
+    from bayes.data.stream import table_chunks
+    from bayes.results.predict import Predictor, check_level
+    from bayes.store import load_fit
+
+    check_level(level)
+    if out:
+        check_outputs([("--out", out)], [("the new data file", newdata),
+                                         *fit_folder_files(fit_dir)])  # fmt: skip
+    predictor = Predictor(load_fit(fit_dir), level, source=Path(newdata).name)
+    blocks = predictor.blocks(table_chunks(newdata, chunk_rows))
+    if out:
+        from elicit.io import atomic_output
+        from elicit.outputs import csv_bytes
+
+        with atomic_output(out) as tmp, open(tmp, "wb") as fh:
+            for i, block in enumerate(blocks):
+                fh.write(csv_bytes(block, header=i == 0))
+        _warn_outside(predictor)
+        n = predictor.rows
+        doc = {**predictor.attrs, "rows": n, "out": str(out),
+               "extrapolated_rows": predictor.flagged}  # fmt: skip
+        text = f"Wrote {n} prediction{'s' * (n != 1)} to {out}"
+        emit(doc, text, "json" if fmt == "json" else "text")
         return
-    rows = table.to_dict(orient="records")
-    headers = list(table.columns)
+    if fmt == "csv":  # row blocks as they come: a file with a bad row far down stops there
+        from elicit.outputs import csv_bytes
+
+        for i, block in enumerate(blocks):
+            click.echo(csv_bytes(block, header=i == 0), nl=False)
+        _warn_outside(predictor)
+        return
+    import pandas as pd
+
+    table = pd.concat(list(blocks), ignore_index=True)
+    _warn_outside(predictor)
+    rows = table.astype(object).where(table.notna(), None).to_dict(orient="records")
+    doc = {**predictor.attrs, "predictions": [{k: _plain(v) for k, v in r.items()} for r in rows]}
+    emit(doc, _predict_text(predictor, table), fmt)
+
+
+def _plain(value):
+    """A value of a row as JSON can hold it (dates and other objects as text)."""
+    return value if value is None or isinstance(value, (bool, int, float, str)) else str(value)
+
+
+def _predict_text(predictor, table) -> str:
+    """The text form of ``bayes predict``: a line naming the response and its units, then
+    the table."""
+    import numpy as np
+
+    from bayes.results.format import fmt as num
     from bayes.results.format import format_table
 
-    text = format_table(headers, [[num(r[h]) if not isinstance(r[h], str) else r[h]
-                                   for h in headers] for r in rows])  # fmt: skip
-    emit({"level": level, "predictions": rows}, text, fmt)
+    def cell(v) -> str:
+        if isinstance(v, (bool, np.bool_)):
+            return "yes" if v else "no"
+        return v if isinstance(v, str) else num(v)
+
+    a = predictor.attrs
+    units = f" ({a['units']})" if a["units"] else ""
+    shown = [c for c in table.columns if c != "units"]
+    head = f"Predicted {a['response']}{units}, {a['level'] * 100:g}% intervals:"
+    cells = [[cell(v) for v in r] for r in table[shown].itertuples(index=False)]
+    body = format_table([str(c) for c in shown], cells)
+    return f"{head}\n{body}"
+
+
+def _warn_outside(predictor) -> None:
+    """One ``warning:`` line on stderr when rows lie beyond the fitted data's range."""
+    if not predictor.flagged:
+        return
+    each = ", ".join(f"{name} ({n} row{'s' * (n != 1)})" for name, n in predictor.outside.items())
+    n = predictor.flagged
+    click.echo(f"warning: {n} of {predictor.rows} row{'s' * (predictor.rows != 1)} lie outside "
+               f"the range of the fitted data in {each}; column 'extrapolated' marks them",
+               err=True)  # fmt: skip

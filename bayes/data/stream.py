@@ -226,6 +226,33 @@ def parquet_batches(
         raise unreadable(path, e) from None
 
 
+def table_chunks(path: str | Path, chunk_rows: int | None = None) -> Iterator[pd.DataFrame]:
+    """Every column of a CSV or Parquet file, ``chunk_rows`` rows at a time (default
+    :func:`default_chunk_rows`), each chunk indexed by data-row number (0 for the row after
+    the header), so that messages name file rows. A helper thread reads ahead.
+
+    Raises
+    ------
+    InputError
+        For a file that does not exist, cannot be read as a table, or has no data rows.
+    """
+    path = Path(path)
+    header = table_header(path)
+    if len(header.columns) == 0:
+        raise InputError(f"{path}: no data rows")
+    chunk_rows = chunk_rows or default_chunk_rows(len(header.columns))
+    if is_parquet(path):
+        chunks = parquet_batches(path, None, chunk_rows)
+    else:
+        chunks = _csv_chunks(path, chunk_rows)
+    rows = 0
+    for frame, _ in _read_ahead(chunks):
+        rows += len(frame)
+        yield frame
+    if rows == 0:
+        raise InputError(f"{path}: no data rows")
+
+
 def _read_ahead(chunks: Iterator[T]) -> Iterator[T]:
     """Yield from ``chunks`` while a helper thread already reads the next item.
 

@@ -1,5 +1,5 @@
 """Render a :class:`bayes.report.document.Report`: one self-contained HTML file, Markdown with PNG
-figures beside it, CSV tables; every file written atomically once everything is rendered."""
+figures beside it, CSV tables; all written as one set once everything is rendered."""
 
 from __future__ import annotations
 
@@ -10,7 +10,7 @@ from pathlib import Path
 
 from bayes.errors import InputError
 from bayes.report.document import Cell, Report, Table
-from elicit.io import atomic_write_bytes
+from elicit.outputs import write_set
 
 
 def write_report(
@@ -22,9 +22,11 @@ def write_report(
 ) -> list[Path]:
     """Render ``report`` and write the requested outputs; return the paths written.
 
-    Everything is rendered in memory first; then each file is written to a temporary file in
-    its folder and renamed over the old one, so an existing report is replaced only by a
-    complete new one.
+    Everything is rendered in memory first; then the files are replaced as one set
+    (:func:`elicit.outputs.write_set`): each is written to a temporary file in its folder,
+    and only when all are on disk are they renamed over the old ones, so an existing report
+    is replaced only by a complete new one, never new HTML beside old Markdown. A run killed
+    while renaming is finished by the next one, which also removes its temporary files.
 
     Parameters
     ----------
@@ -50,10 +52,9 @@ def write_report(
             raise InputError(f"csv_dir must be a folder, got {folder} (a file)")
         for table in report.tables:
             files[folder / f"{table.key}.csv"] = table_csv(table).encode("utf-8")
-    for path, content in files.items():
+    for path in files:
         path.parent.mkdir(parents=True, exist_ok=True)
-        atomic_write_bytes(path, content)
-    return list(files)
+    return write_set(files)
 
 
 def outputs_text(

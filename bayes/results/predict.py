@@ -1,14 +1,41 @@
-"""Posterior and predictive distributions of the response at new predictor values."""
+"""Posterior and predictive distributions of the response at new predictor values.
+
+Vectorised over rows: the means are one matrix product; the interval ends come from the
+posterior's form, row block by row block, so memory stays bounded for any number of rows. An
+exact posterior gives, at each row, a Student-t (conjugate case) or a finite normal mixture whose
+quantiles :func:`bayes.distributions.mixture_quantile` solves for a whole block at once; a sampled
+posterior gives the quantiles of each row's draws.
+"""
 
 from __future__ import annotations
+
+from collections.abc import Iterable, Iterator
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
+from bayes.data.columns import file_row
 from bayes.data.design import predictor_matrix
+from bayes.distributions import mixture_quantile
+from bayes.engine.posterior import PREDICTIVE_SEED, DrawsPosterior, MixturePosterior
 from bayes.errors import InputError
 from bayes.problem import model_rows
 from bayes.results.result import FitResult
+
+COLUMNS = ("mean", "lower", "upper", "pred_lower", "pred_upper")  # the prediction columns
+FLAG = "extrapolated"  # True where a row lies outside the fitted data's range
+# Values per row block (rows x components, rows x draws): a mixture's block stays in the cache
+# through its Newton steps (2**15: 1.2 s CPU per 100,000 rows of a 64-node mixture, against
+# 3.0 s at 2**21); draws are partitioned once, so larger blocks only save calls.
+MIXTURE_BLOCK = 2**15
+DRAWS_BLOCK = 2**21
+
+
+def check_level(level: float) -> None:
+    """``level`` lies strictly between 0 and 1 (an InputError naming it otherwise)."""
+    if not 0.0 < level < 1.0:
+        raise InputError(f"level must lie strictly between 0 and 1, got {level!r}")
 
 
 def predict(
@@ -22,28 +49,113 @@ def predict(
     frame : DataFrame
         Holds the fit's predictor columns (natural units); with categorical
         predictors or derived terms, the data columns they are made from
-        (coded as in the fit: a level the fit has not seen is an error).
+        (coded as in the fit: a level the fit has not seen is an error). Other
+        columns (a plot ID) are kept.
     level : float
         Level of both intervals.
 
     Returns
     -------
     DataFrame
-        One row per input row: ``mean`` (posterior mean of the expected response),
-        ``lower``/``upper`` (credible interval of the expected response) and
-        ``pred_lower``/``pred_upper`` (predictive interval of a new observation),
-        all in response units.
+        Every column of ``frame`` in its order, then per row ``mean`` (posterior mean of
+        the expected response), ``lower``/``upper`` (credible interval of the expected
+        response) and ``pred_lower``/``pred_upper`` (predictive interval of a new
+        observation), all in response units; then, when the fit holds its data rows,
+        ``extrapolated`` (a design column beyond the data's minimum or maximum) and, when
+        the prior file gives the response's units, ``units``. ``attrs`` holds
+        ``response``, ``units`` (None when the prior file gives none) and ``level``.
     """
-    if not 0.0 < level < 1.0:
-        raise InputError(f"level must lie strictly between 0 and 1, got {level!r}")
-    names = result.factor.names
-    if result.terms is not None:
-        X = result.terms.matrix(frame, source=source)
-        names = result.terms.variables
-    else:
-        X = predictor_matrix(frame, names, source=source)
-    table = design_intervals(result.posterior, X, level)
-    return pd.concat([frame[list(names)].reset_index(drop=True), table], axis=1)
+    check_level(level)
+    predictor = Predictor(result, level, source)
+    out = predictor.frame(frame)
+    out.attrs.update(predictor.attrs)
+    return out
+
+
+@dataclass
+class Predictor:
+    """Predictions for blocks of new rows, with a tally of rows outside the data's range.
+
+    Attributes
+    ----------
+    result : FitResult
+    level : float
+    source : str
+        Name of the new rows in messages.
+    rows : int
+        Rows predicted so far.
+    outside : dict of design column -> int
+        Rows so far beyond the fitted data's range in that column.
+    flagged : int
+        Rows so far beyond the range in any column.
+    """
+
+    result: FitResult
+    level: float
+    source: str = "new data"
+    rows: int = 0
+    outside: dict[str, int] = field(default_factory=dict)
+    flagged: int = 0
+
+    def __post_init__(self) -> None:
+        check_level(self.level)
+        data = self.result.data
+        self.span = None if data is None else (data.X.min(axis=0), data.X.max(axis=0))
+
+    @property
+    def attrs(self) -> dict:
+        """What every block shares: the response, its units (or None) and the level."""
+        units = getattr(self.result.priors, "response_units", None)
+        return {"response": self.result.response, "units": units, "level": self.level}
+
+    @property
+    def columns(self) -> tuple[str, ...]:
+        """The columns appended to each block: :data:`COLUMNS`, then :data:`FLAG` when the
+        data's range is known and ``units`` when the response's units are."""
+        flag = () if self.span is None else (FLAG,)
+        return (*COLUMNS, *flag, *(("units",) if self.attrs["units"] else ()))
+
+    def design(self, frame: pd.DataFrame) -> np.ndarray:
+        """The design columns of ``frame``'s rows, validated (missing, non-numeric and
+        non-finite values named by row and column)."""
+        names = self.result.factor.names
+        if self.result.terms is not None:
+            X = self.result.terms.matrix(frame, source=self.source)
+        else:
+            X = predictor_matrix(frame, names, source=self.source)
+        bad = ~np.isfinite(X)
+        if bad.any():
+            i, j = (int(v[0]) for v in np.nonzero(bad))
+            raise InputError(f"{self.source}: non-finite value ({X[i, j]}) at row "
+                             f"{file_row(frame, i)} column '{names[j]}'")  # fmt: skip
+        return X
+
+    def frame(self, frame: pd.DataFrame) -> pd.DataFrame:
+        """``frame`` with the prediction columns appended (see :func:`predict`)."""
+        clash = [c for c in self.columns if c in frame.columns]
+        if clash:
+            raise InputError(f"{self.source}: has a column named '{clash[0]}', which the "
+                             "predictions would overwrite; rename it")  # fmt: skip
+        X = self.design(frame)
+        table = design_intervals(self.result.posterior, X, self.level)
+        if self.span is not None:
+            beyond = (X < self.span[0]) | (X > self.span[1])
+            for j in np.flatnonzero(beyond.any(axis=0)):
+                name = self.result.factor.names[j]
+                self.outside[name] = self.outside.get(name, 0) + int(beyond[:, j].sum())
+            table[FLAG] = beyond.any(axis=1)
+            self.flagged += int(table[FLAG].sum())
+        if self.attrs["units"]:
+            table["units"] = self.attrs["units"]
+        self.rows += len(frame)
+        out = pd.concat([frame.reset_index(drop=True), table], axis=1)
+        out.index = frame.index  # the data-row numbers of a file's block, or the caller's labels
+        return out
+
+    def blocks(self, frames: Iterable[pd.DataFrame]) -> Iterator[pd.DataFrame]:
+        """:meth:`frame` of each block of rows, as they come."""
+        for frame in frames:
+            yield self.frame(frame)
 
 
 def design_intervals(posterior, X: np.ndarray, level: float = 0.95) -> pd.DataFrame:
@@ -62,15 +174,93 @@ def design_intervals(posterior, X: np.ndarray, level: float = 0.95) -> pd.DataFr
     -------
     DataFrame
         Columns ``mean``, ``lower``, ``upper``, ``pred_lower``, ``pred_upper`` (see
-        :func:`predict`), one row per row of ``X``.
+        :func:`predict`), one row per row of ``X``; equal to each row's
+        ``posterior.marginal(a)`` and ``posterior.marginal(a, noise=True)``.
     """
-    out = []
     X = np.asarray(X, dtype=float)
-    for a in model_rows(X, len(posterior.names) == X.shape[1] + 1):
-        mean_dist = posterior.marginal(a)
-        pred_dist = posterior.marginal(a, noise=True)
-        lo, hi = mean_dist.interval(level)
-        plo, phi = pred_dist.interval(level)
-        out.append({"mean": mean_dist.mean, "lower": lo, "upper": hi,
-                    "pred_lower": plo, "pred_upper": phi})  # fmt: skip
-    return pd.DataFrame(out, columns=["mean", "lower", "upper", "pred_lower", "pred_upper"])
+    A = model_rows(X, len(posterior.names) == X.shape[1] + 1)
+    ends = np.empty((len(X), 4))
+    if isinstance(posterior, DrawsPosterior):
+        mean = A @ posterior.mean
+        step = DRAWS_BLOCK // posterior.flat_draws.shape[0]
+        fill = _draws_ends
+    else:
+        mean = A @ (posterior.weights @ posterior.means)
+        step = MIXTURE_BLOCK // len(posterior.weights)
+        fill = _mixture_ends
+    step = max(step, 1)
+    for start in range(0, len(A), step):
+        block = slice(start, start + step)
+        ends[block] = fill(posterior, A[block], level)
+    table = np.column_stack([mean, ends[:, 0], ends[:, 1], ends[:, 2], ends[:, 3]])
+    return pd.DataFrame(table, columns=list(COLUMNS))
+
+
+def _mixture_ends(post: MixturePosterior, A: np.ndarray, level: float) -> np.ndarray:
+    """(lower, upper, pred_lower, pred_upper) at rows ``A`` of an exact posterior.
+
+    Components of negligible weight are left out of the quantile search: dropping a mass
+    ``eps`` moves a cdf by at most ``eps`` and so the q-quantile by at most ``eps / density``,
+    about ``eps / q`` sd in a tail; ``eps = 1e-14 q`` keeps the ends within 1e-14 sd, below
+    the solver's own 1e-13 (the quadrature's far nodes carry weights of 1e-20 and less).
+    """
+    tail = (1.0 - level) / 2.0
+    keep = _kept_components(post.weights, 1e-14 * tail)
+    weights, means, covs, sigma = (
+        post.weights[keep],
+        post.means[keep],
+        post.covs[keep],
+        post.sigma[keep],
+    )
+    locs = A @ means.T  # (m, K)
+    var = np.maximum(np.einsum("mi,kij,mj->mk", A, covs, A, optimize=True), 0.0)
+    out = np.empty((len(A), 4))
+    for c, extra in ((0, 0.0), (2, sigma**2)):
+        scales = np.sqrt(var + extra)
+        if np.isfinite(post.df):  # the conjugate case: a Student-t at each row
+            from scipy import stats
+
+            z = stats.t.ppf(1.0 - tail, post.df)
+            out[:, c], out[:, c + 1] = locs[:, 0] - z * scales[:, 0], locs[:, 0] + z * scales[:, 0]
+        else:
+            out[:, c] = mixture_quantile(weights, locs, scales, tail)
+            out[:, c + 1] = mixture_quantile(weights, locs, scales, 1.0 - tail)
+    return out
+
+
+def _kept_components(weights: np.ndarray, eps: float) -> np.ndarray:
+    """Indices (in order) of the components left when the lightest, of total weight at most
+    ``eps``, are dropped."""
+    order = np.argsort(weights)
+    light = np.cumsum(weights[order]) <= eps
+    return np.sort(order[~light])
+
+
+def _draws_ends(post: DrawsPosterior, A: np.ndarray, level: float) -> np.ndarray:
+    """(lower, upper, pred_lower, pred_upper) at rows ``A`` of a sampled posterior: quantiles
+    of each row's draws, the predictive ones with the new-noise draws that
+    :meth:`DrawsPosterior.marginal` adds."""
+    values = A @ post.flat_draws.T  # (m, S)
+    noise = post.sigma * np.random.default_rng(PREDICTIVE_SEED).standard_normal(values.shape[1])
+    predictive = values + noise
+    tail = (1.0 - level) / 2.0
+    out = np.empty((len(A), 4))
+    out[:, :2] = _row_quantiles(values, (tail, 1.0 - tail))
+    out[:, 2:] = _row_quantiles(predictive, (tail, 1.0 - tail))
+    return out
+
+
+def _row_quantiles(values: np.ndarray, qs) -> np.ndarray:
+    """``np.quantile(values, qs, axis=1).T`` (its default, linear method, to the last bit),
+    by sorting the rows in place: numpy's vectorised sort beats its selection here (0.05 s
+    against 0.24 s for 524 rows of 4000 draws)."""
+    values.sort(axis=1)
+    out = np.empty((len(values), len(qs)))
+    for c, q in enumerate(qs):
+        h = (values.shape[1] - 1) * q
+        k = min(int(np.floor(h)), values.shape[1] - 2) if values.shape[1] > 1 else 0
+        t = h - k
+        a, b = values[:, k], values[:, min(k + 1, values.shape[1] - 1)]
+        # numpy's lerp: from the nearer end, so that t = 1 gives b exactly
+        out[:, c] = b - (b - a) * (1 - t) if t >= 0.5 else a + (b - a) * t
+    return out
