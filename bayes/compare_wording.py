@@ -80,8 +80,14 @@ def cautions(comparison) -> list[str]:
             "prior and none is given. Compare them by leave-one-out, or give every set "
             "the same flat parts."
         )
-    for s in comparison.sets:
+    probs, se = comparison.probabilities, comparison.probability_mc_se
+    for i, s in enumerate(comparison.sets):
         out += _set_cautions(s)
+        if probs is not None and se[i] > 0:
+            out.append(
+                f"{s.label}: its posterior probability {probs[i]:.3f} has Monte Carlo sd "
+                f"{fmt(se[i], 2)}, from the log marginal likelihoods'."
+            )
     return out
 
 
