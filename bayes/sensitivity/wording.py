@@ -153,21 +153,21 @@ def _probability(p: float, se: float) -> str | None:
     """A probability with its Monte Carlo standard error when it has one (None for nan)."""
     if np.isnan(p):
         return None
-    return f"{p:.3f}" + (f" (Monte Carlo se {se:.2g})" if se > 0 else "")
+    return f"{p:.3f}" + (f", Monte Carlo se {se:.2g}" if se > 0 else "")
 
 
 def _range(r, narrower: bool = False) -> str:
-    """A flip factor's Monte Carlo range in the sentence's terms ("" when exact or unknown):
-    factors below 1 read as times narrower."""
+    """A flip factor's Monte Carlo range (``FLIP_MCSE`` se either side, :mod:`bayes.settings`)
+    in the sentence's terms, "" when exact or unknown: factors below 1 read as times narrower."""
     if r is None or r[0] == r[1]:
         return ""
     if r[0] is None and r[1] is None:
-        return f" (anywhere on the grid within {FLIP_MCSE:g} Monte Carlo se)"
+        return " (Monte Carlo range: the whole grid)"
     ends = [None if f is None else (1 / f if narrower else f) for f in r]
     if narrower:
         ends.reverse()
     lo, hi = ("past the grid" if x is None else times(x) for x in ends)
-    return f" ({lo} to {hi} within {FLIP_MCSE:g} Monte Carlo se)"
+    return f" (Monte Carlo range {lo} to {hi})"
 
 
 def conclusion_sentence(c) -> str:
@@ -205,7 +205,7 @@ def conclusion_sentence(c) -> str:
         return (f"{head} holds only while the priors stay between {times(1 / c.narrower)} "
                 f"times narrower{_range(c.narrower_range, True)} and {times(c.wider)} times "
                 f"wider{_range(c.wider_range)} than stated.")  # fmt: skip
-    stated = _probability(c.stated, c.stated_mcse)
+    stated = _probability(c.stated, c.stated_mcse) + ("," if c.stated_mcse > 0 else "")
     if c.kind == "sign":
         s = (f"The sign of {c.name} is not settled: the probability that {c.statement} is "
              f"{stated} at the stated priors (below {level:g})")  # fmt: skip
