@@ -4,7 +4,9 @@ Every set is fitted to the same design. The log marginal likelihoods give Bayes
 factors and the posterior probabilities of the sets under equal prior odds, read
 on the scale of Kass and Raftery (1995); the leave-one-out predictive densities
 (:mod:`bayes.engine.loo`) compare the sets by how well they predict each row from
-the others, which depends much less on the prior widths.
+the others, which depends much less on the prior widths. For sampled sets the posterior
+probabilities and log Bayes factors carry Monte Carlo standard errors, from those of the log
+evidences (bridge sampling).
 """
 
 from __future__ import annotations

@@ -8,6 +8,8 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from bayes.engine.diagnostics import R_HAT_MAX
 from bayes.results.format import fmt, format_table
 
@@ -80,14 +82,13 @@ def cautions(comparison) -> list[str]:
             "prior and none is given. Compare them by leave-one-out, or give every set "
             "the same flat parts."
         )
-    probs, se = comparison.probabilities, comparison.probability_mc_se
-    for i, s in enumerate(comparison.sets):
+    for s in comparison.sets:
         out += _set_cautions(s)
-        if probs is not None and se[i] > 0:
-            out.append(
-                f"{s.label}: its posterior probability {probs[i]:.3f} has Monte Carlo sd "
-                f"{fmt(se[i], 2)}, from the log marginal likelihoods'."
-            )
+    se = comparison.probability_mc_se
+    if se is not None and np.any(se > 0):
+        each = ", ".join(f"{s.label} {fmt(e, 2)}" for s, e in zip(comparison.sets, se, strict=True))
+        out.append(f"Monte Carlo sd of the posterior probabilities (from the log marginal "
+                   f"likelihoods'): {each}.")  # fmt: skip
     return out
 
 

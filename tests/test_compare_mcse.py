@@ -37,7 +37,7 @@ def test_probability_mcse_is_the_spread_of_the_softmax_of_noisy_log_evidences():
         assert s["log_bayes_factor_vs_best_mc_se"] == pytest.approx(b_se)
     # ln B of each set against the best (set 0): the two log evidences' errors combined
     assert c.log_bayes_factor_mc_se == pytest.approx([0.0, 0.02, np.hypot(0.02, 0.05)])
-    assert any("has Monte Carlo sd" in line for line in doc["cautions"])
+    assert any("Monte Carlo sd of the posterior probabilities" in line for line in doc["cautions"])
     # read back from compare.json: the same numbers
     assert Comparison.from_dict(doc).probability_mc_se == pytest.approx(c.probability_mc_se)
 
@@ -45,4 +45,6 @@ def test_probability_mcse_is_the_spread_of_the_softmax_of_noisy_log_evidences():
 def test_an_exact_comparison_has_no_monte_carlo_error():
     c = _comparison([-3.0, -4.0], [0.0, 0.0])
     assert np.all(c.probability_mc_se == 0.0)
-    assert not any("has Monte Carlo sd" in line for line in c.to_dict()["cautions"])
+    assert not any(
+        "Monte Carlo sd of the posterior probabilities" in line for line in c.to_dict()["cautions"]
+    )

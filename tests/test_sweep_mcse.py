@@ -243,3 +243,32 @@ def test_weighted_mcse_matches_arviz_and_the_spread_of_importance_sampling():
         errs.append(mix.cdf_mcse(np.array([1.0]))[0])
     assert np.mean(est) == pytest.approx(0.3085, abs=0.002)  # 1 - Phi(0.5), scipy.stats.norm
     assert np.std(est, ddof=1) == pytest.approx(np.mean(errs), rel=0.15)
+
+
+def test_the_command_line_takes_the_cap_on_the_draws(tmp_path):
+    import json
+
+    from click.testing import CliRunner
+
+    from bayes.cli.app import main
+
+    # Invented data and a Laplace prior: a sampled sweep, cut small.
+    rng = np.random.default_rng(9)
+    x = np.linspace(0, 1, 10)
+    rows = "\n".join(f"{a:.3f},{2 + a + 0.3 * rng.standard_normal():.3f}" for a in x)
+    (tmp_path / "d.csv").write_text("x,y\n" + rows + "\n")
+    (tmp_path / "p.toml").write_text(
+        '[study]\nresponse = "y"\n\n[noise]\nsd = 0.3\n\n[[coefficient]]\nname = "x"\n'
+        'family = "laplace"\ncenter = 0.0\nscale = 1.0\n'
+    )
+    base = ["sweep", str(tmp_path / "d.csv"), "--priors", str(tmp_path / "p.toml"),
+            "--factors", "3", "--no-family-swap", "--chains", "2", "--draws", "150",
+            "--warmup", "20"]  # fmt: skip
+    out = CliRunner().invoke(main, [*base, "--max-draws", "150", "--format", "json"])
+    assert out.exit_code == 0, out.output
+    doc = json.loads(out.output)
+    assert doc["max_draws"] == 150 and doc["method"] == "sampled"
+    k = doc["coefficients"][1]["conclusions"][0]
+    assert k["at_stated_mcse"] >= 0 and k["draws_at_stated"] == 300
+    bad = CliRunner().invoke(main, [*base, "--max-draws", "5"])
+    assert bad.exit_code == 2 and "--max-draws" in bad.output

@@ -10,7 +10,9 @@ so means, intervals and conclusion probabilities are smooth functions of the
 factor between sampled points, which lets flip points be found by root finding.
 Values whose importance weights leave fewer than :data:`MIN_ESS` effective draws
 are left out; the sampler's own effective sample size (arviz, smallest over the
-coefficients) is reported per sampled factor.
+coefficients) is reported per sampled factor. Every value carries its Monte Carlo standard
+error (:class:`WeightedDraws`); :meth:`SampledEngine.refine` adds chains at the stated priors
+when a conclusion there is too close to its level to call.
 """
 
 from __future__ import annotations

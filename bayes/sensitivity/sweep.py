@@ -17,10 +17,14 @@ each coefficient's posterior mean and interval along it. From the sweep it draws
   (:mod:`bayes.sensitivity.family_swap`).
 
 Gaussian priors: :mod:`bayes.sensitivity.gaussian`, exact at every factor. Laplace and
-Student-t priors: :mod:`bayes.sensitivity.sampled`. The grid and the thresholds:
-:mod:`bayes.sensitivity.grid`; which priors are widened and their flat-prior limit:
-:mod:`bayes.sensitivity.priors`; the result: :mod:`bayes.sensitivity.result`, its words:
-:mod:`bayes.sensitivity.wording`.
+Student-t priors: :mod:`bayes.sensitivity.sampled`, every probability and interval end with its
+Monte Carlo standard error (MCSE), sampled until decided: while a conclusion's probability at
+the stated priors lies within ``DECIDE_MCSE`` (3) MCSE of its level, the stated priors are
+sampled again in rounds that double the draws (``SampledEngine.refine``), up to the settings'
+``max_draws`` per chain; a conclusion still that close is undecided at this precision. The
+grid and the thresholds: :mod:`bayes.sensitivity.grid`; which priors are widened and their
+flat-prior limit: :mod:`bayes.sensitivity.priors`; the result:
+:mod:`bayes.sensitivity.result`, its words: :mod:`bayes.sensitivity.wording`.
 """
 
 from __future__ import annotations
@@ -90,7 +94,7 @@ def sweep(
         non-normal readings are sampled).
     sampler : SamplerSettings
         Chains, draws, warm-up and seed for the sampled parts (non-Gaussian priors, the
-        family swap).
+        family swap), and ``max_draws``, the cap on the rounds that decide a conclusion.
 
     Returns
     -------

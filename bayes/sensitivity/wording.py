@@ -149,10 +149,8 @@ def status(c) -> str:
     return "flips"
 
 
-def _probability(p: float, se: float) -> str | None:
-    """A probability with its Monte Carlo standard error when it has one (None for nan)."""
-    if np.isnan(p):
-        return None
+def _probability(p: float, se: float) -> str:
+    """A probability with its Monte Carlo standard error when it has one."""
     return f"{p:.3f}" + (f", Monte Carlo se {se:.2g}" if se > 0 else "")
 
 
@@ -182,22 +180,22 @@ def conclusion_sentence(c) -> str:
                 f"{_probability(c.stated, c.stated_mcse)}, within {DECIDE_MCSE:g} se of "
                 f"{level:g}, after {c.draws} draws"
                 + (f"; about {settle} draws would settle it." if settle else "."))  # fmt: skip
-    flat = _probability(flat, 0.0 if c.mcse is None else c.mcse[-1])
+    flat_text = _probability(flat, 0.0 if c.mcse is None else c.mcse[-1])
     if c.holds():
         if c.narrower is None and c.wider is None:
             s = (f"{head} holds over the whole grid (priors {times(1 / lo)} times narrower "
                  f"to {times(hi)} times wider than stated)")  # fmt: skip
-            if flat is None:
+            if np.isnan(flat):
                 return s + "."
-            if c.probability[-1] >= level:
+            if flat >= level:
                 return s + " and with flat priors."
-            return s + (f" but not with flat priors (probability {flat}): it rests on the "
+            return s + (f" but not with flat priors (probability {flat_text}): it rests on the "
                         "experts' priors.")  # fmt: skip
         if c.wider is None:
             s = (f"{head} holds unless the priors are made {times(1 / c.narrower)} times "
                  f"narrower{_range(c.narrower_range, True)} than stated")  # fmt: skip
-            if flat is not None and c.probability[-1] < level:
-                s += f" (and it does not hold with flat priors: probability {flat})"
+            if not np.isnan(flat) and flat < level:
+                s += f" (and it does not hold with flat priors: probability {flat_text})"
             return s + "."
         if c.narrower is None:
             return (f"{head} holds unless the priors are made {times(c.wider)} times wider"
@@ -218,7 +216,7 @@ def conclusion_sentence(c) -> str:
                     f"{_range(c.narrower_range, True)}")  # fmt: skip
     if c.wider is not None:
         ways.append(f"with priors {times(c.wider)} times wider{_range(c.wider_range)}")
-    elif flat is not None and c.probability[-1] >= level:
+    elif not np.isnan(flat) and flat >= level:
         ways.append("with flat priors")
     if ways:
         return s + "; it would hold " + " or ".join(ways) + "."
