@@ -9,9 +9,9 @@ of it).
 
 Sampled sweeps: each probability carries its Monte Carlo standard error (MCSE, from the
 chains' effective sample sizes and the importance weights,
-:func:`bayes.engine.diagnostics.weighted_mean_mcse`), and each flip factor a range: the
-factors nearest to it where the probability crosses the level plus and minus
-:data:`bayes.settings.FLIP_MCSE` times its MCSE at the flip.
+:func:`bayes.engine.diagnostics.weighted_mean_mcse`), and each flip factor a range
+(:func:`flip_range`): the factors nearest to it where the probability crosses the level plus
+and minus ``FLIP_MCSE`` (2, :mod:`bayes.settings`) times its MCSE at the flip.
 """
 
 from __future__ import annotations
@@ -22,7 +22,7 @@ import numpy as np
 from scipy import optimize
 
 from bayes.sensitivity.result import Conclusion
-from bayes.sensitivity.sampled import mcse_of
+from bayes.sensitivity.sampled import MIN_ESS, mcse_of
 from bayes.settings import FLIP_MCSE
 
 
@@ -37,26 +37,27 @@ def probability_mcse(mix, j: int, value: float) -> float:
     return float(mcse_of(mix, "cdf", np.full(mix.k, value))[j])
 
 
-def _root(engine, j, op, value, target, f_in, f_out) -> float:
-    """Root in log factor of P(conclusion) - target between two factors."""
-
-    def g(lf: float) -> float:
-        return probability(engine.at(math.exp(lf)), j, op, value) - target
-
-    return float(math.exp(optimize.brentq(g, math.log(f_in), math.log(f_out), xtol=1e-12)))
+def _root(p, target: float, f_in: float, f_out: float) -> float:
+    """Root in log factor of ``p(f) - target`` between two factors (Brent's method)."""
+    return float(math.exp(optimize.brentq(lambda lf: p(math.exp(lf)) - target, math.log(f_in),
+                                          math.log(f_out), xtol=1e-12)))  # fmt: skip
 
 
 def _follow(engine, factors, probs, j, op, value, level) -> tuple[float | None, float | None]:
     """Nearest crossings of the level below and above factor 1 (None: no crossing)."""
     i1 = int(np.flatnonzero(factors == 1.0)[0])
     state = probs[i1] >= level
+
+    def p(f: float) -> float:
+        return probability(engine.at(f), j, op, value)
+
     found = []
     for step in (-1, 1):
         hit = None
         i = i1
         while 0 <= i + step < len(factors):
             if (probs[i + step] >= level) != state and np.isfinite(probs[i + step]):
-                hit = _root(engine, j, op, value, level, factors[i], factors[i + step])
+                hit = _root(p, level, factors[i], factors[i + step])
                 break
             if not np.isfinite(probs[i + step]):
                 break
@@ -65,44 +66,75 @@ def _follow(engine, factors, probs, j, op, value, level) -> tuple[float | None, 
     return found[0], found[1]
 
 
-def _nearest_root(engine, factors, probs, j, op, value, target, flip) -> float | None:
-    """The crossing of ``target`` nearest to the factor ``flip`` (in log factor), searching
-    outward from it over the grid; None when there is none on the grid."""
-    values = dict(zip((float(f) for f in factors), probs, strict=True))
-    values[flip] = probability(engine.at(flip), j, op, value)
+def _nearest_roots(p, factors, flip: float, targets) -> list[float | None]:
+    """For each target, the crossing of ``p(f) = target`` nearest to ``flip`` (in log factor),
+    searched outward from it over the grid while ``p`` is finite; None when there is none."""
+    values = {float(f): p(float(f)) for f in factors}
+    values[flip] = p(flip)
     points = sorted(values)
     i0 = points.index(flip)
-    best = None
-    for step in (-1, 1):
-        i = i0
-        while 0 <= i + step < len(points) and np.isfinite(values[points[i + step]]):
-            a, b = points[i], points[i + step]
-            if (values[a] - target) * (values[b] - target) <= 0:
-                root = a if values[a] == target else _root(engine, j, op, value, target, a, b)
-                if best is None or abs(math.log(root / flip)) < abs(math.log(best / flip)):
-                    best = root
-                break
-            i += step
-    return best
+    out = []
+    for target in targets:
+        best = None
+        for step in (-1, 1):
+            i = i0
+            while 0 <= i + step < len(points):
+                a, b = points[i], points[i + step]
+                if not (np.isfinite(values[a]) and np.isfinite(values[b])):
+                    break
+                if (values[a] - target) * (values[b] - target) <= 0:
+                    root = a if values[a] == target else _root(p, target, a, b)
+                    if best is None or abs(math.log(root / flip)) < abs(math.log(best / flip)):
+                        best = root
+                    break
+                i += step
+        out.append(best)
+    return out
 
 
-def flip_range(engine, factors, probs, j, op, value, level, flip) -> tuple | None:
-    """The factors around a flip where the probability lies within :data:`bayes.settings.FLIP_MCSE`
-    Monte Carlo standard errors (its error at the flip) of the level.
+def flip_range(engine, factors, j, op, value, level, flip, rising: bool) -> tuple | None:
+    """The factors around a flip where the probability lies within ``FLIP_MCSE`` Monte Carlo
+    standard errors of the level (:mod:`bayes.settings`).
 
-    Returns ``(low, high)``, an end None when the band reaches past the grid; ``(flip,
-    flip)`` when the probability is exact; None when there is no flip.
+    The probability is followed from the draws of each of the two sampled factors nearest to
+    the flip (:meth:`SampledEngine.sources`), each with its own MCSE at the flip, and the
+    range holds every crossing of level -+ ``FLIP_MCSE`` MCSE found: the nearest run's values
+    jump where the next run takes over, and a flip found at that jump has both runs' errors.
+
+    Parameters
+    ----------
+    rising : bool
+        Whether the probability rises with the factor at the flip (then level + 2 MCSE is
+        crossed above it, level - 2 MCSE below).
+
+    Returns
+    -------
+    (low, high) or None
+        An end None when no run finds its crossing (past the grid, or past the factors the
+        draws reach with enough effective draws); ``(flip, flip)`` when the probability is
+        exact; None when there is no flip.
     """
     if flip is None:
         return None
-    s = probability_mcse(engine.at(flip), j, value)
-    if not s > 0:
+    if not probability_mcse(engine.at(flip), j, value) > 0:
         return (flip, flip)
-    roots = [_nearest_root(engine, factors, probs, j, op, value, level + sign * FLIP_MCSE * s,
-                           flip) for sign in (-1, 1)]  # fmt: skip
-    below = [r for r in roots if r is not None and r <= flip]
-    above = [r for r in roots if r is not None and r >= flip]
-    return (min(below) if below else None, max(above) if above else None)
+    below, above = [], []  # the crossings found on either side
+    for source in engine.sources(flip):
+        here = engine.at(flip, source)
+        if here.ess < MIN_ESS:
+            continue
+        s = FLIP_MCSE * probability_mcse(here, j, value)
+
+        def p(f: float, source=source) -> float:
+            m = engine.at(f, source)
+            return probability(m, j, op, value) if m.ess >= MIN_ESS else math.nan
+
+        up, down = _nearest_roots(p, factors, flip, (level + s, level - s))
+        for root, side in ((up, rising), (down, not rising)):
+            if root is not None:  # a run whose draws do not reach that far says nothing
+                (above if side else below).append(root)
+    roots = below + above
+    return (min([flip, *roots]) if below else None, max([flip, *roots]) if above else None)
 
 
 def follow_conclusions(
@@ -151,8 +183,9 @@ def follow_conclusions(
     out = []
     for j, kind, op, value, probs, errs in targets:
         narrower, wider = _follow(engine, factors, probs[:-1], j, op, value, level)
-        ranges = [flip_range(engine, factors, probs[:-1], j, op, value, level, f)
-                  for f in (narrower, wider)]  # fmt: skip
+        held = bool(probs[i1] >= level)  # below 1 the probability rises to it if it holds there
+        ranges = [flip_range(engine, factors, j, op, value, level, f, rising)
+                  for f, rising in ((narrower, held), (wider, not held))]  # fmt: skip
         out.append(Conclusion(names[j], kind, op, value, response, probs, float(probs[i1]),
                               narrower, wider, level, span, errs, float(errs[i1]), draws,
                               *ranges))  # fmt: skip

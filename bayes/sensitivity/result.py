@@ -55,7 +55,7 @@ class Conclusion:
     narrower_range, wider_range : (float or None, float or None) or None
         Around each flip factor, the factors where the probability crosses the level plus
         and minus 2 MCSE (:data:`bayes.settings.FLIP_MCSE`); an end None when
-        that band reaches past the grid; None when there is no flip (or it is not known).
+        that band is not found on the grid; None when there is no flip (or it is not known).
     """
 
     name: str

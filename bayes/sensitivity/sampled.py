@@ -294,10 +294,13 @@ class SampledEngine:
 
     def draws_at(self, f: float) -> int:
         """The draws behind the values at factor ``f`` (those of its nearest sampled factor)."""
-        return len(self.runs[self._nearest(f)][0])
+        return len(self.runs[self.sources(f)[0]][0])
 
-    def _nearest(self, f: float) -> float:
-        return float(self.sampled[np.argmin(np.abs(np.log(self.sampled) - math.log(f)))])
+    def sources(self, f: float) -> list[float]:
+        """The sampled factors nearest to ``f`` (in log factor), the nearest first: the one
+        whose draws give the values at ``f`` and the next, which can give them too."""
+        order = np.argsort(np.abs(np.log(self.sampled) - math.log(f)), kind="stable")
+        return [float(self.sampled[i]) for i in order[:2]]
 
     def prior_at(self, f: float) -> ScaledPrior:
         """The scaled prior with the swept priors ``f`` times as wide (cached)."""
@@ -311,9 +314,10 @@ class SampledEngine:
             self._priors_at[f] = scaled_prior(self.factor, rescaled)
         return self._priors_at[f]
 
-    def at(self, f: float) -> WeightedDraws:
-        """The draws of the nearest sampled factor, importance-weighted to factor ``f``."""
-        fs = self._nearest(f)
+    def at(self, f: float, source: float | None = None) -> WeightedDraws:
+        """The draws of the nearest sampled factor (or of the sampled factor ``source``),
+        importance-weighted to factor ``f``."""
+        fs = self.sources(f)[0] if source is None else source
         gamma, _, nat, lp = self.runs[fs]
         if f == fs:
             return WeightedDraws(nat, np.full(len(nat), 1.0 / len(nat)), self.chains[fs])

@@ -164,7 +164,7 @@ def _range(r, narrower: bool = False) -> str:
     ends = [None if f is None else (1 / f if narrower else f) for f in r]
     if narrower:
         ends.reverse()
-    lo, hi = ("past the grid" if x is None else times(x) for x in ends)
+    lo, hi = ("past the computed factors" if x is None else times(x) for x in ends)
     return f" (Monte Carlo range {lo} to {hi})"
 
 
