@@ -256,7 +256,7 @@ def _run_chain(model: _Model, rng, draws: int, warmup: int, tick: Callable[[int]
             raise InputError(
                 f"Gibbs sampler: the draws stopped being finite at sweep {it + 1}"
                 f"{' (warm-up)' if it < warmup else ''}: the priors' scales or the data's "
-                "values are too extreme to sample; rescale the data or narrow the priors"
+                "values are too extreme to sample; rescale the data or use less extreme scales"
             )
         if it >= warmup:
             gamma_out[it - warmup] = gamma
