@@ -4,7 +4,9 @@ Every set is fitted to the same design. The log marginal likelihoods give Bayes
 factors and the posterior probabilities of the sets under equal prior odds, read
 on the scale of Kass and Raftery (1995); the leave-one-out predictive densities
 (:mod:`bayes.engine.loo`) compare the sets by how well they predict each row from
-the others, which depends much less on the prior widths.
+the others, which depends much less on the prior widths. For sampled sets the posterior
+probabilities and log Bayes factors carry Monte Carlo standard errors, from those of the log
+evidences (bridge sampling).
 """
 
 from __future__ import annotations
@@ -123,8 +125,15 @@ class SetResult:
             doc["r_hat_max"],
         )  # fmt: skip
 
-    def to_dict(self, probability: float | None, log_bayes_factor: float | None) -> dict:
-        """Its object in ``compare.json``, given what the comparison says of it."""
+    def to_dict(
+        self,
+        probability: float | None,
+        log_bayes_factor: float | None,
+        probability_mc_se: float | None = None,
+        log_bayes_factor_mc_se: float | None = None,
+    ) -> dict:
+        """Its object in ``compare.json``, given what the comparison says of it (the Monte
+        Carlo standard errors beside the values they belong to)."""
         return {
             "path": self.path,
             "title": self.title,
@@ -133,7 +142,9 @@ class SetResult:
             "log_marginal_likelihood_mc_se": self.evidence.mc_se,
             "evidence_method": self.evidence.method,
             "posterior_probability": probability,
+            "posterior_probability_mc_se": probability_mc_se,
             "log_bayes_factor_vs_best": log_bayes_factor,
+            "log_bayes_factor_vs_best_mc_se": log_bayes_factor_mc_se,
             "elpd_loo": self.loo.elpd,
             "elpd_loo_se": _finite(self.loo.se),
             "p_loo": self.loo.p_loo,
@@ -187,6 +198,30 @@ class Comparison:
         return np.exp(z) / np.sum(np.exp(z))
 
     @property
+    def probability_mc_se(self) -> np.ndarray | None:
+        """Monte Carlo standard errors of :attr:`probabilities`, from those of the log
+        evidences (independent between sets) by the delta method: with ``p_i`` the softmax
+        of the log evidences ``l``, ``dp_i / dl_j = p_i (delta_ij - p_j)``, so
+        ``var p_i = sum_j p_i^2 (delta_ij - p_j)^2 se_j^2``. 0 when every set is exact."""
+        probs = self.probabilities
+        if probs is None:
+            return None
+        se = np.array([s.evidence.mc_se for s in self.sets])
+        jac = probs[:, None] * (np.eye(len(probs)) - probs[None, :])
+        return np.sqrt((jac**2) @ se**2)
+
+    @property
+    def log_bayes_factor_mc_se(self) -> np.ndarray | None:
+        """Monte Carlo standard errors of :attr:`log_bayes_factors_vs_best`: the root sum of
+        squares of the two sets' (0 for the best set itself)."""
+        if not self.comparable:
+            return None
+        se = np.array([s.evidence.mc_se for s in self.sets])
+        out = np.hypot(se, se[self.best])
+        out[self.best] = 0.0
+        return out
+
+    @property
     def log_bayes_factors_vs_best(self) -> np.ndarray | None:
         """``ln B`` of each set against the set with the most evidence (None if not comparable)."""
         if not self.comparable:
@@ -214,11 +249,15 @@ class Comparison:
     def to_dict(self) -> dict:
         """One JSON-ready object (``bayes compare --format json``, ``compare.json``)."""
         probs, log_b = self.probabilities, self.log_bayes_factors_vs_best
+        probs_se, log_b_se = self.probability_mc_se, self.log_bayes_factor_mc_se
+
+        def item(a, i):
+            return None if a is None else float(a[i])
+
         sets = [
-            s.to_dict(None if probs is None else float(probs[i]),
-                      None if log_b is None else float(log_b[i]))
+            s.to_dict(item(probs, i), item(log_b, i), item(probs_se, i), item(log_b_se, i))
             for i, s in enumerate(self.sets)
-        ]  # fmt: skip
+        ]
         lml = self.log_ml
         return {
             "response": self.response,

@@ -8,6 +8,8 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from bayes.engine.diagnostics import R_HAT_MAX
 from bayes.results.format import fmt, format_table
 
@@ -82,6 +84,11 @@ def cautions(comparison) -> list[str]:
         )
     for s in comparison.sets:
         out += _set_cautions(s)
+    se = comparison.probability_mc_se
+    if se is not None and np.any(se > 0):
+        each = ", ".join(f"{s.label} {fmt(e, 2)}" for s, e in zip(comparison.sets, se, strict=True))
+        out.append(f"Monte Carlo sd of the posterior probabilities (from the log marginal "
+                   f"likelihoods'): {each}.")  # fmt: skip
     return out
 
 

@@ -10,6 +10,12 @@ from dataclasses import dataclass
 
 from bayes.errors import InputError
 
+# Sampled conclusions (the width sweep): a probability within DECIDE_MCSE Monte Carlo standard
+# errors of its level is sampled again (up to SamplerSettings.max_draws), and a flip factor's
+# range is where the probability lies within FLIP_MCSE of them of the level.
+DECIDE_MCSE = 3.0
+FLIP_MCSE = 2.0
+
 
 @dataclass(frozen=True)
 class SamplerSettings:
@@ -25,6 +31,13 @@ class SamplerSettings:
         Draws discarded at the start of each chain.
     seed : int, default 20261201
         Seed of the ``numpy.random.Generator``: the same seed gives the same numbers.
+    max_draws : int, default 16000
+        Cap on the draws per chain that a sampled width sweep may spend at the stated priors
+        when a conclusion's probability lies within 3 Monte Carlo standard errors of its level
+        (8 times the default ``draws``): each further round adds as many chains again, each
+        of ``draws`` draws, with new seeds derived from ``seed``, until the run holds
+        ``chains x max_draws`` draws. A conclusion still that close is then reported as
+        undecided at this precision. No further rounds when ``max_draws <= draws``.
 
     Examples
     --------
@@ -36,9 +49,10 @@ class SamplerSettings:
     draws: int = 2000
     warmup: int = 1000
     seed: int = 20261201
+    max_draws: int = 16000
 
     def __post_init__(self) -> None:
-        for name, low in (("chains", 1), ("draws", 10), ("warmup", 0)):
+        for name, low in (("chains", 1), ("draws", 10), ("warmup", 0), ("max_draws", 10)):
             value = getattr(self, name)
             if isinstance(value, bool) or not isinstance(value, int) or value < low:
                 raise InputError(f"{name} must be a whole number >= {low}, got {value!r}")

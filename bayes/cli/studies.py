@@ -17,7 +17,7 @@ from bayes.cli.options import (
     term_options,
 )
 from bayes.results.provenance import provenance
-from bayes.settings import SamplerSettings
+from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
 
 
 @click.command("report")
@@ -120,14 +120,18 @@ def compare_command(data, priors, response, predictors, formula, reference, drop
 @click.option("--family-swap/--no-family-swap", default=True, show_default=True,
               help="Also read the ranges as normal, Laplace and Student-t.")  # fmt: skip
 @sampler_settings_options
+@click.option("--max-draws", type=click.IntRange(10), default=DEFAULT_SAMPLER.max_draws,
+              show_default=True,
+              help="Most draws per chain at the stated priors when a sampled conclusion is "
+              "within 3 Monte Carlo se of its level (then: undecided).")  # fmt: skip
 @click.option("--save", "save_dir", type=click.Path(file_okay=False),
               help="Write FIT_DIR/sweep.json (read by bayes report).")  # fmt: skip
 @click.option("--plot", "plot_file", type=click.Path(dir_okay=False),
               help="Write the sweep chart (PNG, SVG or PDF).")  # fmt: skip
 def sweep_command(data, response, predictors, priors, formula, reference, drop_missing, level,
                   fmt, coefficients, expert, thresholds, n_factors, min_factor, max_factor,
-                  conclusion_level, family_swap, chains, draws, warmup, seed, save_dir,
-                  plot_file):  # fmt: skip
+                  conclusion_level, family_swap, chains, draws, warmup, seed, max_draws,
+                  save_dir, plot_file):  # fmt: skip
     """Sensitivity of the posterior to the prior widths: sweep, flips, conflict checks."""
     from bayes.api import load_priors
     from bayes.errors import InputError
@@ -146,7 +150,7 @@ def sweep_command(data, response, predictors, priors, formula, reference, drop_m
         design, prior_set, factors=default_factors(n_factors, min_factor, max_factor),
         columns=list(coefficients) or None, expert=expert, thresholds=thresholds, level=level,
         conclusion_level=conclusion_level, family_swap=family_swap,
-        sampler=SamplerSettings(chains, draws, warmup, seed),
+        sampler=SamplerSettings(chains, draws, warmup, seed, max_draws),
     )  # fmt: skip
     if save_dir:
         save_sweep(result, save_dir)

@@ -5,6 +5,7 @@ arviz is imported inside the functions so that the command line starts fast.
 
 from __future__ import annotations
 
+import math
 import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -169,3 +170,42 @@ def monte_carlo_errors(draws: np.ndarray, level: float | None = None) -> dict[st
         positive = az.convert_to_dataset({"beta": (draws > 0).astype(float)})
         out["mcse_p_positive"] = each(positive, method="mean")
     return out
+
+def weighted_mean_mcse(values: np.ndarray, weights: np.ndarray, chains: int) -> np.ndarray:
+    """Monte Carlo standard error of the weighted mean of Markov chain values, per column.
+
+    The self-normalised importance-sampling estimate ``sum_i w_i v_i`` (weights summing
+    to 1) is linearised (Owen 2013, *Monte Carlo theory, methods and examples*, section
+    9.2): its error is the mean of ``z_i = S w_i (v_i - sum_i w_i v_i)`` over the ``S``
+    draws, so the standard error is ``sqrt(mean(z^2) / ess(z))`` with ``ess`` the
+    effective sample size of the chains of ``z`` (arviz, ``method="mean"``). With equal
+    weights ``z_i = v_i - mean(v)`` and this is arviz's ``mcse(method="mean")``; for
+    independent draws it is ``sqrt(sum_i w_i^2 (v_i - mean)^2)``, the weighted effective
+    sample size's error.
+
+    Parameters
+    ----------
+    values : ndarray, shape (S,) or (S, m)
+        Chain-major: ``S = chains * draws``, the draws of chain ``c`` at ``c * draws``.
+    weights : ndarray, shape (S,)
+        Non-negative, summing to 1.
+    chains : int
+
+    Returns
+    -------
+    ndarray, shape () or (m,)
+        0 where the values are all equal.
+    """
+    az = _arviz()
+    v = np.asarray(values, dtype=float)
+    one = v.ndim == 1
+    v = v[:, None] if one else v
+    w = np.asarray(weights, dtype=float)
+    z = len(w) * w[:, None] * (v - w @ v)
+    out = np.zeros(v.shape[1])
+    for j in range(v.shape[1]):
+        if np.ptp(z[:, j]) == 0.0:
+            continue
+        ess = float(az.ess(z[:, j].reshape(chains, -1), method="mean"))
+        out[j] = math.sqrt(float(np.mean(z[:, j] ** 2)) / ess) if ess > 0 else math.inf
+    return out[0] if one else out

@@ -33,6 +33,7 @@ nothing changes between sweeps: the draws are independent, from one factorisatio
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -43,8 +44,11 @@ from bayes.arrays import ReadOnlyArrays
 from bayes.engine.labels import PriorState, mixed_prior_draws, mixed_rows
 from bayes.engine.likelihood import check_prior, data_rows, residual_ss
 from bayes.engine.mixture_prior import MixedCoordinate, proper_stand_in
+from bayes.errors import InputError
 from bayes.problem import DataFactor, ScaledPrior
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
+
+MAX_SWEEPS = 10_000_000  # sweeps per chain (warm-up + kept draws): a run never loops longer
 
 _geqrf, _geqrf_lwork, _trtrs = linalg.get_lapack_funcs(
     ("geqrf", "geqrf_lwork", "trtrs"), (np.empty((1, 1)),)
@@ -258,11 +262,18 @@ def _run_chain(model: _Model, rng, draws: int, warmup: int, tick: Callable[[int]
         s2 = max(f.tss, np.finfo(float).tiny) / max(f.n - 1, 1) * np.exp(rng.standard_normal())
     prec = _initial_mixing(model, rng)
     shape = noise.shape + f.n / 2
-    for it in range(warmup + draws):
+    for it in range(warmup + draws):  # bounded: sample() caps warmup + draws at MAX_SWEEPS
         gamma = draw_gamma(model, rng, np.sqrt(s2), prec)
         if not noise.known:
             s2 = (noise.scale + float(residual_ss(f, gamma)) / 2) / rng.gamma(shape)
         prec = _draw_mixing(model, rng, gamma)
+        # one sum catches any inf or nan (finite draws summing past 1e308 are no better)
+        if not math.isfinite(s2 + float(gamma.sum()) + float(prec.sum())):
+            raise InputError(
+                f"Gibbs sampler: the draws stopped being finite at sweep {it + 1}"
+                f"{' (warm-up)' if it < warmup else ''}: the priors' scales or the data's "
+                "values are too extreme to sample; rescale the data or use less extreme scales"
+            )
         if it >= warmup:
             gamma_out[it - warmup] = gamma
             sigma_out[it - warmup] = np.sqrt(s2)
@@ -345,8 +356,17 @@ def sample(
     Returns
     -------
     Draws
+
+    Raises
+    ------
+    InputError
+        When warm-up + draws exceed :data:`MAX_SWEEPS`, or when a sweep's draws stop being
+        finite (checked after every sweep, warm-up included: the run ends there).
     """
     chains, draws, warmup, seed = sampler.chains, sampler.draws, sampler.warmup, sampler.seed
+    if warmup + draws > MAX_SWEEPS:
+        raise InputError(f"Gibbs sampler: warm-up + draws must be at most {MAX_SWEEPS} sweeps "
+                         f"per chain, got {warmup} + {draws}")  # fmt: skip
     model = _model(factor, prior, mixed)
     total = chains * (warmup + draws)
     every = max(1, total // 200)

@@ -40,8 +40,8 @@ def sampled_posterior(
     names = factor.coefficient_names
     # Thousands of small factorisations per chain: bayes.api.fit_factor, the one caller, runs
     # this on one BLAS thread unless the problem is wide (bayes.threads).
+    mode = posterior_mode(factor, prior)  # first: cheap, and its errors say more
     d = sample(factor, prior, sampler, progress=progress)
-    mode = posterior_mode(factor, prior)
     nat = to_natural(factor, d.gamma)
     known = prior.noise.known
     post = DrawsPosterior(

@@ -71,7 +71,7 @@ def sweep_html(sweep) -> str:
 
 
 def sweep_repr(sweep) -> str:
-    held = sum(c.stated >= sweep.conclusion_level for c in sweep.conclusions)
+    held = sum(c.holds() for c in sweep.conclusions)  # an undecided one does not count
     return (
         f"<SweepResult {sweep.response!r}: {len(sweep.factors)} width factors, {sweep.method}, "
         f"{held} of {len(sweep.conclusions)} conclusions hold as stated>"

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from bayes.engine.scaled import scaled_prior
 from bayes.problem import DataFactor
-from bayes.sensitivity.sampled import marginals
+from bayes.sensitivity.sampled import marginals, mcse_of
 from bayes.sensitivity.wording import family_method, prior_label
 from bayes.settings import SamplerSettings
 
@@ -24,8 +24,9 @@ def family_swap(
     -------
     dict or None
         ``families``, how each was computed (``method``) and per coefficient each
-        family's prior, mean and interval at ``level``; None when no prior has a family
-        to swap.
+        family's prior, mean and interval at ``level``, each number with its Monte Carlo
+        standard error (``mean_mcse``, ``lower_mcse``, ``upper_mcse``; 0 when exact); None
+        when no prior has a family to swap.
     """
     if not any(c.family in FAMILIES for c in priors.coefficients):
         return None
@@ -36,6 +37,10 @@ def family_swap(
         read = priors.as_family(fam)
         sp = scaled_prior(factor, read)
         per[fam] = (read, marginals(factor, sp, sampler), family_method(sp.gaussian_only, sampler))
+    errors = {  # Monte Carlo standard errors of mean, lower, upper (0 for the exact reading)
+        fam: (mcse_of(mix, "mean"), mcse_of(mix, "quantile", a), mcse_of(mix, "quantile", 1 - a))
+        for fam, (_, mix, _) in per.items()
+    }
     rows = []
     for j, name in enumerate(names):
         row = {"name": name}
@@ -45,6 +50,9 @@ def family_swap(
                 "mean": float(mix.mean[j]),
                 "lower": float(mix.quantile(a)[j]),
                 "upper": float(mix.quantile(1 - a)[j]),
+                "mean_mcse": float(errors[fam][0][j]),
+                "lower_mcse": float(errors[fam][1][j]),
+                "upper_mcse": float(errors[fam][2][j]),
             }
         rows.append(row)
     return {"families": list(FAMILIES), "method": {f: v[2] for f, v in per.items()},

@@ -14,6 +14,10 @@ import numpy as np
 
 from bayes.arrays import freeze
 from bayes.sensitivity import wording
+from bayes.settings import DECIDE_MCSE
+
+MCSE_STATISTICS = ("mean", "lower", "upper", "p_positive")  # those given a Monte Carlo error
+_ERRORS = tuple(f"{key}_mcse" for key in MCSE_STATISTICS)
 
 
 @dataclass(frozen=True, eq=False)
@@ -41,6 +45,17 @@ class Conclusion:
         The probability the conclusion needs to hold (the sweep's ``conclusion_level``).
     span : (float, float)
         The grid's smallest and largest factor.
+    mcse : ndarray, shape (F + 1,) or None
+        Monte Carlo standard error of each probability (0 where exact; None: not known,
+        a sweep saved before it was kept, read as 0).
+    stated_mcse : float
+        That of the probability at the stated priors.
+    draws : int or None
+        The draws behind the probability at the stated priors (sampled sweeps).
+    narrower_range, wider_range : (float or None, float or None) or None
+        Around each flip factor, the factors where the probability crosses the level plus
+        and minus 2 MCSE (:data:`bayes.settings.FLIP_MCSE`); an end None when
+        that band is not found on the grid; None when there is no flip (or it is not known).
     """
 
     name: str
@@ -54,12 +69,36 @@ class Conclusion:
     wider: float | None
     level: float
     span: tuple[float, float]
+    mcse: np.ndarray | None = None
+    stated_mcse: float = 0.0
+    draws: int | None = None
+    narrower_range: tuple | None = None
+    wider_range: tuple | None = None
 
     def __post_init__(self) -> None:
-        freeze(self, "probability")
+        freeze(self, "probability", "mcse")
+
+    @property
+    def decided(self) -> bool:
+        """False while the stated probability lies within ``DECIDE_MCSE`` Monte Carlo standard
+        errors of the level (:mod:`bayes.settings`; never when exact): the sweep samples more,
+        and a conclusion still that close at the cap on the draws is undecided."""
+        return not abs(self.stated - self.level) < DECIDE_MCSE * self.stated_mcse
+
+    @property
+    def draws_to_settle(self) -> int | None:
+        """About how many draws in all would decide an undecided conclusion, were its
+        probability to stay put and its error to shrink as 1 / sqrt(draws); else None."""
+        gap = abs(self.stated - self.level)
+        if self.decided or self.draws is None or gap == 0:
+            return None
+        return int(math.ceil(self.draws * (DECIDE_MCSE * self.stated_mcse / gap) ** 2))
 
     def holds(self, level: float | None = None) -> bool:
-        """Whether the conclusion holds at the stated priors (at ``level``, default its own)."""
+        """Whether the conclusion holds at the stated priors (at ``level``, default its own;
+        False for an undecided one, which neither holds nor fails: see :attr:`decided`)."""
+        if level is None and not self.decided:
+            return False
         return self.stated >= (self.level if level is None else level)
 
     @property
@@ -78,6 +117,7 @@ class Conclusion:
 
     def to_dict(self) -> dict:
         flat = self.probability[-1]
+        mcse = np.zeros(len(self.probability)) if self.mcse is None else self.mcse
         return {
             "name": self.name,
             "kind": self.kind,
@@ -85,11 +125,19 @@ class Conclusion:
             "value": self.value,
             "statement": self.statement,
             "probability": _json_array(self.probability),
+            "probability_mcse": _json_array(mcse),
             "at_stated": self.stated,
-            "holds_at_stated": self.holds(),
+            "at_stated_mcse": self.stated_mcse,
+            "decided": self.decided,
+            "holds_at_stated": self.holds() if self.decided else None,
+            "draws_at_stated": self.draws,
+            "draws_to_settle": self.draws_to_settle,
             "narrower_flip": self.narrower,
+            "narrower_flip_range": _json_range(self.narrower_range),
             "wider_flip": self.wider,
+            "wider_flip_range": _json_range(self.wider_range),
             "flat_probability": None if np.isnan(flat) else float(flat),
+            "flat_probability_mcse": None if np.isnan(flat) else float(mcse[-1]),
             "holds_flat": None if np.isnan(flat) else bool(flat >= self.level),
             "status": self.status,
             "sentence": self.sentence,
@@ -116,6 +164,9 @@ class CoefficientSweep:
         The prior's share of the posterior precision at the stated priors.
     prior_interval : (float, float) or None
         Central interval of the stated prior at the sweep's credible level.
+    mean_mcse, lower_mcse, upper_mcse, p_positive_mcse : ndarray, shape (F + 1,) or None
+        Monte Carlo standard errors of ``mean``, ``lower``, ``upper`` and ``p_positive``
+        (0 where exact; None: a sweep saved before they were kept).
     """
 
     name: str
@@ -130,9 +181,13 @@ class CoefficientSweep:
     variance_ratio: float | None
     prior_share: float | None
     prior_interval: tuple[float, float] | None = None
+    mean_mcse: np.ndarray | None = None
+    lower_mcse: np.ndarray | None = None
+    upper_mcse: np.ndarray | None = None
+    p_positive_mcse: np.ndarray | None = None
 
     def __post_init__(self) -> None:
-        freeze(self, "mean", "sd", "lower", "upper", "p_positive", "mode")
+        freeze(self, "mean", "sd", "lower", "upper", "p_positive", "mode", *_ERRORS)
 
 
 @dataclass(frozen=True, eq=False)
@@ -202,6 +257,13 @@ class SweepResult:
         factors = np.array([f for f in doc["factors"] if f is not None], dtype=float)
         span = (float(factors[0]), float(factors[-1]))
         coefficients, conclusions = [], []
+
+        def optional(values) -> np.ndarray | None:  # absent from sweeps saved before
+            return None if values is None else arr(values)
+
+        def pair(values) -> tuple | None:
+            return None if values is None else tuple(values)
+
         for row in doc["coefficients"]:
             interval = row.get("prior_interval")
             coefficients.append(CoefficientSweep(
@@ -210,12 +272,16 @@ class SweepResult:
                 arr(row["mode"]) if row.get("mode") is not None else None,
                 row.get("variance_ratio"), row.get("prior_share"),
                 None if interval is None else (float(interval[0]), float(interval[1])),
+                *(optional(row.get(f"{key}_mcse")) for key in MCSE_STATISTICS),
             ))  # fmt: skip
             for k in row.get("conclusions", ()):
                 conclusions.append((k["sentence"], Conclusion(
                     k["name"], k["kind"], k["op"], float(k["value"]), doc["response"],
                     arr(k["probability"]), float(k["at_stated"]), k["narrower_flip"],
                     k["wider_flip"], doc["conclusion_level"], span,
+                    optional(k.get("probability_mcse")), float(k.get("at_stated_mcse") or 0.0),
+                    k.get("draws_at_stated"), pair(k.get("narrower_flip_range")),
+                    pair(k.get("wider_flip_range")),
                 )))  # fmt: skip
         order = {s: i for i, s in reversed(list(enumerate(doc["headline"])))}
         conclusions.sort(key=lambda pair: order.get(pair[0], len(order)))
@@ -254,6 +320,11 @@ class SweepResult:
                 "variance_ratio": c.variance_ratio,
                 "prior_share": c.prior_share,
                 "prior_interval": None if c.prior_interval is None else list(c.prior_interval),
+                **{
+                    f"{key}_mcse": _json_array(getattr(c, f"{key}_mcse"))
+                    for key in MCSE_STATISTICS
+                    if getattr(c, f"{key}_mcse") is not None
+                },
                 "conclusions": [k.to_dict() for k in mine],
                 "flip_factors": sorted(
                     f for k in mine for f in (k.narrower, k.wider) if f is not None
@@ -301,6 +372,10 @@ _FIELDS = (
     "family_swap",
     "notes",
 )  # the keys of SweepResult.to_dict other than the engine's extras
+
+
+def _json_range(r: tuple | None) -> list | None:
+    return None if r is None else [None if x is None else float(x) for x in r]
 
 
 def _json_array(a: np.ndarray) -> list:

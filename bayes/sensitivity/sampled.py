@@ -10,13 +10,16 @@ so means, intervals and conclusion probabilities are smooth functions of the
 factor between sampled points, which lets flip points be found by root finding.
 Values whose importance weights leave fewer than :data:`MIN_ESS` effective draws
 are left out; the sampler's own effective sample size (arviz, smallest over the
-coefficients) is reported per sampled factor.
+coefficients) is reported per sampled factor. Every value carries its Monte Carlo standard
+error (:class:`WeightedDraws`); :meth:`SampledEngine.refine` adds chains at the stated priors
+when a conclusion there is too close to its level to call.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 from scipy import stats
@@ -48,15 +51,25 @@ class WeightedDraws:
 
     Same methods as :class:`bayes.engine.widths.CoefficientMixtures`.
 
+    The Monte Carlo standard errors (``*_mcse``) are those of the weighted means of
+    :func:`bayes.engine.diagnostics.weighted_mean_mcse`, from the chains' effective sample
+    sizes; a quantile's is read off the weighted quantile function at ``q`` plus and minus
+    the standard error of the weighted distribution function there (arviz's
+    ``mcse(method="quantile")`` does the same with a beta interval on the ranks).
+
     Attributes
     ----------
     draws : ndarray, shape (S, k)
+        Chain-major (``S = chains * draws per chain``).
     weights : ndarray, shape (S,)
         Non-negative, summing to 1.
+    chains : int
+        The Markov chains the draws came from, for the effective sample sizes.
     """
 
     draws: np.ndarray
     weights: np.ndarray
+    chains: int = 1
 
     def __post_init__(self) -> None:
         freeze(self, "draws", "weights")
@@ -70,7 +83,7 @@ class WeightedDraws:
 
         out = sample(factor, prior, sampler)
         nat = to_natural(factor, out.gamma.reshape(-1, factor.k))
-        return cls(nat, np.full(len(nat), 1.0 / len(nat)))
+        return cls(nat, np.full(len(nat), 1.0 / len(nat)), sampler.chains)
 
     @property
     def k(self) -> int:
@@ -95,13 +108,63 @@ class WeightedDraws:
     def sf(self, x: np.ndarray) -> np.ndarray:
         return self.weights @ (self.draws > np.asarray(x, dtype=float))
 
-    def quantile(self, q: float) -> np.ndarray:
-        """Weighted q-quantile per coefficient (interpolated between draws)."""
+    @cached_property
+    def _ranked(self) -> tuple[np.ndarray, np.ndarray]:
+        """Each coefficient's draws sorted, and the weight below each (its mid-point)."""
         order = np.argsort(self.draws, axis=0)
         xs = np.take_along_axis(self.draws, order, axis=0)
         w = self.weights[order]
-        mid = np.cumsum(w, axis=0) - w / 2
+        return xs, np.cumsum(w, axis=0) - w / 2
+
+    def quantile(self, q: float) -> np.ndarray:
+        """Weighted q-quantile per coefficient (interpolated between draws)."""
+        xs, mid = self._ranked
         return np.array([np.interp(q, mid[:, j], xs[:, j]) for j in range(self.k)])
+
+    @property
+    def size(self) -> int:
+        """The number of draws behind the values (all chains)."""
+        return len(self.weights)
+
+    def mcse_of(self, values: np.ndarray) -> np.ndarray:
+        """Monte Carlo standard error of the weighted mean of ``values`` (S,) or (S, m)."""
+        from bayes.engine.diagnostics import weighted_mean_mcse
+
+        return weighted_mean_mcse(values, self.weights, self.chains)
+
+    @property
+    def mean_mcse(self) -> np.ndarray:
+        return self.mcse_of(self.draws)
+
+    def cdf_mcse(self, x: np.ndarray) -> np.ndarray:
+        """Monte Carlo standard error of :meth:`cdf` (and of :meth:`sf`) at ``x``."""
+        return self.mcse_of((self.draws <= np.asarray(x, dtype=float)).astype(float))
+
+    def quantile_mcse(self, q: float) -> np.ndarray:
+        """Monte Carlo standard error of :meth:`quantile`: half the spread of the weighted
+        quantiles at ``q -+ s``, ``s`` the standard error of the distribution function at
+        the q-quantile."""
+        s = self.cdf_mcse(self.quantile(q))
+        xs, mid = self._ranked
+        ends = [np.interp([q - s[j], q + s[j]], mid[:, j], xs[:, j]) for j in range(self.k)]
+        return np.array([(hi - lo) / 2 for lo, hi in ends])
+
+
+def mcse_of(mix, statistic: str, arg=None) -> np.ndarray:
+    """The Monte Carlo standard error of ``mix``'s ``statistic`` ("mean", "cdf" at ``arg``,
+    "quantile" at ``arg``) per coefficient: 0 for exact marginals (no draws)."""
+    if not isinstance(mix, WeightedDraws):
+        return np.zeros(mix.k)
+    if statistic == "mean":
+        return mix.mean_mcse
+    return mix.cdf_mcse(arg) if statistic == "cdf" else mix.quantile_mcse(arg)
+
+
+def round_seed(seed: int, round_: int) -> int:
+    """The seed of the ``round_``-th further round of sampling: 63 bits of the state of
+    ``numpy.random.SeedSequence((seed mod 2^64, round_))``, the same for the same settings."""
+    state = np.random.SeedSequence((seed % 2**64, round_)).generate_state(1, np.uint64)
+    return int(state[0] >> np.uint64(1))
 
 
 def marginals(
@@ -168,21 +231,10 @@ class SampledEngine:
         targets = np.linspace(lg[0], lg[-1], SAMPLED)
         targets[np.argmin(np.abs(targets))] = 0.0
         self.sampled = np.unique([grid[np.argmin(np.abs(lg - t))] for t in targets])
-        self.runs = {}
-        chain_ess = []
-        import arviz
-
-        from bayes.engine.gibbs import sample
-
-        for fs in self.sampled:
-            out = sample(factor, self.prior_at(fs), sampler)
-            nat_chains = to_natural(factor, out.gamma)
-            ess = [float(arviz.ess(nat_chains[:, :, j])) for j in range(k)]
-            chain_ess.append(min(ess) if sampler.chains > 1 or sampler.draws > 3 else float("nan"))
-            gamma = out.gamma.reshape(-1, k)
-            self.runs[float(fs)] = (gamma, out.sigma.reshape(-1), to_natural(factor, gamma),
-                                    log_prior_density(self.prior_at(fs), gamma))  # fmt: skip
-        self.sampler = sampler
+        self.runs: dict[float, tuple] = {}
+        self.chains: dict[float, int] = {}
+        self.sampler, self.rounds = sampler, 0
+        chain_ess = [self._sample(float(fs), sampler) for fs in self.sampled]
         self.detail = sampled_detail(self.sampled, sampler)
         limit = scaled_prior(factor, flat_limit(priors, columns=columns, expert=expert))
         try:
@@ -191,9 +243,64 @@ class SampledEngine:
             pass
         self.modes = modes
         self._limit = limit
-        self.notes = (sampled_note(MIN_ESS),)
+        self.notes = (sampled_note(MIN_ESS, sampler.max_draws),)
         self.extra = {"sampled_factors": [float(f) for f in self.sampled],
                       "sampler_ess": chain_ess}  # fmt: skip
+
+    def _sample(self, fs: float, sampler: SamplerSettings) -> float:
+        """Sample at factor ``fs`` (added to its draws so far); the smallest chain ESS."""
+        import arviz
+
+        from bayes.engine.gibbs import sample
+
+        k = self.factor.k
+        out = sample(self.factor, self.prior_at(fs), sampler)
+        gamma = out.gamma.reshape(-1, k)
+        sigma = out.sigma.reshape(-1)
+        if fs in self.runs:  # a further round: its chains follow the earlier ones
+            gamma = np.concatenate([self.runs[fs][0], gamma])
+            sigma = np.concatenate([self.runs[fs][1], sigma])
+        self.chains[fs] = self.chains.get(fs, 0) + sampler.chains
+        self.runs[fs] = (gamma, sigma, to_natural(self.factor, gamma),
+                         log_prior_density(self.prior_at(fs), gamma))  # fmt: skip
+        nat_chains = self.runs[fs][2].reshape(self.chains[fs], -1, k)
+        if self.chains[fs] == 1 and nat_chains.shape[1] <= 3:
+            return float("nan")
+        return min(float(arviz.ess(nat_chains[:, :, j])) for j in range(k))
+
+    def refine(self) -> bool:
+        """One more round at the stated priors: as many chains again as there are (each of
+        ``sampler.draws`` draws), up to ``sampler.chains * sampler.max_draws`` draws in all.
+
+        The round's seed is derived from the settings' seed and the round's number
+        (:func:`round_seed`). False when the cap is reached and nothing was added.
+        """
+        s = self.sampler
+        have = self.chains[1.0]
+        cap = -(-s.chains * s.max_draws // s.draws)  # chains of `draws` draws the cap allows
+        more = min(have, cap - have)
+        if more <= 0:
+            return False
+        self.rounds += 1
+        settings = SamplerSettings(more, s.draws, s.warmup, round_seed(s.seed, self.rounds),
+                                   s.max_draws)  # fmt: skip
+        ess = self._sample(1.0, settings)
+        i = self.extra["sampled_factors"].index(1.0)
+        self.extra["sampler_ess"][i] = ess
+        self.extra["rounds_at_stated"] = self.rounds
+        self.extra["draws_at_stated"] = len(self.runs[1.0][0])
+        self.detail = sampled_detail(self.sampled, s, self.chains[1.0], self.rounds)
+        return True
+
+    def draws_at(self, f: float) -> int:
+        """The draws behind the values at factor ``f`` (those of its nearest sampled factor)."""
+        return len(self.runs[self.sources(f)[0]][0])
+
+    def sources(self, f: float) -> list[float]:
+        """The sampled factors nearest to ``f`` (in log factor), the nearest first: the one
+        whose draws give the values at ``f`` and the next, which can give them too."""
+        order = np.argsort(np.abs(np.log(self.sampled) - math.log(f)), kind="stable")
+        return [float(self.sampled[i]) for i in order[:2]]
 
     def prior_at(self, f: float) -> ScaledPrior:
         """The scaled prior with the swept priors ``f`` times as wide (cached)."""
@@ -207,15 +314,16 @@ class SampledEngine:
             self._priors_at[f] = scaled_prior(self.factor, rescaled)
         return self._priors_at[f]
 
-    def at(self, f: float) -> WeightedDraws:
-        """The draws of the nearest sampled factor, importance-weighted to factor ``f``."""
-        fs = float(self.sampled[np.argmin(np.abs(np.log(self.sampled) - math.log(f)))])
+    def at(self, f: float, source: float | None = None) -> WeightedDraws:
+        """The draws of the nearest sampled factor (or of the sampled factor ``source``),
+        importance-weighted to factor ``f``."""
+        fs = self.sources(f)[0] if source is None else source
         gamma, _, nat, lp = self.runs[fs]
         if f == fs:
-            return WeightedDraws(nat, np.full(len(nat), 1.0 / len(nat)))
+            return WeightedDraws(nat, np.full(len(nat), 1.0 / len(nat)), self.chains[fs])
         lw = log_prior_density(self.prior_at(f), gamma) - lp
         w = np.exp(lw - lw.max())
-        return WeightedDraws(nat, w / w.sum())
+        return WeightedDraws(nat, w / w.sum(), self.chains[fs])
 
     def flat(self) -> tuple[CoefficientMixtures | WeightedDraws | None, str | None]:
         """The marginals in the flat-prior limit, or None and the reason there is none."""

@@ -17,10 +17,14 @@ each coefficient's posterior mean and interval along it. From the sweep it draws
   (:mod:`bayes.sensitivity.family_swap`).
 
 Gaussian priors: :mod:`bayes.sensitivity.gaussian`, exact at every factor. Laplace and
-Student-t priors: :mod:`bayes.sensitivity.sampled`. The grid and the thresholds:
-:mod:`bayes.sensitivity.grid`; which priors are widened and their flat-prior limit:
-:mod:`bayes.sensitivity.priors`; the result: :mod:`bayes.sensitivity.result`, its words:
-:mod:`bayes.sensitivity.wording`.
+Student-t priors: :mod:`bayes.sensitivity.sampled`, every probability and interval end with its
+Monte Carlo standard error (MCSE), sampled until decided: while a conclusion's probability at
+the stated priors lies within ``DECIDE_MCSE`` (3) MCSE of its level, the stated priors are
+sampled again in rounds that double the draws (``SampledEngine.refine``), up to the settings'
+``max_draws`` per chain; a conclusion still that close is undecided at this precision. The
+grid and the thresholds: :mod:`bayes.sensitivity.grid`; which priors are widened and their
+flat-prior limit: :mod:`bayes.sensitivity.priors`; the result:
+:mod:`bayes.sensitivity.result`, its words: :mod:`bayes.sensitivity.wording`.
 """
 
 from __future__ import annotations
@@ -38,8 +42,8 @@ from bayes.sensitivity.family_swap import family_swap as read_as_families
 from bayes.sensitivity.gaussian import GaussianEngine
 from bayes.sensitivity.grid import Threshold, default_factors, factor_grid, thresholds_for
 from bayes.sensitivity.priors import block_names, prior_interval, widened
-from bayes.sensitivity.result import CoefficientSweep, SweepResult
-from bayes.sensitivity.sampled import MIN_ESS, SampledEngine
+from bayes.sensitivity.result import MCSE_STATISTICS, CoefficientSweep, SweepResult
+from bayes.sensitivity.sampled import MIN_ESS, SampledEngine, mcse_of
 from bayes.sensitivity.wording import DEFAULT_RESPONSE, prior_label
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
 from bayes.threads import blas_threads
@@ -90,7 +94,7 @@ def sweep(
         non-normal readings are sampled).
     sampler : SamplerSettings
         Chains, draws, warm-up and seed for the sampled parts (non-Gaussian priors, the
-        family swap).
+        family swap), and ``max_draws``, the cap on the rounds that decide a conclusion.
 
     Returns
     -------
@@ -128,26 +132,23 @@ def sweep(
         else:
             engine = SampledEngine(factor, priors, columns=columns, expert=expert, grid=grid,
                                    sampler=sampler)  # fmt: skip
-        mixes = [engine.at(float(f)) for f in grid]
+        flat_mix, flat_note = engine.flat()
+        while True:  # sampled until decided: more draws while a conclusion is too close
+            every, table, errors, ess = _along(engine, grid, flat_mix, len(names), level)
+            conclusions = follow_conclusions(
+                engine, every, table["p_positive"], names, response=response,
+                thresholds=thresholds, factors=grid, level=conclusion_level,
+                p_positive_mcse=errors["p_positive"],
+            )  # fmt: skip
+            # exact values have no Monte Carlo error: never close, and only engines that
+            # sample are asked to refine
+            if all(c.decided for c in conclusions) or not engine.refine():
+                break
         extra = dict(engine.extra)
         if engine.method == "sampled":
-            extra["ess"] = [m.ess for m in mixes]
-            mixes = [m if m.ess >= MIN_ESS else None for m in mixes]
-        flat_mix, flat_note = engine.flat()
+            extra["ess"] = ess
+            extra["max_draws"] = sampler.max_draws
         notes = ([] if flat_note is None else [flat_note]) + list(engine.notes)
-        a = (1 - level) / 2
-        every = [*mixes, flat_mix]
-        nan = np.full(len(names), np.nan)
-        table = {  # statistic -> (F + 1, k): each computed once per factor for every coefficient
-            key: np.array([nan if m is None else fn(m) for m in every])
-            for key, fn in zip(_STATISTICS, (
-                lambda m: m.mean,
-                lambda m: m.sd,
-                lambda m: m.quantile(a),
-                lambda m: m.quantile(1 - a),
-                lambda m: m.sf(np.zeros(len(names))),
-            ), strict=True)
-        }  # fmt: skip
         ratios, shares = engine.dominance(names, priors)
         block = block_names(priors)
         rows = [
@@ -156,13 +157,10 @@ def sweep(
                 *(table[key][:, j] for key in _STATISTICS),
                 None if engine.modes is None else engine.modes[:, j], ratios[j], shares[j],
                 prior_interval(priors, name, level),
+                *(errors[key][:, j] for key in MCSE_STATISTICS),
             )
             for j, name in enumerate(names)
         ]  # fmt: skip
-        conclusions = follow_conclusions(
-            engine, every, table["p_positive"], names, response=response, thresholds=thresholds,
-            factors=grid, level=conclusion_level,
-        )  # fmt: skip
         conflict, power = engine.checks(priors)
         swap = (
             read_as_families(factor, priors, level=level, sampler=sampler) if family_swap else None
@@ -172,6 +170,35 @@ def sweep(
             response, units, grid, level, conclusion_level, engine.method, engine.detail, selection,
             tuple(rows), tuple(conclusions), conflict, power, swap, tuple(notes), extra,
         )  # fmt: skip
+
+
+def _along(engine, grid, flat_mix, k: int, level: float) -> tuple[list, dict, dict, list]:
+    """The marginals at every factor and in the flat limit (None where not reported), each
+    statistic and its Monte Carlo standard error (0 where exact), as (F + 1, k) arrays, and
+    the importance weights' effective sample size per factor (sampled engines)."""
+    mixes = [engine.at(float(f)) for f in grid]
+    ess = [m.ess for m in mixes] if engine.method == "sampled" else []
+    if engine.method == "sampled":
+        mixes = [m if m.ess >= MIN_ESS else None for m in mixes]
+    every = [*mixes, flat_mix]
+    a = (1 - level) / 2
+    nan, zero = np.full(k, np.nan), np.zeros(k)
+    table = {  # statistic -> (F + 1, k): each computed once per factor for every coefficient
+        key: np.array([nan if m is None else fn(m) for m in every])
+        for key, fn in zip(_STATISTICS, (
+            lambda m: m.mean,
+            lambda m: m.sd,
+            lambda m: m.quantile(a),
+            lambda m: m.quantile(1 - a),
+            lambda m: m.sf(zero),
+        ), strict=True)
+    }  # fmt: skip
+    errors = {
+        key: np.array([nan if m is None else mcse_of(m, *how) for m in every])
+        for key, how in zip(MCSE_STATISTICS, (("mean",), ("quantile", a), ("quantile", 1 - a),
+                                      ("cdf", zero)), strict=True)
+    }  # fmt: skip
+    return every, table, errors, ess
 
 
 def sweep_design(design, priors, **options) -> SweepResult:

@@ -12,7 +12,9 @@ import numpy as np
 
 from bayes.results.format import fmt, format_table
 from bayes.results.summary import prior_text
+from bayes.settings import DECIDE_MCSE, FLIP_MCSE
 
+UNDECIDED = "undecided at this precision"  # a sampled conclusion too close to its level
 DEFAULT_RESPONSE = "the response"  # the response's name in the sentences when none is known
 CORRELATED = "correlated"  # the prior of a coefficient in a correlated block
 
@@ -85,20 +87,31 @@ def exact_detail(one: bool, noise_known: bool) -> str:
     return detail
 
 
-def sampled_detail(sampled, sampler) -> str:
-    """How the sampled engine computed the grid (``sampled``: the factors it sampled at)."""
+def sampled_detail(sampled, sampler, chains_at_stated: int = 0, rounds: int = 0) -> str:
+    """How the sampled engine computed the grid (``sampled``: the factors it sampled at;
+    ``rounds`` further rounds at the stated priors gave ``chains_at_stated`` chains there)."""
+    more = (
+        f"; {chains_at_stated} chains at factor 1 after {rounds} more round"
+        f"{'s' * (rounds > 1)} for a conclusion near its level"
+        if rounds
+        else ""
+    )
     return (
         f"Gibbs sampling at factors {', '.join(f'{f:.3g}' for f in sampled)} "
-        f"({sampler.chains} chains of {sampler.draws} draws), importance weights in between; "
-        "posterior modes at every factor"
+        f"({sampler.chains} chains of {sampler.draws} draws{more}), importance weights in "
+        "between; posterior modes at every factor"
     )
 
 
-def sampled_note(min_ess: float) -> str:
+def sampled_note(min_ess: float, max_draws: int) -> str:
     """The note every sampled sweep carries."""
     return (
         f"sampled sweep: values whose importance weights leave fewer than {min_ess:g} "
-        "effective draws are not reported; flip points carry Monte Carlo error."
+        "effective draws are not reported; every probability and interval end carries its "
+        "Monte Carlo standard error (se; in the JSON), every flip factor the range where the "
+        f"probability lies within {FLIP_MCSE:g} se of the level; a conclusion within "
+        f"{DECIDE_MCSE:g} se of its level is sampled again, up to {max_draws} draws per chain, "
+        "and called undecided if it stays that close."
     )
 
 
@@ -125,12 +138,34 @@ def statement(kind: str, name: str, op: str, value: float, response: str) -> str
 
 
 def status(c) -> str:
-    """A conclusion's status at its level: holds over the grid, flips, does not hold."""
+    """A conclusion's status at its level: holds over the grid, flips, does not hold, or
+    (sampled, too close to its level at the most draws allowed) undecided."""
+    if not c.decided:
+        return UNDECIDED
     if not c.holds():
         return "does not hold at the stated priors"
     if c.narrower is None and c.wider is None:
         return "holds over the whole grid"
     return "flips"
+
+
+def _probability(p: float, se: float) -> str:
+    """A probability with its Monte Carlo standard error when it has one."""
+    return f"{p:.3f}" + (f", Monte Carlo se {se:.2g}" if se > 0 else "")
+
+
+def _range(r, narrower: bool = False) -> str:
+    """A flip factor's Monte Carlo range (``FLIP_MCSE`` se either side, :mod:`bayes.settings`)
+    in the sentence's terms, "" when exact or unknown: factors below 1 read as times narrower."""
+    if r is None or r[0] == r[1]:
+        return ""
+    if r[0] is None and r[1] is None:
+        return " (Monte Carlo range: the whole grid)"
+    ends = [None if f is None else (1 / f if narrower else f) for f in r]
+    if narrower:
+        ends.reverse()
+    lo, hi = ("past the computed factors" if x is None else times(x) for x in ends)
+    return f" (Monte Carlo range {lo} to {hi})"
 
 
 def conclusion_sentence(c) -> str:
@@ -139,6 +174,13 @@ def conclusion_sentence(c) -> str:
     lo, hi = c.span
     flat = c.probability[-1]
     head = f"The conclusion that {c.statement}"
+    if not c.decided:
+        settle = c.draws_to_settle
+        return (f"{head} is {UNDECIDED}: its probability at the stated priors is "
+                f"{_probability(c.stated, c.stated_mcse)}, within {DECIDE_MCSE:g} se of "
+                f"{level:g}, after {c.draws} draws"
+                + (f"; about {settle} draws would settle it." if settle else "."))  # fmt: skip
+    flat_text = _probability(flat, 0.0 if c.mcse is None else c.mcse[-1])
     if c.holds():
         if c.narrower is None and c.wider is None:
             s = (f"{head} holds over the whole grid (priors {times(1 / lo)} times narrower "
@@ -147,30 +189,33 @@ def conclusion_sentence(c) -> str:
                 return s + "."
             if flat >= level:
                 return s + " and with flat priors."
-            return s + (f" but not with flat priors (probability {flat:.3f}): it rests on the "
+            return s + (f" but not with flat priors (probability {flat_text}): it rests on the "
                         "experts' priors.")  # fmt: skip
         if c.wider is None:
-            s = f"{head} holds unless the priors are made {times(1 / c.narrower)} times narrower"
-            s += " than stated"
+            s = (f"{head} holds unless the priors are made {times(1 / c.narrower)} times "
+                 f"narrower{_range(c.narrower_range, True)} than stated")  # fmt: skip
             if not np.isnan(flat) and flat < level:
-                s += f" (and it does not hold with flat priors: probability {flat:.3f})"
+                s += f" (and it does not hold with flat priors: probability {flat_text})"
             return s + "."
         if c.narrower is None:
-            return (f"{head} holds unless the priors are made {times(c.wider)} times wider "
-                    "than stated.")  # fmt: skip
+            return (f"{head} holds unless the priors are made {times(c.wider)} times wider"
+                    f"{_range(c.wider_range)} than stated.")  # fmt: skip
         return (f"{head} holds only while the priors stay between {times(1 / c.narrower)} "
-                f"times narrower and {times(c.wider)} times wider than stated.")  # fmt: skip
+                f"times narrower{_range(c.narrower_range, True)} and {times(c.wider)} times "
+                f"wider{_range(c.wider_range)} than stated.")  # fmt: skip
+    stated = _probability(c.stated, c.stated_mcse) + ("," if c.stated_mcse > 0 else "")
     if c.kind == "sign":
         s = (f"The sign of {c.name} is not settled: the probability that {c.statement} is "
-             f"{c.stated:.3f} at the stated priors (below {level:g})")  # fmt: skip
+             f"{stated} at the stated priors (below {level:g})")  # fmt: skip
     else:
         s = (f"{head} does not hold at the stated priors (posterior probability "
-             f"{c.stated:.3f} < {level:g})")  # fmt: skip
+             f"{stated} < {level:g})")  # fmt: skip
     ways = []
     if c.narrower is not None:
-        ways.append(f"with priors {times(1 / c.narrower)} times narrower")
+        ways.append(f"with priors {times(1 / c.narrower)} times narrower"
+                    f"{_range(c.narrower_range, True)}")  # fmt: skip
     if c.wider is not None:
-        ways.append(f"with priors {times(c.wider)} times wider")
+        ways.append(f"with priors {times(c.wider)} times wider{_range(c.wider_range)}")
     elif not np.isnan(flat) and flat >= level:
         ways.append("with flat priors")
     if ways:
