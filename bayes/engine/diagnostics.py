@@ -171,6 +171,7 @@ def monte_carlo_errors(draws: np.ndarray, level: float | None = None) -> dict[st
         out["mcse_p_positive"] = each(positive, method="mean")
     return out
 
+
 def weighted_mean_mcse(values: np.ndarray, weights: np.ndarray, chains: int) -> np.ndarray:
     """Monte Carlo standard error of the weighted mean of Markov chain values, per column.
 

@@ -268,7 +268,7 @@ def _run_chain(model: _Model, rng, draws: int, warmup: int, tick: Callable[[int]
             s2 = (noise.scale + float(residual_ss(f, gamma)) / 2) / rng.gamma(shape)
         prec = _draw_mixing(model, rng, gamma)
         # one sum catches any inf or nan (finite draws summing past 1e308 are no better)
-        if not math.isfinite(s2 + float(gamma.sum()) + float(prec.sum())):
+        if not math.isfinite(s2 + float(gamma.sum()) + float(prec.prec.sum())):
             raise InputError(
                 f"Gibbs sampler: the draws stopped being finite at sweep {it + 1}"
                 f"{' (warm-up)' if it < warmup else ''}: the priors' scales or the data's "
