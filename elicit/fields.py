@@ -11,18 +11,9 @@ from collections.abc import Mapping
 from typing import Any
 
 from elicit.convert import DEFAULT_DF
-from elicit.errors import PriorFileError
-from elicit.limits import LARGEST, SMALLEST
+from elicit.errors import PriorFileError, shown
+from elicit.limits import LARGEST, SMALLEST, UNITS
 from elicit.spec import FAMILIES
-
-SHOWN = 60  # characters of a wrong value's repr quoted in an error
-UNITS = "express it in other units"
-
-
-def shown(value: Any) -> str:
-    """``repr(value)``, cut to :data:`SHOWN` characters (a wrong value may be a huge list)."""
-    text = repr(value)
-    return text if len(text) <= SHOWN else text[: SHOWN - 3] + "..."
 
 
 class FieldReader:

@@ -12,3 +12,4 @@ from __future__ import annotations
 
 LARGEST = 1e100
 SMALLEST = 1e-100
+UNITS = "express it in other units"  # the advice given with a number out of the limits

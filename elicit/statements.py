@@ -12,9 +12,9 @@ import math
 import warnings
 
 from elicit import convert
-from elicit.errors import ElicitationWarning
-from elicit.fields import UNITS, FieldReader, shown
-from elicit.limits import LARGEST, SMALLEST
+from elicit.errors import ElicitationWarning, shown
+from elicit.fields import FieldReader
+from elicit.limits import LARGEST, SMALLEST, UNITS
 from elicit.spec import Statement
 
 STATEMENT_KEYS = frozenset(

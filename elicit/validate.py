@@ -16,8 +16,8 @@ import numpy as np
 
 from elicit import convert
 from elicit.conditional import CorrelatedBlock, RowStatement, from_stated_rows
-from elicit.errors import PriorFileError
-from elicit.fields import FieldReader, shown
+from elicit.errors import PriorFileError, shown
+from elicit.fields import FieldReader
 from elicit.pool import DEFAULT_METHOD, METHODS
 from elicit.spec import (
     FAMILIES,
