@@ -8,7 +8,7 @@ error or a warning reaches the terminal.
   shown instead.
 - Each warning is one ``warning: ...`` line on stderr (no source line, no file path, no
   category); warnings meant for developers (deprecations) are not shown. With ``--debug``
-  warnings are shown as Python shows them.
+  every warning is shown as Python shows it.
 
 Both command groups derive from :class:`GuardedGroup`.
 """
@@ -50,6 +50,11 @@ def _show_warning(message, category, filename, lineno, file=None, line=None) -> 
     click.echo(f"warning: {one_line(message)}", err=True)
 
 
+def _show_warning_in_full(message, category, filename, lineno, file=None, line=None) -> None:
+    text = warnings.formatwarning(message, category, filename, lineno, line)
+    click.echo(text, err=True, nl=False)
+
+
 def _set_debug(ctx: click.Context, _param: click.Parameter, value: bool) -> None:
     ctx.meta["guard.debug"] = bool(value)
 
@@ -84,8 +89,10 @@ class GuardedGroup(click.Group):
     def invoke(self, ctx: click.Context):
         debug = ctx.meta.get("guard.debug", False)
         with warnings.catch_warnings():
-            if not debug:
-                warnings.simplefilter("default")
+            warnings.simplefilter("default")
+            if debug:
+                warnings.showwarning = _show_warning_in_full
+            else:
                 for category in _HIDDEN:
                     warnings.simplefilter("ignore", category)
                 warnings.showwarning = _show_warning
