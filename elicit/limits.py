@@ -12,4 +12,7 @@ from __future__ import annotations
 
 LARGEST = 1e100
 SMALLEST = 1e-100
+# A prior's scale is at least this fraction of its center: the float spacing near the center
+# (2.2e-16 of it) then leaves the prior's quantiles distinct to four digits or more.
+PRECISION = 1e-12
 UNITS = "express it in other units"  # the advice given with a number out of the limits

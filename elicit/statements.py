@@ -14,7 +14,7 @@ import warnings
 from elicit import convert
 from elicit.errors import ElicitationWarning, shown
 from elicit.fields import FieldReader
-from elicit.limits import LARGEST, SMALLEST, UNITS
+from elicit.limits import LARGEST, PRECISION, SMALLEST, UNITS
 from elicit.spec import Statement
 
 STATEMENT_KEYS = frozenset(
@@ -24,11 +24,18 @@ STATEMENT_KEYS = frozenset(
 
 
 def check_center_scale(r: FieldReader, key: str, center: float, scale: float) -> None:
-    """The center and scale a statement gives are finite and within the limits (an error on
-    ``key`` otherwise)."""
+    """The center and scale a statement gives are finite and within the limits, and the scale
+    is not lost in the center's rounding (an error on ``key`` otherwise)."""
     if math.isfinite(center) and math.isfinite(scale) and scale > 0:
         if abs(center) <= LARGEST and SMALLEST <= scale <= LARGEST:
-            return
+            if scale >= abs(center) * PRECISION:
+                return
+            raise r.error(
+                key,
+                f"gives center {center:g} and scale {scale:g}: the scale must be at least "
+                f"{PRECISION:g} times the center (a narrower prior is lost in the center's "
+                "rounding)",
+            )
     raise r.error(
         key,
         f"gives center {center:g} and scale {scale:g}: the scale must be positive and finite, "

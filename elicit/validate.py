@@ -18,6 +18,7 @@ from elicit import convert
 from elicit.conditional import CorrelatedBlock, RowStatement, from_stated_rows
 from elicit.errors import PriorFileError, shown
 from elicit.fields import FieldReader
+from elicit.limits import LARGEST, SMALLEST, UNITS
 from elicit.pool import DEFAULT_METHOD, METHODS
 from elicit.spec import (
     FAMILIES,
@@ -27,7 +28,7 @@ from elicit.spec import (
     PriorSet,
     ReferenceRow,
 )
-from elicit.statements import STATEMENT_KEYS, parse_statement
+from elicit.statements import STATEMENT_KEYS, check_center_scale, parse_statement
 
 _ENTRY_KEYS = STATEMENT_KEYS | {"name", "level", "pool", "pool_misfit", "statement"}
 _TOP_KEYS = frozenset(
@@ -127,6 +128,7 @@ def _parse_record(r: FieldReader, name: str, level: str | None) -> CoefficientPr
     else:
         center = r.number("center", required=True)
         scale = r.number("scale", required=True, positive=True)
+        check_center_scale(r, "scale", center, scale)
     method = r.text("pool")
     if method is not None and method not in METHODS:
         raise r.error("pool", f"must be one of {', '.join(METHODS)}, got {shown(method)}")
@@ -157,6 +159,16 @@ def _parse_noise(source: str, table: Any) -> NoisePrior:
             raise r.error("shape", "give a range or shape/scale, not both")
         shape = r.number("shape", required=True, positive=True, dimensionless=True)
         scale = r.number("scale", required=True, positive=True)
+        low, high = convert.NOISE_SHAPES
+        if not low <= shape <= high:
+            raise r.error("shape", f"must be within {low:g}..{high:g}, got {shape:g}")
+        sd_range = convert.noise_range(shape, scale, 0.98)
+        if not all(SMALLEST <= v <= LARGEST for v in sd_range):
+            span = f"{sd_range[0]:.3g}..{sd_range[1]:.3g}"
+            raise r.error(
+                "scale", f"gives a noise sd whose 98% range {span} is not within "
+                f"{SMALLEST:g}..{LARGEST:g} ({UNITS})",
+            )  # fmt: skip
         return NoisePrior(None, None, None, None, shape, scale)
     low, high, mass = r.range()
     if not low > 0:
