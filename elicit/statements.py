@@ -23,24 +23,27 @@ STATEMENT_KEYS = frozenset(
 )
 
 
-def check_center_scale(r: FieldReader, key: str, center: float, scale: float) -> None:
+def check_center_scale(
+    r: FieldReader, key: str | None, center: float, scale: float, *, what: str = ""
+) -> None:
     """The center and scale a statement gives are finite and within the limits, and the scale
-    is not lost in the center's rounding (an error on ``key`` otherwise)."""
+    is not lost in the center's rounding (an error on ``key`` otherwise, its message starting
+    with ``what``)."""
     if math.isfinite(center) and math.isfinite(scale) and scale > 0:
         if abs(center) <= LARGEST and SMALLEST <= scale <= LARGEST:
             if scale >= abs(center) * PRECISION:
                 return
             raise r.error(
                 key,
-                f"gives center {center:g} and scale {scale:g}: the scale must be at least "
+                f"{what}gives center {center:g} and scale {scale:g}: the scale must be at least "
                 f"{PRECISION:g} times the center (a narrower prior is lost in the center's "
                 "rounding)",
             )
     raise r.error(
         key,
-        f"gives center {center:g} and scale {scale:g}: the scale must be positive and finite, "
-        f"within {SMALLEST:g}..{LARGEST:g}, and the center at most {LARGEST:g} in magnitude "
-        f"({UNITS})",
+        f"{what}gives center {center:g} and scale {scale:g}: the scale must be positive and "
+        f"finite, within {SMALLEST:g}..{LARGEST:g}, and the center at most {LARGEST:g} in "
+        f"magnitude ({UNITS})",
     )
 
 

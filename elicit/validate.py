@@ -39,6 +39,8 @@ _NOISE_KEYS = frozenset({"sd", "low", "high", "mass", "shape", "scale"})
 _POOL_KEYS = frozenset({"method", "family", "df"})
 _CORRELATION_KEYS = frozenset({"names", "mean", "cov", "row"})
 _ROW_KEYS = frozenset({"at", "low", "high", "mass", "expert", "rationale"})
+# statements pooled together: centers and scales within this factor of the narrowest scale
+POOL_SPREAD = 1e8
 
 
 def _entry_label(index: int, table: Any) -> str:
@@ -107,12 +109,32 @@ def _parse_coefficients(
         if family == "student_t":
             dfs = [s.df for s in statements if s.df is not None]
             df = pool_df or (min(dfs) if dfs else convert.DEFAULT_DF)
-        out.append(
-            CoefficientPrior.from_statements(
-                group["name"], group["level"], statements, family=family, df=df, method=method
-            )
+        if len(statements) > 1 and family != "flat":
+            _check_poolable(first, column, statements)
+        prior = CoefficientPrior.from_statements(
+            group["name"], group["level"], statements, family=family, df=df, method=method
         )
+        if len(statements) > 1 and family != "flat":
+            what = f"pooling the entries for {column} "
+            check_center_scale(first, None, prior.center, prior.scale, what=what)
+        out.append(prior)
     return tuple(out)
+
+
+def _check_poolable(r: FieldReader, column: str, statements) -> None:
+    """Statements pooled together lie within :data:`POOL_SPREAD` of the narrowest one's scale
+    (the pool's grid and root finding cannot resolve a wider spread)."""
+    narrowest = min(s.scale for s in statements)
+    spread = max(
+        max(s.scale for s in statements),
+        max(s.center for s in statements) - min(s.center for s in statements),
+    )
+    if spread > POOL_SPREAD * narrowest:
+        raise r.error(
+            None,
+            f"the entries for {column} are too far apart to pool: their centers and scales "
+            f"span {spread:.3g}, over {POOL_SPREAD:g} times the narrowest scale {narrowest:.3g}",
+        )
 
 
 def _parse_record(r: FieldReader, name: str, level: str | None) -> CoefficientPrior:
@@ -174,7 +196,8 @@ def _parse_noise(source: str, table: Any) -> NoisePrior:
     if not low > 0:
         raise r.error("low", f"a noise sd must be positive, got {low:g}")
     try:
-        shape, scale = convert.noise_from_range(low, high, mass)
+        with np.errstate(divide="ignore", over="ignore"):  # a range too wide: the error below
+            shape, scale = convert.noise_from_range(low, high, mass)
     except ValueError as exc:
         raise r.error("high", str(exc)) from None
     return NoisePrior(None, low, high, mass, shape, scale)
