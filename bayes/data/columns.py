@@ -212,10 +212,10 @@ def checked_values(
 def check_distinct(
     X: np.ndarray, y: np.ndarray, predictors: Sequence[str], response: str, *, source: str
 ) -> None:
-    """No constant predictor, no two identical predictors, no constant response; each column
-    within the limits of :mod:`elicit.limits` (a derived term such as ``I(x**3)`` may leave
-    them) and varying by at least :data:`elicit.limits.SMALLEST` (the square of a smaller
-    spread underflows).
+    """No constant predictor, no two identical columns (the response included), no constant
+    response; each column within the limits of :mod:`elicit.limits` (a derived term such as
+    ``I(x**3)`` may leave them) and varying by at least :data:`elicit.limits.SMALLEST` (the
+    square of a smaller spread underflows).
 
     Parameters
     ----------
@@ -230,6 +230,9 @@ def check_distinct(
             if np.array_equal(X[:, j], X[:, k]):
                 raise InputError(f"{source}: columns '{predictors[k]}' and '{c}' are identical")
     _check_spread(y, f"response '{response}'", source)
+    for j, c in enumerate(predictors):  # its residuals would be exactly 0: no noise to fit
+        if np.array_equal(X[:, j], y):
+            raise InputError(f"{source}: response '{response}' is identical to column '{c}'")
 
 
 def _check_spread(v: np.ndarray, what: str, source: str, constant: str = "") -> None:

@@ -53,8 +53,8 @@ class Moments:
         Triangular factor of the centred rows.
     witness : ndarray, shape (r, k)
         The block's first row, a row holding each column's smallest and one holding its
-        largest value and, for each pair of predictor columns that differ, a row where they
-        differ (r <= 1 + 2k + k(k - 1) / 2, whatever n):
+        largest value and, for each pair of columns that differ, a row where they differ
+        (r <= 1 + 2k + k(k - 1) / 2, whatever n):
         :func:`bayes.data.columns.check_distinct` decides the same on these rows as on all
         (each column's spread is the same).
     dropped : int
@@ -79,8 +79,7 @@ def _extend_witness(S: np.ndarray, V: np.ndarray) -> np.ndarray:
     ends = np.unique(np.concatenate([[0], V.argmin(axis=0), V.argmax(axis=0)]))
     C = V[ends] if len(S) == 0 else np.vstack([S, V[ends]])  # a few rows: S's and V's ends
     W = C[np.unique(np.concatenate([[0], C.argmin(axis=0), C.argmax(axis=0)]))]
-    P = W[:, :-1]  # predictor columns
-    same = np.triu(np.all(P[:, :, None] == P[:, None, :], axis=0), 1)
+    same = np.triu(np.all(W[:, :, None] == W[:, None, :], axis=0), 1)  # the response too
     take = []
     for j, k in zip(*np.nonzero(same), strict=True):
         for block in (S, V):  # S holds a row where they differ if any earlier row did
