@@ -184,3 +184,15 @@ def test_regression_data_files(folder, name):
     for extra in ([], ["--stream", "--chunk-rows", "3"]):
         run_cli(bayes_main, ["fit", data, "--response", "y", *extra], prefix="error: ")
     run_cli(bayes_main, ["predict", folder / "fit", data], prefix="error: ")
+
+
+def test_a_sweep_chart_of_an_unknown_file_type_is_refused_before_the_sweep(folder):
+    # issue 18: `--plot chart.csv` ended in matplotlib's ValueError after the whole sweep
+    priors = folder / "sweep.toml"
+    priors.write_text('[[coefficient]]\nname = "x1"\nlow = 0.0\nhigh = 4.0\nmass = 0.9\n')
+    result = run_cli(bayes_main, ["sweep", folder / "clean.csv", "--response", "y",
+                                  "--predictors", "x1,x2", "--priors", priors,
+                                  "--plot", folder / "chart.csv"], prefix="error: ")  # fmt: skip
+    assert result.exit_code == 2
+    assert result.stderr.startswith(f"error: --plot: {folder / 'chart.csv'}: a chart is written")
+    assert not (folder / "chart.csv").exists()
