@@ -9,6 +9,7 @@ header being line 1) and the column.
 
 from __future__ import annotations
 
+import math
 import re
 from collections.abc import Mapping, Sequence
 
@@ -38,11 +39,22 @@ def file_rows(frame: pd.DataFrame, positions: Sequence[int] | np.ndarray) -> np.
     return np.array([file_row(frame, i) for i in positions], dtype=int)
 
 
+def as_numbers(series: pd.Series) -> pd.Series:
+    """``series`` read as numbers, NaN where a value is not one; an integer beyond the float
+    range (pandas keeps one of hundreds of digits as a Python int) reads as +-inf."""
+    try:
+        return pd.to_numeric(series, errors="coerce")
+    except OverflowError:
+        values = [(math.inf if v > 0 else -math.inf) if isinstance(v, int) and abs(v) > LARGEST
+                  else v for v in series]  # fmt: skip
+        return pd.to_numeric(pd.Series(values, series.index, dtype=object), errors="coerce")
+
+
 def first_bad_number(series: pd.Series) -> int | None:
     """Position of the first present value of ``series`` that does not read as a number."""
     if pd.api.types.is_bool_dtype(series) or pd.api.types.is_numeric_dtype(series):
         return None
-    bad = pd.to_numeric(series, errors="coerce").isna().to_numpy() & series.notna().to_numpy()
+    bad = as_numbers(series).isna().to_numpy() & series.notna().to_numpy()
     return int(np.flatnonzero(bad)[0]) if bad.any() else None
 
 
@@ -61,7 +73,7 @@ def numeric_values(frame: pd.DataFrame, column: str, *, source: str) -> np.ndarr
     if pd.api.types.is_bool_dtype(s) or pd.api.types.is_numeric_dtype(s):
         values = s.to_numpy(dtype=float)
     elif (i := first_bad_number(s)) is None:
-        values = pd.to_numeric(s, errors="coerce").to_numpy(dtype=float)
+        values = as_numbers(s).to_numpy(dtype=float)
     else:
         value = s.iloc[i]
         hint = ""
@@ -107,7 +119,7 @@ def is_text(series: pd.Series) -> bool:
     present = series.dropna()
     if present.empty:
         return False
-    numbers = pd.to_numeric(present, errors="coerce").notna().to_numpy()
+    numbers = as_numbers(present).notna().to_numpy()
     separated = present.astype(str).str.match(SEPARATED).to_numpy()
     return bool((numbers | separated).mean() < 0.5)
 
