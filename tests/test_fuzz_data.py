@@ -109,7 +109,7 @@ def tables(draw):
     return _text(header, rows, **form)
 
 
-@fuzz(400)
+@fuzz(1000)
 @given(text=tables(), how=st.sampled_from(["memory", "stream", "predictors", "sample"]))
 def test_fit_on_mutated_data(folder, text, how):
     data = folder / "d.csv"
@@ -127,7 +127,7 @@ def test_fit_on_mutated_data(folder, text, how):
         json.loads(result.stdout, parse_constant=lambda c: pytest.fail(f"{c} in JSON"))
 
 
-@fuzz(200)
+@fuzz(400)
 @given(text=tables(), fmt=st.sampled_from(["json", "text", "csv"]))
 def test_predict_on_mutated_new_data(folder, text, fmt):
     new = folder / "new.csv"

@@ -244,7 +244,7 @@ def prior_documents(draw) -> dict:
     return doc
 
 
-@fuzz(400)
+@fuzz(1000)
 @given(doc=prior_documents(), fmt=st.sampled_from(["json", "text"]))
 def test_structured_prior_files(folder, doc, fmt):
     _run_both(folder, toml_text(doc), fmt)
@@ -268,7 +268,7 @@ def mutated_files(draw) -> str:
     return text
 
 
-@fuzz(250)
+@fuzz(500)
 @given(text=mutated_files())
 def test_mutated_prior_files(folder, text):
     _run_both(folder, text)
