@@ -1,16 +1,18 @@
 """The ``elicit`` command: show, pool, interview. A thin layer over the elicit modules.
 
-Bad input ends with one line on stderr and exit status 2, never a traceback.
+Bad input ends with one line on stderr and exit status 2, a bug with one line and exit status 1
+(``elicit --debug``: the traceback), never a traceback otherwise (:mod:`elicit.guard`).
 """
 
 from __future__ import annotations
 
 import json
 import sys
-import warnings
 from pathlib import Path
 
 import click
+
+from elicit.guard import GuardedGroup, one_line
 
 
 class BadInput(click.ClickException):
@@ -19,35 +21,22 @@ class BadInput(click.ClickException):
     exit_code = 2
 
 
-class _Group(click.Group):
-    """A click group whose errors are single lines on stderr."""
+class _Group(GuardedGroup):
+    """A click group whose errors are single lines on stderr (:mod:`elicit.guard`)."""
+
+    prog = "elicit"
+    prefix = "elicit: "
 
     def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
         try:
-            with warnings.catch_warnings(record=True) as caught:
-                warnings.simplefilter("always")
-                code = super().main(args, prog_name, complete_var, standalone_mode=False, **extra)
-                _echo_warnings(caught)
-        except ValueError as exc:
-            from elicit.errors import InputError
-
-            if not isinstance(exc, InputError):
-                raise
-            click.echo(f"elicit: {exc}", err=True)
-            sys.exit(2)
+            code = super().main(args, prog_name, complete_var, standalone_mode=False, **extra)
         except click.ClickException as exc:
-            click.echo(f"elicit: {' '.join(exc.format_message().split())}", err=True)
+            click.echo(f"elicit: {one_line(exc.format_message())}", err=True)
             sys.exit(exc.exit_code)
         except click.Abort:
             click.echo("elicit: aborted", err=True)
             sys.exit(1)
         sys.exit(code if isinstance(code, int) else 0)
-
-
-def _echo_warnings(caught) -> None:
-    for w in caught:
-        if w.category.__name__ == "ElicitationWarning":  # by name: keeps --help free of scipy
-            click.echo(f"warning: {w.message}", err=True)
 
 
 def _read_data(path: str | None):

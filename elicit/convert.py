@@ -219,6 +219,9 @@ def fit_quantiles(
     return QuantileFit(float(center) / per, float(scale) / per, misfit, asymmetry, warning)
 
 
+NOISE_SHAPES = (1e-2, 1e12)  # the inverse-gamma shapes a stated noise range is fitted within
+
+
 def _noise_tails(mass: float) -> tuple[float, float]:
     _check_mass(mass)
     return 0.5 * (1.0 - mass), 0.5 * (1.0 + mass)
@@ -254,7 +257,7 @@ def noise_from_range(low: float, high: float, mass: float) -> tuple[float, float
         return math.log(stats.gamma.ppf(p_high, a) / stats.gamma.ppf(p_low, a)) - target
 
     # shape 0.01 already fits high / low of about exp(150) at mass 0.9
-    lo, hi = math.log(1e-2), math.log(1e12)
+    lo, hi = (math.log(a) for a in NOISE_SHAPES)
     if not gap(lo) > 0 > gap(hi):
         raise InputError(f"noise range {low}..{high} is too wide or too narrow to fit")
     shape = math.exp(optimize.brentq(gap, lo, hi, xtol=1e-14, rtol=1e-14))

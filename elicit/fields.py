@@ -11,7 +11,8 @@ from collections.abc import Mapping
 from typing import Any
 
 from elicit.convert import DEFAULT_DF
-from elicit.errors import PriorFileError
+from elicit.errors import PriorFileError, shown
+from elicit.limits import LARGEST, SMALLEST, UNITS
 from elicit.spec import FAMILIES
 
 
@@ -65,7 +66,7 @@ class FieldReader:
             return None
         value = self.table[key]
         if not isinstance(value, str) or (required and not value.strip()):
-            raise self.error(key, f"must be a non-empty string, got {value!r}")
+            raise self.error(key, f"must be a non-empty string, got {shown(value)}")
         return value
 
     def number(
@@ -75,8 +76,12 @@ class FieldReader:
         required: bool = False,
         positive: bool = False,
         value: Any = None,
+        dimensionless: bool = False,
     ) -> float | None:
-        """The finite number at ``key`` (or ``value``, checked as if it stood there)."""
+        """The finite number at ``key`` (or ``value``, checked as if it stood there), at most
+        :data:`elicit.limits.LARGEST` in magnitude and, if ``positive``, at least
+        :data:`elicit.limits.SMALLEST` (out of the limits, the error suggests a change of
+        units unless the number is ``dimensionless``)."""
         if value is None:
             if key not in self.table:
                 if required:
@@ -84,17 +89,26 @@ class FieldReader:
                 return None
             value = self.table[key]
         if isinstance(value, bool) or not isinstance(value, int | float):
-            raise self.error(key, f"must be a number, got {value!r}")
+            raise self.error(key, f"must be a number, got {shown(value)}")
+        units = "" if dimensionless else f" ({UNITS})"
+        if isinstance(value, int) and abs(value) > LARGEST:  # float() of a huge int overflows
+            digits = int(abs(value).bit_length() * math.log10(2)) + 1
+            raise self.error(key, f"must be at most {LARGEST:g} in magnitude{units}, "
+                             f"got an integer of about {digits} digits")  # fmt: skip
         value = float(value)
         if not math.isfinite(value):
             raise self.error(key, f"must be finite, got {value}")
+        if abs(value) > LARGEST:
+            raise self.error(key, f"must be at most {LARGEST:g} in magnitude{units}, got {value:g}")
         if positive and not value > 0:
             raise self.error(key, f"must be positive, got {value:g}")
+        if positive and value < SMALLEST:
+            raise self.error(key, f"must be at least {SMALLEST:g}{units}, got {value:g}")
         return value
 
     def mass(self, key: str = "mass") -> float:
         """The probability at ``key``, in (0, 1)."""
-        value = self.number(key, required=True)
+        value = self.number(key, required=True, dimensionless=True)
         if not 0.0 < value < 1.0:
             raise self.error(key, f"must be in (0, 1), got {value:g}")
         return value
@@ -114,7 +128,7 @@ class FieldReader:
             raise self.error(
                 "family", f"unknown family {family!r} (expected {', '.join(FAMILIES)})"
             )
-        df = self.number("df", positive=True)
+        df = self.number("df", positive=True, dimensionless=True)
         if df is not None and family != "student_t":
             raise self.error("df", f"applies to student_t only, not {family}")
         if family == "student_t" and df is None:
@@ -129,5 +143,5 @@ class FieldReader:
             return None
         values = self.table[key]
         if not isinstance(values, list):
-            raise self.error(key, f"must be a list of numbers, got {values!r}")
+            raise self.error(key, f"must be a list of numbers, got {shown(values)}")
         return [self.number(key, value=v) for v in values]

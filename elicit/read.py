@@ -55,11 +55,14 @@ any other key is an error.
 
 from __future__ import annotations
 
+import re
+import sys
 import tomllib
 from pathlib import Path
 from typing import Any
 
 from elicit.errors import PriorFileError
+from elicit.limits import LARGEST
 from elicit.spec import PriorSet
 from elicit.validate import parse_priors
 
@@ -75,13 +78,35 @@ def load_document(path: str | Path) -> dict[str, Any]:
     source = str(path)
     try:
         with open(path, "rb") as handle:
-            return tomllib.load(handle)
+            data = handle.read()
+        return tomllib.loads(data.decode())
     except OSError as exc:
         raise PriorFileError(f"{source}: cannot read: {exc.strerror or exc}") from None
     except tomllib.TOMLDecodeError as exc:
         raise PriorFileError(f"{source}: {exc}") from None
     except UnicodeDecodeError as exc:
         raise PriorFileError(f"{source}: not UTF-8 text: {exc.reason}") from None
+    except RecursionError:  # tomllib recurses into nested arrays and inline tables
+        raise PriorFileError(f"{source}: arrays or tables nested too deeply") from None
+    except ValueError as exc:  # an integer beyond Python's digit limit (tomllib's only other)
+        where = _long_integer(data.decode(errors="replace"))
+        if where is None:
+            raise PriorFileError(f"{source}: cannot read: {exc}") from None
+        raise PriorFileError(
+            f"{source}: {where}: an integer with thousands of digits (numbers must be at most "
+            f"{LARGEST:g} in magnitude)"
+        ) from None
+
+
+def _long_integer(text: str) -> str | None:
+    """``"line L, column C"`` of the first run of more digits than Python reads as an int."""
+    limit = sys.get_int_max_str_digits() or 4300
+    match = re.search(r"[0-9](?:_?[0-9]){" + str(limit) + ",}", text)
+    if match is None:
+        return None
+    start = match.start()
+    line, column = text.count("\n", 0, start) + 1, start - text.rfind("\n", 0, start)
+    return f"line {line}, column {column}"
 
 
 def read_prior_file(path: str | Path) -> PriorSet:

@@ -9,8 +9,6 @@ the entry and the field; warnings (e.g. asymmetric quantiles) are
 from __future__ import annotations
 
 import math
-import sys
-import warnings
 from collections.abc import Mapping
 from typing import Any
 
@@ -18,8 +16,9 @@ import numpy as np
 
 from elicit import convert
 from elicit.conditional import CorrelatedBlock, RowStatement, from_stated_rows
-from elicit.errors import ElicitationWarning, PriorFileError
+from elicit.errors import PriorFileError, shown
 from elicit.fields import FieldReader
+from elicit.limits import LARGEST, SMALLEST, UNITS
 from elicit.pool import DEFAULT_METHOD, METHODS
 from elicit.spec import (
     INTERCEPT,
@@ -28,15 +27,11 @@ from elicit.spec import (
     NoisePrior,
     PriorSet,
     ReferenceRow,
-    Statement,
 )
+from elicit.statements import STATEMENT_KEYS, check_center_scale, parse_statement
 from elicit.validate_mixture import is_mixture, mixture_record
 
-_STATEMENT_KEYS = frozenset(
-    {"family", "low", "high", "mass", "per", "quantiles", "center", "scale", "df"}
-    | {"expert", "rationale", "weight"}
-)
-_ENTRY_KEYS = _STATEMENT_KEYS | {"name", "level", "pool", "pool_misfit", "statement", "component"}
+_ENTRY_KEYS = STATEMENT_KEYS | {"name", "level", "pool", "pool_misfit", "statement", "component"}
 _TOP_KEYS = frozenset(
     {"study", "units", "noise", "pool", "coefficient", "correlation", "reference_row"}
 )
@@ -45,97 +40,8 @@ _NOISE_KEYS = frozenset({"sd", "low", "high", "mass", "shape", "scale"})
 _POOL_KEYS = frozenset({"method", "family", "df"})
 _CORRELATION_KEYS = frozenset({"names", "mean", "cov", "row"})
 _ROW_KEYS = frozenset({"at", "low", "high", "mass", "expert", "rationale"})
-
-
-def _parse_statement(r: FieldReader) -> Statement:
-    family, df = r.family_and_df()
-    weight = r.number("weight", positive=True)
-    per = r.number("per", positive=True)
-    modes = [
-        m
-        for m, keys in (
-            ("range", ("low", "high", "mass")),
-            ("quantiles", ("quantiles",)),
-            ("center", ("center", "scale")),
-        )
-        if any(r.has(k) for k in keys)
-    ]
-    if len(modes) > 1:
-        raise r.error(
-            {"range": "low", "quantiles": "quantiles", "center": "center"}[modes[1]],
-            "give one of low/high/mass, quantiles, or center/scale, not several",
-        )
-    mode = modes[0] if modes else None
-    low = high = mass = quantiles = None
-    if family == "flat":
-        if mode is not None or per is not None:
-            key = next(
-                k
-                for k in ("low", "high", "mass", "quantiles", "center", "scale", "per")
-                if r.has(k)
-            )
-            raise r.error(key, "a flat prior takes no range or parameters")
-        center, scale = 0.0, math.nan
-    elif mode == "range":
-        low, high, mass = r.range()
-        try:
-            center, scale = convert.from_range(family, low, high, mass, per=per or 1.0, df=df)
-        except (ZeroDivisionError, OverflowError):
-            raise r.error("mass", f"{mass:g} gives a scale beyond the float limit") from None
-    elif mode == "quantiles":
-        quantiles = _parse_quantiles(r)
-        try:
-            fit = convert.fit_quantiles(family, quantiles, per=per or 1.0, df=df)
-        except ValueError as exc:
-            raise r.error("quantiles", str(exc)) from None
-        if fit.warning:
-            warnings.warn(f"{r.source}: {r.where}: field 'quantiles': {fit.warning}",
-                          ElicitationWarning, stacklevel=2)  # fmt: skip
-        center, scale = fit.center, fit.scale
-    elif mode == "center":
-        if per is not None:
-            raise r.error(
-                "per",
-                "applies to a stated range or quantiles; center and scale "
-                "are per one unit of the predictor",
-            )
-        center = r.number("center", required=True)
-        scale = r.number("scale", required=True, positive=True)
-    else:
-        raise r.error("low", f"a {family} prior needs low/high/mass, quantiles, or center/scale")
-    if family != "flat" and not (math.isfinite(center) and math.isfinite(scale) and scale > 0):
-        key = "per" if per is not None else {"range": "low", "quantiles": "quantiles"}[mode]
-        raise r.error(key, f"gives center {center:g} and scale {scale:g}: the scale must be "
-                      f"positive and finite (at most {sys.float_info.max:.4g})")  # fmt: skip
-    return Statement(
-        expert=r.text("expert"),
-        rationale=r.text("rationale"),
-        low=low,
-        high=high,
-        mass=mass,
-        per=per or 1.0,
-        quantiles=quantiles,
-        family=family,
-        center=center,
-        scale=scale,
-        df=df,
-        weight=weight or 1.0,
-    )
-
-
-def _parse_quantiles(r: FieldReader) -> tuple[tuple[float, float], ...]:
-    raw = r.table["quantiles"]
-    if not isinstance(raw, list) or len(raw) < 2:
-        raise r.error("quantiles", "must be a list of at least two [probability, value] pairs")
-    pairs = []
-    for pair in raw:
-        if not isinstance(pair, list) or len(pair) != 2:
-            raise r.error("quantiles", f"each item must be [probability, value], got {pair!r}")
-        p = r.number("quantiles", value=pair[0])
-        if not 0.0 < p < 1.0:
-            raise r.error("quantiles", f"probability must be in (0, 1), got {p:g}")
-        pairs.append((p, r.number("quantiles", value=pair[1])))
-    return tuple(pairs)
+# statements pooled together: centers and scales within this factor of the narrowest scale
+POOL_SPREAD = 1e8
 
 
 def _entry_label(index: int, table: Any) -> str:
@@ -156,11 +62,13 @@ def _parse_coefficients(
     if pool_table is not None:
         method = pool_table.text("method") or DEFAULT_METHOD
         if method not in METHODS:
-            raise pool_table.error("method", f"must be one of {', '.join(METHODS)}, got {method!r}")
+            raise pool_table.error(
+                "method", f"must be one of {', '.join(METHODS)}, got {shown(method)}"
+            )
         pool_family = pool_table.text("family")
         if pool_family is not None and pool_family not in POOL_FAMILIES:
-            raise pool_table.error("family", f"unknown family {pool_family!r}")
-        pool_df = pool_table.number("df", positive=True)
+            raise pool_table.error("family", f"unknown family {shown(pool_family)}")
+        pool_df = pool_table.number("df", positive=True, dimensionless=True)
 
     groups: dict[str, dict[str, Any]] = {}
     for index, table in enumerate(entries, 1):
@@ -180,7 +88,7 @@ def _parse_coefficients(
             for key in ("pool", "pool_misfit"):
                 if r.has(key):
                     raise r.error(key, "only a pooled entry with [[coefficient.statement]] tables")
-            group["statements"].append(_parse_statement(r))
+            group["statements"].append(parse_statement(r))
 
     out = []
     for column, group in groups.items():
@@ -202,17 +110,37 @@ def _parse_coefficients(
         if family == "student_t":
             dfs = [s.df for s in statements if s.df is not None]
             df = pool_df or (min(dfs) if dfs else convert.DEFAULT_DF)
-        out.append(
-            CoefficientPrior.from_statements(
-                group["name"], group["level"], statements, family=family, df=df, method=method
-            )
+        if len(statements) > 1 and family != "flat":
+            _check_poolable(first, column, statements)
+        prior = CoefficientPrior.from_statements(
+            group["name"], group["level"], statements, family=family, df=df, method=method
         )
+        if len(statements) > 1 and family != "flat":
+            what = f"pooling the entries for {column} "
+            check_center_scale(first, None, prior.center, prior.scale, what=what)
+        out.append(prior)
     return tuple(out)
+
+
+def _check_poolable(r: FieldReader, column: str, statements) -> None:
+    """Statements pooled together lie within :data:`POOL_SPREAD` of the narrowest one's scale
+    (the pool's grid and root finding cannot resolve a wider spread)."""
+    narrowest = min(s.scale for s in statements)
+    spread = max(
+        max(s.scale for s in statements),
+        max(s.center for s in statements) - min(s.center for s in statements),
+    )
+    if spread > POOL_SPREAD * narrowest:
+        raise r.error(
+            None,
+            f"the entries for {column} are too far apart to pool: their centers and scales "
+            f"span {spread:.3g}, over {POOL_SPREAD:g} times the narrowest scale {narrowest:.3g}",
+        )
 
 
 def _parse_record(r: FieldReader, name: str, level: str | None) -> CoefficientPrior:
     if is_mixture(r) or r.has("component"):
-        return mixture_record(r, name, level, _parse_statement, _STATEMENT_KEYS)
+        return mixture_record(r, name, level, parse_statement, STATEMENT_KEYS)
     for key in ("low", "high", "mass", "quantiles", "per", "expert", "rationale", "weight"):
         if r.has(key):
             raise r.error(key, "a pooled entry holds center/scale; statements go in its tables")
@@ -225,17 +153,18 @@ def _parse_record(r: FieldReader, name: str, level: str | None) -> CoefficientPr
     else:
         center = r.number("center", required=True)
         scale = r.number("scale", required=True, positive=True)
+        check_center_scale(r, "scale", center, scale)
     method = r.text("pool")
     if method is not None and method not in METHODS:
-        raise r.error("pool", f"must be one of {', '.join(METHODS)}, got {method!r}")
-    misfit = r.number("pool_misfit")
+        raise r.error("pool", f"must be one of {', '.join(METHODS)}, got {shown(method)}")
+    misfit = r.number("pool_misfit", dimensionless=True)
     if misfit is not None and misfit < 0:
         raise r.error("pool_misfit", f"must be >= 0, got {misfit:g}")
     tables = r.table["statement"]
     if not isinstance(tables, list) or not tables:
         raise r.error("statement", "must be one or more [[coefficient.statement]] tables")
     statements = tuple(
-        _parse_statement(FieldReader(r.source, f"{r.where} statement {i}", t, _STATEMENT_KEYS))
+        parse_statement(FieldReader(r.source, f"{r.where} statement {i}", t, STATEMENT_KEYS))
         for i, t in enumerate(tables, 1)
     )
     return CoefficientPrior(name, level, family, center, scale, df, statements, method, misfit)
@@ -253,14 +182,25 @@ def _parse_noise(source: str, table: Any) -> NoisePrior:
     if r.has("shape") or r.has("scale"):
         if any(r.has(k) for k in ("low", "high", "mass")):
             raise r.error("shape", "give a range or shape/scale, not both")
-        shape = r.number("shape", required=True, positive=True)
+        shape = r.number("shape", required=True, positive=True, dimensionless=True)
         scale = r.number("scale", required=True, positive=True)
+        low, high = convert.NOISE_SHAPES
+        if not low <= shape <= high:
+            raise r.error("shape", f"must be within {low:g}..{high:g}, got {shape:g}")
+        sd_range = convert.noise_range(shape, scale, 0.98)
+        if not all(SMALLEST <= v <= LARGEST for v in sd_range):
+            span = f"{sd_range[0]:.3g}..{sd_range[1]:.3g}"
+            raise r.error(
+                "scale", f"gives a noise sd whose 98% range {span} is not within "
+                f"{SMALLEST:g}..{LARGEST:g} ({UNITS})",
+            )  # fmt: skip
         return NoisePrior(None, None, None, None, shape, scale)
     low, high, mass = r.range()
     if not low > 0:
         raise r.error("low", f"a noise sd must be positive, got {low:g}")
     try:
-        shape, scale = convert.noise_from_range(low, high, mass)
+        with np.errstate(divide="ignore", over="ignore"):  # a range too wide: the error below
+            shape, scale = convert.noise_from_range(low, high, mass)
     except ValueError as exc:
         raise r.error("high", str(exc)) from None
     return NoisePrior(None, low, high, mass, shape, scale)
@@ -275,7 +215,7 @@ def _parse_block(source: str, table: Any, taken: set[str]) -> CorrelatedBlock:
         raise r.error("names", "lists a name twice")
     for n in names:
         if n in taken:
-            raise r.error("names", f"{n!r} also has a [[coefficient]] entry")
+            raise r.error("names", f"{shown(n)} also has a [[coefficient]] entry")
     k = len(names)
     rows: tuple[RowStatement, ...] = ()
     mean = cov = None
@@ -334,7 +274,7 @@ def _parse_row(source: str, index: int, table: Any, names: list[str]) -> RowStat
         raise r.error("at", "must be a table of predictor values, e.g. at = {x = 1.0}")
     for key in at:
         if key not in needed:
-            raise r.error("at", f"{key!r} is not one of the names {', '.join(needed)}")
+            raise r.error("at", f"{shown(key)} is not one of the names {', '.join(needed)}")
     for key in needed:
         if key not in at:
             raise r.error("at", f"missing a value for {key!r}")

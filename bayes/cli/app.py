@@ -8,32 +8,21 @@ options and helpers in :mod:`bayes.cli.options`.
 
 from __future__ import annotations
 
-import sys
-
 import click
 
 from bayes.cli.fitting import fit_command, predict_command
 from bayes.cli.studies import compare_command, demo_command, report_command, sweep_command
+from elicit.guard import GuardedGroup
 
 
-class _Group(click.Group):
-    """Bad input ends with one line on stderr and exit status 2, never a traceback."""
+class _Group(GuardedGroup):
+    """Bad input ends with one line on stderr and exit status 2, a bug with one line and exit
+    status 1 (``bayes --debug``: the traceback), never a traceback otherwise
+    (:mod:`elicit.guard`)."""
 
-    def invoke(self, ctx):
-        from bayes.errors import InputError  # prior-file errors are input errors too
+    prog = "bayes"
 
-        try:
-            return super().invoke(ctx)
-        except InputError as e:
-            click.echo(f"error: {self._flagged(ctx, str(e))}", err=True)
-            sys.exit(2)
-        except OSError as e:  # an unwritable output, a full disk: name the path
-            if e.filename is None:
-                raise
-            click.echo(f"error: {e.filename}: {e.strerror or type(e).__name__}", err=True)
-            sys.exit(2)
-
-    def _flagged(self, ctx, message: str) -> str:
+    def input_message(self, ctx, message: str) -> str:
         """A library error names a parameter ("level must ..."): say the option it came from."""
         import re
 

@@ -142,6 +142,10 @@ def sweep_command(data, response, predictors, priors, formula, reference, drop_m
         raise InputError("bayes sweep needs --priors: there is nothing to widen without them")
     outputs = [("--save", Path(save_dir) / "sweep.json")] if save_dir else []
     outputs += [("--plot", plot_file)] if plot_file else []
+    if plot_file:  # a chart file type matplotlib cannot write: refused before the sweep
+        from bayes.report.sweep_chart import check_chart_path
+
+        check_chart_path(plot_file)
     check_outputs(outputs, [("the data file", data), ("the prior file", priors)])
     prior_set = load_priors(priors)
     design = design_from_options(data, response, predictors, prior_set, drop_missing, formula,

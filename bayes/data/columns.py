@@ -9,6 +9,7 @@ header being line 1) and the column.
 
 from __future__ import annotations
 
+import math
 import re
 from collections.abc import Mapping, Sequence
 
@@ -16,6 +17,8 @@ import numpy as np
 import pandas as pd
 
 from bayes.errors import InputError
+from elicit.errors import shown
+from elicit.limits import LARGEST, SMALLEST, UNITS
 
 # a number written with thousands separators ("1,234", "12,345.6") or a decimal comma ("3,5")
 SEPARATED = re.compile(r"^\s*[+-]?(?:\d{1,3}(?:,\d{3})+(?:\.\d*)?|\d+,\d+)\s*$")
@@ -36,40 +39,67 @@ def file_rows(frame: pd.DataFrame, positions: Sequence[int] | np.ndarray) -> np.
     return np.array([file_row(frame, i) for i in positions], dtype=int)
 
 
+def as_numbers(series: pd.Series) -> pd.Series:
+    """``series`` read as numbers, NaN where a value is not one; an integer beyond the float
+    range (pandas keeps one of hundreds of digits as a Python int) reads as +-inf."""
+    try:
+        return pd.to_numeric(series, errors="coerce")
+    except OverflowError:
+        values = [(math.inf if v > 0 else -math.inf) if isinstance(v, int) and abs(v) > LARGEST
+                  else v for v in series]  # fmt: skip
+        return pd.to_numeric(pd.Series(values, series.index, dtype=object), errors="coerce")
+
+
 def first_bad_number(series: pd.Series) -> int | None:
     """Position of the first present value of ``series`` that does not read as a number."""
     if pd.api.types.is_bool_dtype(series) or pd.api.types.is_numeric_dtype(series):
         return None
-    bad = pd.to_numeric(series, errors="coerce").isna().to_numpy() & series.notna().to_numpy()
+    bad = as_numbers(series).isna().to_numpy() & series.notna().to_numpy()
     return int(np.flatnonzero(bad)[0]) if bad.any() else None
 
 
 def numeric_values(frame: pd.DataFrame, column: str, *, source: str) -> np.ndarray:
     """Column ``column`` of ``frame`` as floats (booleans as 0/1; numbers held as text or
-    decimals are read as numbers).
+    decimals are read as numbers), each finite and at most :data:`elicit.limits.LARGEST` in
+    magnitude. The column holds no missing values (the callers check them first).
 
     Raises
     ------
     InputError
-        Naming the first value that is not a number and its file row (and saying so when
-        it is written with a thousands separator or a decimal comma).
+        Naming the first value that is not a number, not finite or too large, and its file
+        row (and saying so when it is written with a thousands separator or a decimal comma).
     """
     s = frame[column]
     if pd.api.types.is_bool_dtype(s) or pd.api.types.is_numeric_dtype(s):
-        return s.to_numpy(dtype=float)
-    i = first_bad_number(s)
-    if i is None:
-        return pd.to_numeric(s, errors="coerce").to_numpy(dtype=float)
-    value = s.iloc[i]
-    hint = ""
-    if isinstance(value, str) and SEPARATED.match(value):
-        hint = (
-            ": it has a thousands separator or decimal comma; the file must be fixed or the values "
-            "written plainly (1234.5)"
+        values = s.to_numpy(dtype=float)
+    elif (i := first_bad_number(s)) is None:
+        values = as_numbers(s).to_numpy(dtype=float)
+    else:
+        value = s.iloc[i]
+        hint = ""
+        if isinstance(value, str) and SEPARATED.match(value):
+            hint = (
+                ": it has a thousands separator or decimal comma; the file must be fixed or the "
+                "values written plainly (1234.5)"
+            )
+        raise InputError(
+            f"{source}: column '{column}' is not numeric (row {file_row(frame, i)}: "
+            f"{shown(value)}){hint}"
         )
-    raise InputError(
-        f"{source}: column '{column}' is not numeric (row {file_row(frame, i)}: {value!r}){hint}"
-    )
+    out = ~(np.abs(values) <= LARGEST)  # inf and nan too
+    if out.any():
+        i = int(np.flatnonzero(out)[0])
+        if np.isfinite(values[i]):
+            problem = f"a value beyond {LARGEST:g} in magnitude ({values[i]:g})"
+            raise InputError(
+                f"{source}: column '{column}' has {problem} at row {file_row(frame, i)}: {UNITS}"
+            )
+        beyond = " (or one beyond the float range)" if np.isinf(values[i]) else ""
+        raise InputError(
+            f"{source}: column '{column}' has a non-finite value{beyond} ({values[i]}) at row "
+            f"{file_row(frame, i)}"
+        )
+    return values
 
 
 def stack_columns(values: Mapping[str, np.ndarray], names: Sequence[str], n: int) -> np.ndarray:
@@ -89,7 +119,7 @@ def is_text(series: pd.Series) -> bool:
     present = series.dropna()
     if present.empty:
         return False
-    numbers = pd.to_numeric(present, errors="coerce").notna().to_numpy()
+    numbers = as_numbers(present).notna().to_numpy()
     separated = present.astype(str).str.match(SEPARATED).to_numpy()
     return bool((numbers | separated).mean() < 0.5)
 
@@ -188,32 +218,45 @@ def checked_values(
         sub = sub.loc[keep]
     labels = {c: np.array([str(v) for v in sub[c]], dtype=object) for c in text}
     values = {c: numeric_values(sub, c, source=source) for c in used if c not in labels}
-    for c, v in values.items():
-        if not np.all(np.isfinite(v)):
-            i = int(np.flatnonzero(~np.isfinite(v))[0])
-            raise InputError(
-                f"{source}: column '{c}' has a non-finite value at row {file_row(sub, i)}"
-            )
     return {c: labels[c] if c in labels else values[c] for c in used}, dropped
 
 
 def check_distinct(
     X: np.ndarray, y: np.ndarray, predictors: Sequence[str], response: str, *, source: str
 ) -> None:
-    """No constant predictor, no two identical predictors, no constant response.
+    """No constant predictor, no two identical columns (the response included), no constant
+    response; each column within the limits of :mod:`elicit.limits` (a derived term such as
+    ``I(x**3)`` may leave them) and varying by at least :data:`elicit.limits.SMALLEST` (the
+    square of a smaller spread underflows).
 
     Parameters
     ----------
     X : ndarray, shape (m, p)
     y : ndarray, shape (m,)
-        All rows, or any subset of rows that keeps the first row and witnesses
-        every variation and every difference between columns (bayes.data.stream).
+        All rows, or any subset of rows that keeps the first row, each column's smallest and
+        largest value and a row where any two columns differ (bayes.data.moments).
     """
     for j, c in enumerate(predictors):
-        if np.ptp(X[:, j]) == 0:
-            raise InputError(f"{source}: column '{c}' is constant ({X[0, j]:g}): it has no effect")
+        _check_spread(X[:, j], f"column '{c}'", source, f"({X[0, j]:g}): it has no effect")
         for k in range(j):
             if np.array_equal(X[:, j], X[:, k]):
                 raise InputError(f"{source}: columns '{predictors[k]}' and '{c}' are identical")
-    if np.ptp(y) == 0:
-        raise InputError(f"{source}: response '{response}' is constant")
+    _check_spread(y, f"response '{response}'", source)
+    for j, c in enumerate(predictors):  # its residuals would be exactly 0: no noise to fit
+        if np.array_equal(X[:, j], y):
+            raise InputError(f"{source}: response '{response}' is identical to column '{c}'")
+
+
+def _check_spread(v: np.ndarray, what: str, source: str, constant: str = "") -> None:
+    if not np.all(np.abs(v) <= LARGEST):  # a derived term: the data columns were checked
+        bad = v[~(np.abs(v) <= LARGEST)][0]
+        raise InputError(
+            f"{source}: {what} has a value beyond {LARGEST:g} in magnitude ({bad:g}): {UNITS}"
+        )
+    spread = float(np.ptp(v))
+    if spread == 0:
+        raise InputError(f"{source}: {what} is constant{' ' if constant else ''}{constant}")
+    if spread < SMALLEST:
+        raise InputError(
+            f"{source}: {what} varies by only {spread:g} (less than {SMALLEST:g}): {UNITS}"
+        )

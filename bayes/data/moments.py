@@ -52,10 +52,11 @@ class Moments:
     R : ndarray, shape (min(n, k), k)
         Triangular factor of the centred rows.
     witness : ndarray, shape (r, k)
-        The block's first row plus, for each column that varies, a row where it
-        differs from the first row and, for each pair of predictor columns that
-        differ, a row where they differ (r <= 1 + k + k(k - 1) / 2, whatever n):
-        :func:`bayes.data.columns.check_distinct` decides the same on these rows as on all.
+        The block's first row, a row holding each column's smallest and one holding its
+        largest value and, for each pair of columns that differ, a row where they differ
+        (r <= 1 + 2k + k(k - 1) / 2, whatever n):
+        :func:`bayes.data.columns.check_distinct` decides the same on these rows as on all
+        (each column's spread is the same).
     dropped : int
         Rows dropped for missing values.
     """
@@ -75,24 +76,18 @@ def _extend_witness(S: np.ndarray, V: np.ndarray) -> np.ndarray:
     """Witness rows of ``S`` and ``V`` together (see :class:`Moments`); columns as there."""
     if len(V) == 0:
         return S
-    if len(S) == 0:
-        S = V[:1]
-    flat = np.flatnonzero(np.all(S == S[0], axis=0))  # columns not yet seen to vary
-    take, start = set(), 0
-    for stop in (min(len(V), 64), len(V)):  # most columns vary within a few rows
-        differs = V[start:stop, flat] != S[0, flat]
-        hit = differs.any(axis=0)
-        take.update(start + int(np.argmax(d)) for d in differs.T[hit])
-        flat, start = flat[~hit], stop
-    S = np.vstack([S, V[sorted(take)]]) if take else S
-    P = S[:, :-1]  # predictor columns
-    same = np.triu(np.all(P[:, :, None] == P[:, None, :], axis=0), 1)
-    take = set()
+    ends = np.unique(np.concatenate([[0], V.argmin(axis=0), V.argmax(axis=0)]))
+    C = V[ends] if len(S) == 0 else np.vstack([S, V[ends]])  # a few rows: S's and V's ends
+    W = C[np.unique(np.concatenate([[0], C.argmin(axis=0), C.argmax(axis=0)]))]
+    same = np.triu(np.all(W[:, :, None] == W[:, None, :], axis=0), 1)  # the response too
+    take = []
     for j, k in zip(*np.nonzero(same), strict=True):
-        hit = np.flatnonzero(V[:, j] != V[:, k])
-        if hit.size:
-            take.add(int(hit[0]))
-    return np.vstack([S, V[sorted(take)]]) if take else S
+        for block in (S, V):  # S holds a row where they differ if any earlier row did
+            hit = np.flatnonzero(block[:, j] != block[:, k])
+            if hit.size:
+                take.append(block[hit[0]])
+                break
+    return np.vstack([W, *take]) if take else W
 
 
 def block_moments(

@@ -10,6 +10,7 @@ the current one is factorised.
 
 from __future__ import annotations
 
+import contextlib
 import os
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from concurrent.futures import ThreadPoolExecutor
@@ -319,9 +320,11 @@ def stream_factor(
         chunks = _csv_chunks(path, chunk_rows)
     # One core parses, the other factorises: BLAS threads would only oversubscribe the
     # cores, and OpenBLAS waking a second thread for every small leaf QR is very slow.
-    with one_blas_thread():
+    # closed here, in this thread, when a bad chunk stops the fold (left to the garbage
+    # collector, the reader could be closed in its own thread, which cannot join itself)
+    with one_blas_thread(), contextlib.closing(_read_ahead(chunks)) as ahead:
         state, rows, predictors = fold(
-            _read_ahead(chunks), response, predictors, source=source, drop_missing=drop_missing,
+            ahead, response, predictors, source=source, drop_missing=drop_missing,
             progress=progress,
         )  # fmt: skip
     return finish(state, rows, response, predictors, path=path)

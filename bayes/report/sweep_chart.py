@@ -14,6 +14,26 @@ import numpy as np
 
 from elicit.units import term_units
 
+CHART_SUFFIXES = (".png", ".svg", ".pdf")  # the file types a chart is written as
+
+
+def check_chart_path(path: str | os.PathLike, *, option: str = "--plot") -> None:
+    """Refuse, before any work, a chart file whose name is not .png, .svg or .pdf.
+
+    Raises
+    ------
+    InputError
+        Naming ``option`` and the file.
+    """
+    from bayes.errors import InputError
+
+    if Path(path).suffix.lower() not in CHART_SUFFIXES:
+        raise InputError(
+            f"{option}: {path}: a chart is written as {', '.join(CHART_SUFFIXES)}: "
+            "name the file with one of these"
+        )
+
+
 # Okabe and Ito's colour-blind-safe palette.
 _BLUE, _ORANGE, _GREEN, _PURPLE, _GREY = "#0072B2", "#E69F00", "#009E73", "#CC79A7", "#555555"
 
@@ -114,6 +134,7 @@ def plot_sweep(sweep, path_or_axes=None, *, intercept: bool = False):
         fig.legend(handles, labels, loc="outside lower center", ncols=min(3, len(labels)),
                    frameon=False, fontsize=8)  # fmt: skip
     if isinstance(target, (str, os.PathLike)):
+        check_chart_path(target, option="path_or_axes")
         _save(fig, Path(target))
     return fig
 
