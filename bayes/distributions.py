@@ -12,6 +12,7 @@ distribution or for many at once.
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -162,6 +163,28 @@ class Empirical(Distribution):
         return stats.gaussian_kde(self.draws)(np.asarray(x, dtype=float))
 
 
+def intervals(dists: Sequence[Distribution], level: float) -> list[tuple[float, float]]:
+    """``d.interval(level)`` of each distribution; the normal mixtures that share one array of
+    weights (a posterior's coefficients) are solved together by one :func:`mixture_quantile`."""
+    out: list[tuple[float, float] | None] = [None] * len(dists)
+    groups: dict[int, list[int]] = {}
+    for i, d in enumerate(dists):
+        if isinstance(d, NormalMixture):
+            groups.setdefault(id(d.weights), []).append(i)
+        else:
+            out[i] = d.interval(level)
+    a = (1.0 - level) / 2.0
+    for members in groups.values():
+        weights = dists[members[0]].weights
+        locs = np.array([dists[i].locs for i in members])
+        scales = np.array([dists[i].scales for i in members])
+        lower = mixture_quantile(weights, locs, scales, a)
+        upper = mixture_quantile(weights, locs, scales, 1.0 - a)
+        for i, lo, hi in zip(members, lower, upper, strict=True):
+            out[i] = (float(lo), float(hi))
+    return out
+
+
 def _probability(p) -> float:
     return float(min(max(p, 0.0), 1.0))
 
@@ -212,6 +235,7 @@ def mixture_quantile(
     shift, smin = locs * inv, scales.min(axis=1)
     dens_weights = weights / np.sqrt(2 * np.pi)
     live = np.arange(len(x))  # the mixtures still searching; the others have converged
+    settled = np.zeros(len(x), dtype=bool)  # converged but still in ``live``: x stays put
     z = np.empty_like(locs)
     for _ in range(200):
         zl = z[: len(live)]
@@ -234,12 +258,14 @@ def mixture_quantile(
         # sending it to the midpoint would restart the search by bisection.
         outside = ~((new >= lol) & (new <= hil))
         new = np.where(outside, 0.5 * (lol + hil), new)
+        new = np.where(settled, xl, new)  # each mixture stops at its own last step
         tol = 1e-15 * (np.abs(new) + smin[live])
-        done = (np.abs(new - xl) <= tol) | (hil - lol <= tol)
+        done = settled | (np.abs(new - xl) <= tol) | (hil - lol <= tol)
         x[live], lo[live], hi[live] = new, lol, hil
         if np.all(done):
             break
+        settled = done
         if done.mean() > 0.25:  # drop the converged mixtures from the search
             keep = ~done
-            live, inv, shift = live[keep], inv[keep], shift[keep]
+            live, inv, shift, settled = live[keep], inv[keep], shift[keep], settled[keep]
     return x

@@ -9,6 +9,7 @@ header being line 1) and the column.
 
 from __future__ import annotations
 
+import hashlib
 import re
 from collections.abc import Mapping, Sequence
 
@@ -209,11 +210,15 @@ def check_distinct(
         All rows, or any subset of rows that keeps the first row and witnesses
         every variation and every difference between columns (bayes.data.stream).
     """
+    seen: dict[bytes, list[int]] = {}  # digest of a column's values -> the columns so far
     for j, c in enumerate(predictors):
         if np.ptp(X[:, j]) == 0:
             raise InputError(f"{source}: column '{c}' is constant ({X[0, j]:g}): it has no effect")
-        for k in range(j):
+        # + 0.0 makes -0.0 into 0.0, so that equal columns (array_equal) have equal bytes
+        key = hashlib.blake2b((X[:, j] + 0.0).tobytes(), digest_size=16).digest()
+        for k in seen.setdefault(key, []):
             if np.array_equal(X[:, j], X[:, k]):
                 raise InputError(f"{source}: columns '{predictors[k]}' and '{c}' are identical")
+        seen[key].append(j)
     if np.ptp(y) == 0:
         raise InputError(f"{source}: response '{response}' is constant")
