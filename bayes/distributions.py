@@ -210,8 +210,10 @@ def mixture_quantile(
 
     Notes
     -----
-    Safeguarded Newton, vectorised over the mixtures: the quantile lies between the
-    components' own quantiles, a bracket kept closed around every iterate. For q > 1/2
+    Safeguarded Halley (Newton with the density's slope), vectorised over the mixtures: the
+    quantile lies between the components' own quantiles, a bracket kept closed around every
+    iterate; a mixture stops once its step, or the error its step leaves, is below 1e-15
+    relative. For q > 1/2
     the lower tail of ``-beta`` is solved instead, whose cdf resolves ``1 - q`` to full
     precision.
     """
@@ -236,20 +238,31 @@ def mixture_quantile(
     dens_weights = weights / np.sqrt(2 * np.pi)
     live = np.arange(len(x))  # the mixtures still searching; the others have converged
     settled = np.zeros(len(x), dtype=bool)  # converged but still in ``live``: x stays put
-    z = np.empty_like(locs)
+    z, zz = np.empty_like(locs), np.empty_like(locs)
     for _ in range(200):
-        zl = z[: len(live)]
+        zl, zd = z[: len(live)], zz[: len(live)]
         np.multiply(x[live, None], inv, out=zl)
         zl -= shift
         F = special.ndtr(zl) @ weights - q
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             # far tails overflow to a zero density: the step is then a bisection
+            np.multiply(zl, inv, out=zd)  # z / s, for the density's slope
             np.square(zl, out=zl)
             zl *= -0.5
             np.exp(zl, out=zl)
             zl *= inv
             dens = zl @ dens_weights
-            step = np.where(dens > 0, F / dens, np.inf)
+            zd *= zl
+            slope = -(zd @ dens_weights)  # d dens / dx
+            newton = np.where(dens > 0, F / dens, np.inf)
+            # Halley's correction of the Newton step (cubic convergence), kept only where it
+            # is a modest change of the Newton step; the bracket guards either.
+            curve = 0.5 * newton * slope / dens
+            step = np.where(np.abs(curve) < 0.5, newton / (1.0 - curve), newton)
+            # The error left after this step is at most about |slope / (2 dens)| step^2
+            # (Newton's; Halley's is smaller): below the tolerance, no further evaluation
+            # is needed to confirm it.
+            left = np.abs(0.5 * slope / dens) * step**2
         xl, lol, hil = x[live], lo[live], hi[live]
         lol = np.where(F < 0, xl, lol)
         hil = np.where(F > 0, xl, hil)
@@ -261,6 +274,7 @@ def mixture_quantile(
         new = np.where(settled, xl, new)  # each mixture stops at its own last step
         tol = 1e-15 * (np.abs(new) + smin[live])
         done = settled | (np.abs(new - xl) <= tol) | (hil - lol <= tol)
+        done |= ~outside & (left <= tol)
         x[live], lo[live], hi[live] = new, lol, hil
         if np.all(done):
             break
