@@ -232,7 +232,7 @@ def mixture_quantile(
     scales = np.where(scales > 0, scales, np.finfo(float).tiny)
     each = locs + zq * scales
     lo, hi = each.min(axis=1), each.max(axis=1)
-    x = each @ weights
+    x = _rows_dot(each, weights)
     inv = 1.0 / scales  # the loop multiplies; a few (k, K) temporaries, reused in place
     shift, smin = locs * inv, scales.min(axis=1)
     dens_weights = weights / np.sqrt(2 * np.pi)
@@ -243,7 +243,7 @@ def mixture_quantile(
         zl, zd = z[: len(live)], zz[: len(live)]
         np.multiply(x[live, None], inv, out=zl)
         zl -= shift
-        F = special.ndtr(zl) @ weights - q
+        F = _rows_dot(special.ndtr(zl), weights) - q
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             # far tails overflow to a zero density: the step is then a bisection
             np.multiply(zl, inv, out=zd)  # z / s, for the density's slope
@@ -251,9 +251,9 @@ def mixture_quantile(
             zl *= -0.5
             np.exp(zl, out=zl)
             zl *= inv
-            dens = zl @ dens_weights
+            dens = _rows_dot(zl, dens_weights)
             zd *= zl
-            slope = -(zd @ dens_weights)  # d dens / dx
+            slope = -_rows_dot(zd, dens_weights)  # d dens / dx
             newton = np.where(dens > 0, F / dens, np.inf)
             # Halley's correction of the Newton step (cubic convergence), kept only where it
             # is a modest change of the Newton step; the bracket guards either.
@@ -283,3 +283,10 @@ def mixture_quantile(
             keep = ~done
             live, inv, shift, settled = live[keep], inv[keep], shift[keep], settled[keep]
     return x
+
+
+def _rows_dot(M: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """``M @ v`` summed row by row in one order whatever the number of rows (BLAS's matrix-
+    vector kernels round a row by how many there are), so that mixtures solved together get
+    the very numbers each gets alone."""
+    return np.einsum("ij,j->i", M, v)
