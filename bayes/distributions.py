@@ -12,6 +12,7 @@ distribution or for many at once.
 from __future__ import annotations
 
 from abc import ABC, abstractmethod
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -162,6 +163,28 @@ class Empirical(Distribution):
         return stats.gaussian_kde(self.draws)(np.asarray(x, dtype=float))
 
 
+def intervals(dists: Sequence[Distribution], level: float) -> list[tuple[float, float]]:
+    """``d.interval(level)`` of each distribution; the normal mixtures that share one array of
+    weights (a posterior's coefficients) are solved together by one :func:`mixture_quantile`."""
+    out: list[tuple[float, float] | None] = [None] * len(dists)
+    groups: dict[int, list[int]] = {}
+    for i, d in enumerate(dists):
+        if isinstance(d, NormalMixture):
+            groups.setdefault(id(d.weights), []).append(i)
+        else:
+            out[i] = d.interval(level)
+    a = (1.0 - level) / 2.0
+    for members in groups.values():
+        weights = dists[members[0]].weights
+        locs = np.array([dists[i].locs for i in members])
+        scales = np.array([dists[i].scales for i in members])
+        lower = mixture_quantile(weights, locs, scales, a)
+        upper = mixture_quantile(weights, locs, scales, 1.0 - a)
+        for i, lo, hi in zip(members, lower, upper, strict=True):
+            out[i] = (float(lo), float(hi))
+    return out
+
+
 def _probability(p) -> float:
     return float(min(max(p, 0.0), 1.0))
 
@@ -187,8 +210,10 @@ def mixture_quantile(
 
     Notes
     -----
-    Safeguarded Newton, vectorised over the mixtures: the quantile lies between the
-    components' own quantiles, a bracket kept closed around every iterate. For q > 1/2
+    Safeguarded Halley (Newton with the density's slope), vectorised over the mixtures: the
+    quantile lies between the components' own quantiles, a bracket kept closed around every
+    iterate; a mixture stops once its step, or the error its step leaves, is below 1e-15
+    relative. For q > 1/2
     the lower tail of ``-beta`` is solved instead, whose cdf resolves ``1 - q`` to full
     precision.
     """
@@ -207,25 +232,37 @@ def mixture_quantile(
     scales = np.where(scales > 0, scales, np.finfo(float).tiny)
     each = locs + zq * scales
     lo, hi = each.min(axis=1), each.max(axis=1)
-    x = each @ weights
+    x = _rows_dot(each, weights)
     inv = 1.0 / scales  # the loop multiplies; a few (k, K) temporaries, reused in place
     shift, smin = locs * inv, scales.min(axis=1)
     dens_weights = weights / np.sqrt(2 * np.pi)
     live = np.arange(len(x))  # the mixtures still searching; the others have converged
-    z = np.empty_like(locs)
+    settled = np.zeros(len(x), dtype=bool)  # converged but still in ``live``: x stays put
+    z, zz = np.empty_like(locs), np.empty_like(locs)
     for _ in range(200):
-        zl = z[: len(live)]
+        zl, zd = z[: len(live)], zz[: len(live)]
         np.multiply(x[live, None], inv, out=zl)
         zl -= shift
-        F = special.ndtr(zl) @ weights - q
+        F = _rows_dot(special.ndtr(zl), weights) - q
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             # far tails overflow to a zero density: the step is then a bisection
+            np.multiply(zl, inv, out=zd)  # z / s, for the density's slope
             np.square(zl, out=zl)
             zl *= -0.5
             np.exp(zl, out=zl)
             zl *= inv
-            dens = zl @ dens_weights
-            step = np.where(dens > 0, F / dens, np.inf)
+            dens = _rows_dot(zl, dens_weights)
+            zd *= zl
+            slope = -_rows_dot(zd, dens_weights)  # d dens / dx
+            newton = np.where(dens > 0, F / dens, np.inf)
+            # Halley's correction of the Newton step (cubic convergence), kept only where it
+            # is a modest change of the Newton step; the bracket guards either.
+            curve = 0.5 * newton * slope / dens
+            step = np.where(np.abs(curve) < 0.5, newton / (1.0 - curve), newton)
+            # The error left after this step is at most about |slope / (2 dens)| step^2
+            # (Newton's; Halley's is smaller): below the tolerance, no further evaluation
+            # is needed to confirm it.
+            left = np.abs(0.5 * slope / dens) * step**2
         xl, lol, hil = x[live], lo[live], hi[live]
         lol = np.where(F < 0, xl, lol)
         hil = np.where(F > 0, xl, hil)
@@ -234,12 +271,22 @@ def mixture_quantile(
         # sending it to the midpoint would restart the search by bisection.
         outside = ~((new >= lol) & (new <= hil))
         new = np.where(outside, 0.5 * (lol + hil), new)
+        new = np.where(settled, xl, new)  # each mixture stops at its own last step
         tol = 1e-15 * (np.abs(new) + smin[live])
-        done = (np.abs(new - xl) <= tol) | (hil - lol <= tol)
+        done = settled | (np.abs(new - xl) <= tol) | (hil - lol <= tol)
+        done |= ~outside & (left <= tol)
         x[live], lo[live], hi[live] = new, lol, hil
         if np.all(done):
             break
+        settled = done
         if done.mean() > 0.25:  # drop the converged mixtures from the search
             keep = ~done
-            live, inv, shift = live[keep], inv[keep], shift[keep]
+            live, inv, shift, settled = live[keep], inv[keep], shift[keep], settled[keep]
     return x
+
+
+def _rows_dot(M: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """``M @ v`` summed row by row in one order whatever the number of rows (BLAS's matrix-
+    vector kernels round a row by how many there are), so that mixtures solved together get
+    the very numbers each gets alone."""
+    return np.einsum("ij,j->i", M, v)

@@ -9,6 +9,7 @@ header being line 1) and the column.
 
 from __future__ import annotations
 
+import hashlib
 import math
 import re
 from collections.abc import Mapping, Sequence
@@ -236,11 +237,15 @@ def check_distinct(
         All rows, or any subset of rows that keeps the first row, each column's smallest and
         largest value and a row where any two columns differ (bayes.data.moments).
     """
+    seen: dict[bytes, list[int]] = {}  # digest of a column's values -> the columns so far
     for j, c in enumerate(predictors):
         _check_spread(X[:, j], f"column '{c}'", source, f"({X[0, j]:g}): it has no effect")
-        for k in range(j):
+        # + 0.0 makes -0.0 into 0.0, so that equal columns (array_equal) have equal bytes
+        key = hashlib.blake2b((X[:, j] + 0.0).tobytes(), digest_size=16).digest()
+        for k in seen.setdefault(key, []):
             if np.array_equal(X[:, j], X[:, k]):
                 raise InputError(f"{source}: columns '{predictors[k]}' and '{c}' are identical")
+        seen[key].append(j)
     _check_spread(y, f"response '{response}'", source)
     for j, c in enumerate(predictors):  # its residuals would be exactly 0: no noise to fit
         if np.array_equal(X[:, j], y):

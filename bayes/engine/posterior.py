@@ -86,6 +86,10 @@ class Posterior(ReadOnlyArrays, ABC):
         """Marginal posterior of coefficient j."""
         return self.marginal(np.eye(self.k)[j])
 
+    def coefficients(self) -> list[Distribution]:
+        """The marginal posterior of every coefficient, in order (as :meth:`coefficient`)."""
+        return [self.coefficient(j) for j in range(self.k)]
+
 
 @dataclass(frozen=True, eq=False, kw_only=True)
 class MixturePosterior(Posterior):
@@ -143,6 +147,34 @@ class MixturePosterior(Posterior):
         if self.tail_df <= 2 and (noise or self._grows(a[None])[0, 0]):
             return InfiniteVarianceMixture(self.weights, locs, scales)
         return NormalMixture(self.weights, locs, scales)
+
+    def coefficients(self) -> list[Distribution]:
+        """Every coefficient's marginal at once, equal to :meth:`marginal` of the unit vectors.
+
+        With finite moments ``means @ e_j`` and ``e_j' covs e_j`` are exactly the j-th column
+        and diagonal (every other term is an exact zero), so they are read off instead of
+        contracted k times, which costs O(K k^3) for a wide model.
+        """
+        if not (np.all(np.isfinite(self.means)) and np.all(np.isfinite(self.covs))):
+            return super().coefficients()
+        locs = 0.0 + self.means.T  # (k, K), as ``offset + means @ a``
+        scales = np.sqrt(np.maximum(np.diagonal(self.covs, axis1=1, axis2=2).T, 0.0))
+        if np.isfinite(self.df):
+            return [
+                StudentT(float(m[0]), float(s[0]), self.df)
+                for m, s in zip(locs, scales, strict=True)
+            ]
+        grows = np.zeros(self.k, dtype=bool)
+        if self.tail_df <= 2 and self.growth is not None:
+            dev = self.means - self.mean
+            ref = np.abs(self.weights @ np.diagonal(self.covs, axis1=1, axis2=2)
+                         + self.weights @ dev**2)  # fmt: skip
+            grow = np.abs(np.diag(self.growth)) * float(self.weights @ self.sigma**2)
+            grows = grow > 1e-12 * ref
+        return [
+            (InfiniteVarianceMixture if g else NormalMixture)(self.weights, m, s)
+            for m, s, g in zip(locs, scales, grows, strict=True)
+        ]
 
     def _mixture_cov(self) -> np.ndarray:
         """The covariance of the mixture itself (over the quadrature's nodes)."""

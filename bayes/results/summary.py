@@ -7,6 +7,7 @@ import math
 import numpy as np
 from scipy import linalg
 
+from bayes.distributions import intervals
 from bayes.engine.likelihood import data_rows
 from bayes.engine.posterior import Posterior
 from bayes.problem import DataFactor, natural_transform
@@ -45,13 +46,23 @@ def condition_number(factor: DataFactor) -> float:
     return float(s[0] / s[-1])
 
 
+def priors_by_column(priors) -> dict:
+    """Each design column's coefficient prior, as ``priors.get(column)`` (the first of a
+    column's priors), looked up once for all columns instead of a search per column."""
+    found: dict = {}
+    for cp in getattr(priors, "coefficients", ()) if priors is not None else ():
+        found.setdefault(cp.column, cp)
+    return found
+
+
 def every_prior_flat(priors, names) -> bool:
     """True when no coefficient of ``names`` has a proper prior (no prior file, or only flat)."""
     if priors is None:
         return True
     if getattr(priors, "block", None) is not None:
         return False
-    return all((cp := priors.get(n)) is None or cp.family == "flat" for n in names)
+    found = priors_by_column(priors)
+    return all((cp := found.get(n)) is None or cp.family == "flat" for n in names)
 
 
 def least_squares_se(factor: DataFactor) -> np.ndarray | None:
@@ -81,10 +92,13 @@ def coefficient_rows(
     None otherwise.
     """
     rows = []
-    for j, name in enumerate(posterior.names):
-        cp = priors.get(name) if priors is not None else None
-        m = posterior.coefficient(j)
-        lower, upper = m.interval(level)
+    marginals = posterior.coefficients()
+    ends = intervals(marginals, level)
+    found = priors_by_column(priors)
+    for j, (name, m, (lower, upper)) in enumerate(
+        zip(posterior.names, marginals, ends, strict=True)
+    ):
+        cp = found.get(name)
         sd = m.sd
         psd = prior_sd(cp)
         rows.append(
