@@ -20,10 +20,11 @@ from elicit import convert
 from elicit.conditional import CorrelatedBlock, RowStatement, from_stated_rows
 from elicit.errors import ElicitationWarning, PriorFileError
 from elicit.fields import FieldReader
-from elicit.pool import DEFAULT_METHOD, METHODS
+from elicit.noise_record import NOISE_RECORD_KEYS, noise_record
+from elicit.pool import METHODS
+from elicit.pool_table import POOL_KEYS, pool_choice
 from elicit.spec import (
     INTERCEPT,
-    POOL_FAMILIES,
     CoefficientPrior,
     NoisePrior,
     PriorSet,
@@ -41,8 +42,7 @@ _TOP_KEYS = frozenset(
     {"study", "units", "noise", "pool", "coefficient", "correlation", "reference_row"}
 )
 _STUDY_KEYS = frozenset({"title", "response", "response_units"})
-_NOISE_KEYS = frozenset({"sd", "low", "high", "mass", "shape", "scale"})
-_POOL_KEYS = frozenset({"method", "family", "df"})
+_NOISE_KEYS = frozenset({"sd", "low", "high", "mass", "shape", "scale"}) | NOISE_RECORD_KEYS
 _CORRELATION_KEYS = frozenset({"names", "mean", "cov", "row"})
 _ROW_KEYS = frozenset({"at", "low", "high", "mass", "expert", "rationale"})
 
@@ -151,17 +151,7 @@ def _parse_coefficients(
 ) -> tuple[CoefficientPrior, ...]:
     if not isinstance(entries, list):
         raise PriorFileError(f"{source}: coefficient: must be an array of tables [[coefficient]]")
-    method = DEFAULT_METHOD
-    pool_family = pool_df = None
-    if pool_table is not None:
-        method = pool_table.text("method") or DEFAULT_METHOD
-        if method not in METHODS:
-            raise pool_table.error("method", f"must be one of {', '.join(METHODS)}, got {method!r}")
-        pool_family = pool_table.text("family")
-        if pool_family is not None and pool_family not in POOL_FAMILIES:
-            raise pool_table.error("family", f"unknown family {pool_family!r}")
-        pool_df = pool_table.number("df", positive=True)
-
+    choice = pool_choice(pool_table)
     groups: dict[str, dict[str, Any]] = {}
     for index, table in enumerate(entries, 1):
         r = FieldReader(source, _entry_label(index, table), table, _ENTRY_KEYS)
@@ -193,7 +183,8 @@ def _parse_coefficients(
         if len(statements) > 1 and "flat" in families and families != {"flat"}:
             raise first.error("family", f"cannot pool a flat entry for {column} with others")
         shared = families.pop() if len(families) == 1 else None
-        family = (pool_family or shared) if len(statements) > 1 else shared
+        chosen = choice.family_for(group["name"], group["level"])
+        family = (chosen or shared) if len(statements) > 1 else shared
         if family is None:
             raise first.error(
                 "family", f"entries for {column} differ in family: set family in [pool]"
@@ -201,10 +192,15 @@ def _parse_coefficients(
         df = None
         if family == "student_t":
             dfs = [s.df for s in statements if s.df is not None]
-            df = pool_df or (min(dfs) if dfs else convert.DEFAULT_DF)
+            df = choice.df or (min(dfs) if dfs else convert.DEFAULT_DF)
         out.append(
             CoefficientPrior.from_statements(
-                group["name"], group["level"], statements, family=family, df=df, method=method
+                group["name"],
+                group["level"],
+                statements,
+                family=family,
+                df=df,
+                method=choice.method,
             )
         )
     return tuple(out)
@@ -241,8 +237,8 @@ def _parse_record(r: FieldReader, name: str, level: str | None) -> CoefficientPr
     return CoefficientPrior(name, level, family, center, scale, df, statements, method, misfit)
 
 
-def _parse_noise(source: str, table: Any) -> NoisePrior:
-    r = FieldReader(source, "[noise]", table, _NOISE_KEYS)
+def _parse_noise(source: str, table: Any, where: str = "[noise]") -> NoisePrior:
+    r = FieldReader(source, where, table, _NOISE_KEYS)
     given = [k for k in ("sd", "low", "high", "mass", "shape", "scale") if r.has(k)]
     if not given:
         raise r.error(None, "give sd, or low/high/mass, or shape/scale")
@@ -379,8 +375,8 @@ def parse_priors(doc: Mapping[str, Any], *, source: str = "<priors>") -> PriorSe
     study = FieldReader(source, "[study]", doc.get("study", {}), _STUDY_KEYS)
     units_table = FieldReader(source, "[units]", doc.get("units", {}), None)
     units = {k: units_table.text(k) for k in units_table.table}
-    noise = _parse_noise(source, doc["noise"]) if top.has("noise") else None
-    pool_table = FieldReader(source, "[pool]", doc["pool"], _POOL_KEYS) if top.has("pool") else None
+    noise = noise_record(source, doc["noise"], _parse_noise) if top.has("noise") else None
+    pool_table = FieldReader(source, "[pool]", doc["pool"], POOL_KEYS) if top.has("pool") else None
     coefficients = _parse_coefficients(source, doc.get("coefficient", []), pool_table)
     block = None
     if top.has("correlation"):
