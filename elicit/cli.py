@@ -39,8 +39,8 @@ class _Group(click.Group):
             click.echo(f"elicit: {' '.join(exc.format_message().split())}", err=True)
             sys.exit(exc.exit_code)
         except click.Abort:
-            click.echo("elicit: aborted", err=True)
-            sys.exit(1)
+            click.echo("elicit: interrupted; nothing was written", err=True)
+            sys.exit(2)
         sys.exit(code if isinstance(code, int) else 0)
 
 
@@ -280,12 +280,26 @@ def interview(
     try:
         session.run(terms, noise=not no_noise, conditional=conditional)
     except click.Abort:
-        click.echo(
-            f"\nelicit: interview stopped; accepted answers are in {out}; "
-            "run the same command to resume",
-            err=True,
-        )
+        click.echo(f"\nelicit: interview stopped; {_kept(Path(out))}", err=True)
         sys.exit(2)  # an interrupted interview is bad input: status 2, nothing lost
+
+
+def _kept(out: Path) -> str:
+    """What an interrupted interview keeps, as it is on disk."""
+    from elicit.outfile import sidecar
+
+    draft = sidecar(out, ".draft")
+    if out.exists():
+        kept = f"accepted answers are in {out}"
+        if draft.exists():
+            kept += f"; the answers typed for the current question are kept in {draft}"
+    elif draft.exists():
+        kept = (
+            f"nothing accepted yet; the answers typed for the current question are kept in {draft}"
+        )
+    else:
+        return "nothing accepted yet; nothing written"
+    return kept + "; run the same command to resume"
 
 
 if __name__ == "__main__":
