@@ -142,7 +142,7 @@ def pool_files(
         coefficients.append(CoefficientPrior.from_statements(
             c.name, c.level, statements, family=fam, df=df, method=choice.method))  # fmt: skip
     noises = [
-        n if n.expert else replace(n, expert=Path(path).name)
+        n if n.expert or n.pool else replace(n, expert=Path(path).name)
         for (path, _), ps in zip(docs, sets, strict=True)
         if (n := ps.noise) is not None
     ]
