@@ -86,7 +86,10 @@ def main() -> None:
 @click.option("--response", help="Response column of --data (default: [study] response).")
 @click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text")
 def show(priors: str, noise_sd: float | None, data: str | None, response: str | None, fmt: str):
-    """Show each prior's parameters and what it implies."""
+    """Show each prior's parameters and what it implies.
+
+    The prior file's tables and keys, with examples: docs/prior-file.md.
+    """
     from elicit.feedback import feedback
     from elicit.read import read_prior_file
     from elicit.show import format_text, to_json
