@@ -17,7 +17,8 @@ X1 = ["normal", "1", "1", "4", "0.9", "analyst A", "", "a"]
 
 
 def command(tmp_path, data=None):
-    return [sys.executable, "-m", "elicit.cli", "interview", "--data", str(data or tmp_path / "d.csv"),
+    data = data or tmp_path / "d.csv"
+    return [sys.executable, "-m", "elicit.cli", "interview", "--data", str(data),
             "--response", "y", "--out", str(tmp_path / "p.toml")]  # fmt: skip
 
 
@@ -32,7 +33,7 @@ def wait_for(predicate, what, limit=60.0):
 
 
 def interrupt_at(tmp_path, typed, prompt, count=1):
-    """Start the interview, type ``typed``, send SIGINT once ``prompt`` was shown ``count`` times."""
+    """Start the interview, type ``typed``; SIGINT once ``prompt`` was shown ``count`` times."""
     (tmp_path / "d.csv").write_text(DATA)
     log = tmp_path / "out.txt"
     env = dict(os.environ, PYTHONPATH=str(ROOT), PYTHONUNBUFFERED="1")

@@ -32,7 +32,8 @@ def key_sets() -> dict[str, frozenset]:
 def test_the_key_sets_are_found():
     sets = key_sets()
     assert {"validate._STATEMENT_KEYS", "validate._NOISE_KEYS", "pool_table.POOL_KEYS",
-            "noise_record.NOISE_RECORD_KEYS", "validate_mixture.COMPONENT_KEYS"} <= set(sets)  # fmt: skip
+            "noise_record.NOISE_RECORD_KEYS", "validate_mixture.COMPONENT_KEYS"} <= set(
+        sets)  # fmt: skip
 
 
 def test_every_key_is_documented():
