@@ -34,8 +34,8 @@ class _Group(GuardedGroup):
             click.echo(f"elicit: {one_line(exc.format_message())}", err=True)
             sys.exit(exc.exit_code)
         except click.Abort:
-            click.echo("elicit: aborted", err=True)
-            sys.exit(1)
+            click.echo("elicit: interrupted; nothing was written", err=True)
+            sys.exit(2)
         sys.exit(code if isinstance(code, int) else 0)
 
 
@@ -75,7 +75,10 @@ def main() -> None:
 @click.option("--response", help="Response column of --data (default: [study] response).")
 @click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text")
 def show(priors: str, noise_sd: float | None, data: str | None, response: str | None, fmt: str):
-    """Show each prior's parameters and what it implies."""
+    """Show each prior's parameters and what it implies.
+
+    The prior file's tables and keys, with examples: docs/prior-file.md.
+    """
     from elicit.feedback import feedback
     from elicit.read import read_prior_file
     from elicit.show import format_text, to_json
@@ -96,29 +99,76 @@ def show(priors: str, noise_sd: float | None, data: str | None, response: str | 
         click.echo(format_text(fb), nl=False)
 
 
+def _pairs(option: str, values: tuple[str, ...]) -> dict[str, str]:
+    """``NAME=VALUE`` options as a mapping (split at the last ``=``)."""
+    out = {}
+    for text in values:
+        name, eq, value = text.rpartition("=")
+        if not eq or not name.strip() or not value.strip():
+            raise BadInput(f"{option}: expected NAME=VALUE, got {text!r}")
+        out[name.strip()] = value.strip()
+    return out
+
+
+def _pool_families(values: tuple[str, ...]) -> str | dict[str, str] | None:
+    from elicit.spec import POOL_FAMILIES
+
+    every = [v for v in values if "=" not in v]
+    chosen = _pairs("--family", tuple(v for v in values if "=" in v))
+    for fam in [*every, *chosen.values()]:
+        if fam not in POOL_FAMILIES:
+            raise BadInput(
+                f"--family: unknown family {fam!r} (expected {', '.join(POOL_FAMILIES)})"
+            )
+    if every and chosen:
+        raise BadInput("--family: give one family for all, or COLUMN=FAMILY options, not both")
+    return every[-1] if every else (chosen or None)
+
+
+def _pool_weights(values: tuple[str, ...]) -> dict[str, float]:
+    weights = {}
+    for name, text in _pairs("--weight", values).items():
+        try:
+            weights[name] = float(text)
+        except ValueError:
+            raise BadInput(f"--weight: {name}: not a number: {text!r}") from None
+        if not (0 < weights[name] < float("inf")):
+            raise BadInput(f"--weight: {name}: must be positive and finite, got {text}")
+    return weights
+
+
 @main.command()
-@click.argument("priors", type=click.Path(dir_okay=False))
+@click.argument("priors", nargs=-1, required=True, type=click.Path(dir_okay=False))
 @click.option("--out", required=True, type=click.Path(dir_okay=False), help="Pooled prior file.")
 @click.option("--method", type=click.Choice(["linear", "log"]), help="Overrides [pool] method.")
-@click.option("--family", type=click.Choice(["normal", "laplace", "student_t", "mixture"]),
-              help="Family of pooled priors (overrides [pool] family); mixture keeps the "
-                   "experts' distributions as a mixture.")  # fmt: skip
+@click.option("--family", "families", multiple=True, metavar="[COLUMN=]FAMILY",
+              help="Family of pooled priors: normal, laplace, student_t, flat or mixture (keeps "
+                   "the experts' distributions as a mixture); COLUMN=FAMILY for one coefficient "
+                   "(repeatable). Overrides [pool] family.")  # fmt: skip
+@click.option("--weight", "weights", multiple=True, metavar="EXPERT=W",
+              help="Weight of one expert's statements (repeatable; default 1 each).")  # fmt: skip
 @click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text")
-def pool(priors: str, out: str, method: str | None, family: str | None, fmt: str):
-    """Pool several experts' entries per coefficient; keep their statements in OUT."""
+def pool(priors: tuple[str, ...], out: str, method: str | None, families: tuple[str, ...],
+         weights: tuple[str, ...], fmt: str):  # fmt: skip
+    """Pool the experts' prior files (one or more) per coefficient; keep their statements.
+
+    The files must describe the same study (response, units, model). See docs/prior-file.md.
+    """
+    from elicit.io import atomic_write_text
+    from elicit.pool_files import pool_files
     from elicit.read import load_document
     from elicit.validate import parse_priors
-    from elicit.write import write_prior_file
+    from elicit.write import dump_toml, prior_doc
 
-    doc = load_document(priors)
-    if method or family:
-        table = dict(doc.get("pool", {}))
-        table.update({k: v for k, v in (("method", method), ("family", family)) if v})
-        doc = {**doc, "pool": table}
-    prior_set = parse_priors(doc, source=priors)
-    write_prior_file(
-        prior_set, _out_path(out), header=f"Pooled by `elicit pool` from {Path(priors).name}."
-    )
+    family = _pool_families(families)
+    weight = _pool_weights(weights)
+    path = _out_path(out)
+    docs = [(p, load_document(p)) for p in priors]
+    prior_set, record = pool_files(docs, method=method, family=family, weights=weight)
+    doc = {**prior_doc(prior_set), "pool": record}
+    parse_priors(doc, source=out)  # what is written reads back
+    names = ", ".join(Path(p).name for p in priors)
+    atomic_write_text(path, dump_toml(doc, header=f"Pooled by `elicit pool` from {names}."))
     rows = [
         {
             "name": c.column,
@@ -222,12 +272,26 @@ def interview(
     try:
         session.run(terms, noise=not no_noise, conditional=conditional)
     except click.Abort:
-        click.echo(
-            f"\nelicit: interview stopped; accepted answers are in {out}; "
-            "run the same command to resume",
-            err=True,
-        )
+        click.echo(f"\nelicit: interview stopped; {_kept(Path(out))}", err=True)
         sys.exit(2)  # an interrupted interview is bad input: status 2, nothing lost
+
+
+def _kept(out: Path) -> str:
+    """What an interrupted interview keeps, as it is on disk."""
+    from elicit.outfile import sidecar
+
+    draft = sidecar(out, ".draft")
+    if out.exists():
+        kept = f"accepted answers are in {out}"
+        if draft.exists():
+            kept += f"; the answers typed for the current question are kept in {draft}"
+    elif draft.exists():
+        kept = (
+            f"nothing accepted yet; the answers typed for the current question are kept in {draft}"
+        )
+    else:
+        return "nothing accepted yet; nothing written"
+    return kept + "; run the same command to resume"
 
 
 if __name__ == "__main__":

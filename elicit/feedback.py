@@ -177,17 +177,20 @@ class NoiseFeedback:
     median: float | None = None
     low: float | None = None
     high: float | None = None
+    expert: str | None = None  # who stated it, and why (elicit.noise_record)
+    rationale: str | None = None
 
 
 def noise_feedback(noise: NoisePrior | None) -> NoiseFeedback:
     """Median and 5/95% quantiles of the noise sd (response units), or the known value."""
     if noise is None:
         return NoiseFeedback("jeffreys")
+    said = {"expert": noise.expert, "rationale": noise.rationale}
     if noise.known:
-        return NoiseFeedback("known", sd=noise.sd)
+        return NoiseFeedback("known", sd=noise.sd, **said)
     low, high = convert.noise_range(noise.shape, noise.scale, 0.9)
     return NoiseFeedback("inverse_gamma", shape=noise.shape, scale=noise.scale,
-                         median=noise.median, low=low, high=high)  # fmt: skip
+                         median=noise.median, low=low, high=high, **said)  # fmt: skip
 
 
 @dataclass(frozen=True)

@@ -265,9 +265,19 @@ class Interview:
         def show_noise(priors: PriorSet) -> None:
             self.say(show.format_noise(noise_feedback(priors.noise), with_scale=False))
 
+        def answer(last: dict[str, Any] | None) -> dict[str, Any]:
+            last = last or {}
+            table: dict[str, Any] = self._ask_range(what, "it", last)
+            said = self.ask("Expert", type=str, default=last.get("expert", self.expert or ""))
+            why = self.ask("Rationale (one line)", type=str, default=last.get("rationale", ""))
+            for key, text in (("expert", said), ("rationale", why)):
+                if _blank_to_none(text):
+                    table[key] = _blank_to_none(text)
+            return table
+
         self._until_accepted(
             "noise",
-            lambda last: self._ask_range(what, "it", last or {}),
+            answer,
             show_noise,
             "the noise range",
         )

@@ -104,12 +104,14 @@ def format_noise(n: NoiseFeedback, *, with_scale: bool = True) -> str:
     """The noise prior in one line (``with_scale``: also the inverse gamma's scale)."""
     if n.prior == "jeffreys":
         return "noise: Jeffreys prior (no statement)"
+    said = f"; stated by {n.expert or 'an expert not named'}" if n.expert or n.rationale else ""
+    said += f": {n.rationale}" if n.rationale else ""
     if n.prior == "known":
-        return f"noise sd: known, {_g(n.sd)}"
+        return f"noise sd: known, {_g(n.sd)}{said}"
     scale = f", scale {_g(n.scale)}" if with_scale else ""
     return (
         f"noise sd: median {_g(n.median)}, 90% interval {_g(n.low)} .. {_g(n.high)} "
-        f"(inverse gamma on the variance, shape {_g(n.shape)}{scale})"
+        f"(inverse gamma on the variance, shape {_g(n.shape)}{scale}){said}"
     )
 
 
@@ -152,10 +154,11 @@ def format_text(fb: Feedback) -> str:
 def _noise_json(n: NoiseFeedback) -> dict[str, Any]:
     if n.prior == "jeffreys":
         return {"prior": "jeffreys"}
+    said = {"expert": n.expert, "rationale": n.rationale}
     if n.prior == "known":
-        return {"prior": "known", "sd": n.sd}
+        return {"prior": "known", "sd": n.sd, **said}
     return {"prior": n.prior, "shape": n.shape, "scale": n.scale, "median": n.median,
-            "quantiles": {"0.05": n.low, "0.95": n.high}}  # fmt: skip
+            "quantiles": {"0.05": n.low, "0.95": n.high}, **said}  # fmt: skip
 
 
 def _coefficient_json(c: CoefficientFeedback, fb: Feedback) -> dict[str, Any]:

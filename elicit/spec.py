@@ -234,16 +234,11 @@ class CoefficientPrior:
 
 @dataclass(frozen=True)
 class NoisePrior:
-    """Prior on the residual standard deviation ``sigma`` of the response.
-
-    Attributes
-    ----------
-    sd : float or None
-        Known value (response units), or None.
-    low, high, mass : float or None
-        Stated range of the sd and its probability.
-    shape, scale : float or None
-        ``sigma^2 ~ scipy.stats.invgamma(shape, scale=scale)`` (scale in response units^2).
+    """Prior on the residual sd ``sigma`` of the response: ``sd`` (known, response units), or
+    ``sigma^2 ~ scipy.stats.invgamma(shape, scale=scale)`` (scale in response units^2), from the
+    stated range ``low``, ``high`` (probability ``mass``) when one was stated. ``expert`` and
+    ``rationale`` are kept for the record; a pooled prior keeps the experts' noise priors in
+    ``statements`` and its method in ``pool`` (:mod:`elicit.noise_record`).
     """
 
     sd: float | None
@@ -252,6 +247,10 @@ class NoisePrior:
     mass: float | None
     shape: float | None
     scale: float | None
+    expert: str | None = None
+    rationale: str | None = None
+    statements: tuple[NoisePrior, ...] = ()
+    pool: str | None = None
 
     @property
     def known(self) -> bool:

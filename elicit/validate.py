@@ -19,10 +19,11 @@ from elicit.conditional import CorrelatedBlock, RowStatement, from_stated_rows
 from elicit.errors import PriorFileError, shown
 from elicit.fields import FieldReader
 from elicit.limits import LARGEST, SMALLEST, UNITS
-from elicit.pool import DEFAULT_METHOD, METHODS
+from elicit.noise_record import NOISE_RECORD_KEYS, noise_record
+from elicit.pool import METHODS
+from elicit.pool_table import POOL_KEYS, pool_choice
 from elicit.spec import (
     INTERCEPT,
-    POOL_FAMILIES,
     CoefficientPrior,
     NoisePrior,
     PriorSet,
@@ -36,8 +37,7 @@ _TOP_KEYS = frozenset(
     {"study", "units", "noise", "pool", "coefficient", "correlation", "reference_row"}
 )
 _STUDY_KEYS = frozenset({"title", "response", "response_units"})
-_NOISE_KEYS = frozenset({"sd", "low", "high", "mass", "shape", "scale"})
-_POOL_KEYS = frozenset({"method", "family", "df"})
+_NOISE_KEYS = frozenset({"sd", "low", "high", "mass", "shape", "scale"}) | NOISE_RECORD_KEYS
 _CORRELATION_KEYS = frozenset({"names", "mean", "cov", "row"})
 _ROW_KEYS = frozenset({"at", "low", "high", "mass", "expert", "rationale"})
 # statements pooled together: centers and scales within this factor of the narrowest scale
@@ -57,19 +57,7 @@ def _parse_coefficients(
 ) -> tuple[CoefficientPrior, ...]:
     if not isinstance(entries, list):
         raise PriorFileError(f"{source}: coefficient: must be an array of tables [[coefficient]]")
-    method = DEFAULT_METHOD
-    pool_family = pool_df = None
-    if pool_table is not None:
-        method = pool_table.text("method") or DEFAULT_METHOD
-        if method not in METHODS:
-            raise pool_table.error(
-                "method", f"must be one of {', '.join(METHODS)}, got {shown(method)}"
-            )
-        pool_family = pool_table.text("family")
-        if pool_family is not None and pool_family not in POOL_FAMILIES:
-            raise pool_table.error("family", f"unknown family {shown(pool_family)}")
-        pool_df = pool_table.number("df", positive=True, dimensionless=True)
-
+    choice = pool_choice(pool_table)
     groups: dict[str, dict[str, Any]] = {}
     for index, table in enumerate(entries, 1):
         r = FieldReader(source, _entry_label(index, table), table, _ENTRY_KEYS)
@@ -101,7 +89,8 @@ def _parse_coefficients(
         if len(statements) > 1 and "flat" in families and families != {"flat"}:
             raise first.error("family", f"cannot pool a flat entry for {column} with others")
         shared = families.pop() if len(families) == 1 else None
-        family = (pool_family or shared) if len(statements) > 1 else shared
+        chosen = choice.family_for(group["name"], group["level"])
+        family = (chosen or shared) if len(statements) > 1 else shared
         if family is None:
             raise first.error(
                 "family", f"entries for {column} differ in family: set family in [pool]"
@@ -109,11 +98,11 @@ def _parse_coefficients(
         df = None
         if family == "student_t":
             dfs = [s.df for s in statements if s.df is not None]
-            df = pool_df or (min(dfs) if dfs else convert.DEFAULT_DF)
+            df = choice.df or (min(dfs) if dfs else convert.DEFAULT_DF)
         if len(statements) > 1 and family != "flat":
             _check_poolable(first, column, statements)
         prior = CoefficientPrior.from_statements(
-            group["name"], group["level"], statements, family=family, df=df, method=method
+            group["name"], group["level"], statements, family=family, df=df, method=choice.method
         )
         if len(statements) > 1 and family != "flat":
             what = f"pooling the entries for {column} "
@@ -170,8 +159,8 @@ def _parse_record(r: FieldReader, name: str, level: str | None) -> CoefficientPr
     return CoefficientPrior(name, level, family, center, scale, df, statements, method, misfit)
 
 
-def _parse_noise(source: str, table: Any) -> NoisePrior:
-    r = FieldReader(source, "[noise]", table, _NOISE_KEYS)
+def _parse_noise(source: str, table: Any, where: str = "[noise]") -> NoisePrior:
+    r = FieldReader(source, where, table, _NOISE_KEYS)
     given = [k for k in ("sd", "low", "high", "mass", "shape", "scale") if r.has(k)]
     if not given:
         raise r.error(None, "give sd, or low/high/mass, or shape/scale")
@@ -319,8 +308,8 @@ def parse_priors(doc: Mapping[str, Any], *, source: str = "<priors>") -> PriorSe
     study = FieldReader(source, "[study]", doc.get("study", {}), _STUDY_KEYS)
     units_table = FieldReader(source, "[units]", doc.get("units", {}), None)
     units = {k: units_table.text(k) for k in units_table.table}
-    noise = _parse_noise(source, doc["noise"]) if top.has("noise") else None
-    pool_table = FieldReader(source, "[pool]", doc["pool"], _POOL_KEYS) if top.has("pool") else None
+    noise = noise_record(source, doc["noise"], _parse_noise) if top.has("noise") else None
+    pool_table = FieldReader(source, "[pool]", doc["pool"], POOL_KEYS) if top.has("pool") else None
     coefficients = _parse_coefficients(source, doc.get("coefficient", []), pool_table)
     block = None
     if top.has("correlation"):

@@ -17,6 +17,7 @@ from pathlib import Path
 from typing import Any
 
 from elicit.io import atomic_write_text
+from elicit.noise_record import noise_record_doc
 from elicit.spec import CoefficientPrior, NoisePrior, PriorSet, Statement
 
 _BARE_KEY = re.compile(r"[A-Za-z0-9_-]+")
@@ -154,7 +155,7 @@ def prior_doc(priors: PriorSet) -> dict[str, Any]:
     if priors.units:
         doc["units"] = dict(priors.units)
     if priors.noise is not None:
-        doc["noise"] = _noise_doc(priors.noise)
+        doc["noise"] = noise_record_doc(priors.noise, _noise_doc)
     if priors.coefficients:
         doc["coefficient"] = [coefficient_doc(c) for c in priors.coefficients]
     if priors.block is not None:

@@ -24,7 +24,8 @@ X1 = ["normal", "1", "1", "4", "0.9", "analyst A", "steady rise in the invented 
 X2_BAD = ["laplace", "1", "2", "-2", "2.5", "0.8", "", "", "r"]
 X2 = ["laplace", "2", "-1", "1", "0.8", "analyst B", "", "r",
       "laplace", "2", "-1", "1.5", "0.8", "analyst B", "no clear direction", "a"]  # fmt: skip
-NOISE = ["0.3", "1.5", "0.9", "a"]
+# low, high, mass, expert, rationale, accept
+NOISE = ["0.3", "1.5", "0.9", "analyst C", "repeat runs of the invented pilot scatter", "a"]
 
 
 def command(tmp_path):
@@ -39,7 +40,8 @@ def lines(answers):
 def expected_doc():
     return {
         "study": {"response": "y"},
-        "noise": {"low": 0.3, "high": 1.5, "mass": 0.9},
+        "noise": {"low": 0.3, "high": 1.5, "mass": 0.9, "expert": "analyst C",
+                  "rationale": "repeat runs of the invented pilot scatter"},
         "coefficient": [
             {"name": "x1", "family": "normal", "low": 1.0, "high": 4.0, "mass": 0.9,
              "expert": "analyst A", "rationale": "steady rise in the invented pilot runs"},
@@ -103,7 +105,8 @@ def test_kill_midway_then_resume(tmp_path):
     assert "P(positive)" in resumed.stdout and "implied response" in resumed.stdout
     # the noise feedback of the interview: median and 90% interval of the sd, and the shape
     assert ("\nnoise sd: median 0.5547, 90% interval 0.3 .. 1.5 (inverse gamma on the variance, "
-            "shape 1.415)\n") in resumed.stdout  # fmt: skip
+            "shape 1.415); stated by analyst C: repeat runs of the invented pilot scatter\n"
+            ) in resumed.stdout  # fmt: skip
     final = read_prior_file(out)
     assert final == parse_priors(expected_doc(), source=str(out))
 
@@ -196,7 +199,8 @@ def test_conditional_interview_reproduces_the_stated_rows_and_fits(tmp_path):
     from elicit.predictive import prior_predictive
 
     frame = pd.read_csv(io.StringIO(DATA))
-    # expert; rows (means, x1 high, x2 high): low, high, mass; accept; noise; accept
+    # expert; rows (means, x1 high, x2 high): low, high, mass; accept; noise, its expert (the
+    # default) and rationale (none); accept
     answers = [
         "A",
         "3",
@@ -212,6 +216,8 @@ def test_conditional_interview_reproduces_the_stated_rows_and_fits(tmp_path):
         "0.3",
         "1.5",
         "0.9",
+        "",
+        "",
         "a",
     ]
     out = tmp_path / "c.toml"

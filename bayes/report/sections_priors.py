@@ -41,7 +41,14 @@ def priors_section(ctx: Context) -> Section:
             blocks.append(Table("reference_rows", "Stated expected response at reference rows",
                                 ("at", f"stated range of the expected {r.response}", "mass",
                                  "stated by", "rationale"), stated))  # fmt: skip
-    blocks.append(Paragraph(W.noise_prior_text(priors.noise, ctx.response_units)))
+    noise = priors.noise
+    said = (
+        f" Stated by {noise.expert or 'an expert not named'}"
+        if noise and (noise.expert or noise.rationale)
+        else ""
+    )
+    said += f": {noise.rationale}" if said and noise.rationale else ("." if said else "")
+    blocks.append(Paragraph(W.noise_prior_text(noise, ctx.response_units) + said))
     if r.penalties:
         first = r.penalties[0]
         blocks.append(Paragraph(W.penalty_text(first["noise_sd"], ctx.response_units,
