@@ -12,12 +12,23 @@ import sys
 
 import click
 
+from bayes.cli.contrast import contrast_command
 from bayes.cli.fitting import fit_command, predict_command
 from bayes.cli.studies import compare_command, demo_command, report_command, sweep_command
 
 
 class _Group(click.Group):
     """Bad input ends with one line on stderr and exit status 2, never a traceback."""
+
+    def main(self, args=None, *rest, **options):
+        """Run the command with its arguments recorded: the files it writes record its line."""
+        from bayes.results.provenance import record_command
+
+        record_command(sys.argv[1:] if args is None else args)
+        try:
+            return super().main(args, *rest, **options)
+        finally:
+            record_command(None)
 
     def invoke(self, ctx):
         from bayes.errors import InputError  # prior-file errors are input errors too
@@ -56,5 +67,5 @@ def main() -> None:
 
 
 for _command in (fit_command, predict_command, report_command, demo_command, compare_command,
-                 sweep_command):  # fmt: skip
+                 sweep_command, contrast_command):  # fmt: skip
     main.add_command(_command)
