@@ -190,8 +190,8 @@ def test_sampled_contrast_has_arviz_mcse_and_meets_the_exact_one(demo_frame):
     from bayes.settings import SamplerSettings
 
     exact = bayes.fit(demo_frame, priors=GAUSSIAN_PRIORS)
-    sampled = bayes.fit(demo_frame, priors=GAUSSIAN_PRIORS, method="sample",
-                        sampler=SamplerSettings(chains=2, draws=1000, warmup=300, seed=11))  # fmt: skip
+    settings = SamplerSettings(chains=2, draws=1000, warmup=300, seed=11)
+    sampled = bayes.fit(demo_frame, priors=GAUSSIAN_PRIORS, method="sample", sampler=settings)
     text = "water_cement - 10 * fly_ash + 3"
     e = bayes.contrast(exact, text).contrasts[0]
     s = bayes.contrast(sampled, text).contrasts[0]
