@@ -28,6 +28,8 @@ _HOMES = {
     "compare_priors": "bayes.compare",
     "Comparison": "bayes.compare",
     "build_report": "bayes.report.build",
+    "contrast": "bayes.results.contrast",
+    "Contrasts": "bayes.results.contrast",
 }
 
 __all__ = sorted(_HOMES)

@@ -6,19 +6,20 @@ prior file as given) and, for in-memory fits, ``data.csv`` (the rows used).
 A model with categorical predictors or derived terms adds ``terms.json`` (its
 coding, see :class:`bayes.data.terms.Terms`), which ``bayes predict`` applies to new rows.
 Sampled fits add ``posterior.nc``, an arviz InferenceData file (checked against the
-draws on loading, and the loaded fit's ``inference``). The folder is written beside its
-final place and swapped in only when complete; a save killed part way is finished or undone
-by the next save or load (:func:`elicit.io.recover_folder`).
+draws on loading, and the loaded fit's ``inference``). ``sweep.json``, ``compare.json`` and
+``contrasts.json`` are written beside a fit by the commands that make them; each records the
+fit it belongs to (:data:`FIT_ID`) and the command line that wrote it (:func:`commands`), see
+:mod:`bayes.store_derived`. The folder is written beside its final place and swapped in only
+when complete; a save killed part way is finished or undone by the next save or load
+(:func:`elicit.io.recover_folder`).
 """
 
 from __future__ import annotations
 
 import hashlib
 import json
-from collections.abc import Callable
 from dataclasses import replace
 from pathlib import Path
-from typing import TYPE_CHECKING, TypeVar
 
 import numpy as np
 
@@ -34,17 +35,24 @@ from bayes.store_checks import (
     load_inference,
     read_json,
 )
-from elicit.io import atomic_folder, atomic_write_text, recover_folder, replace_files
-
-if TYPE_CHECKING:  # annotations only: loading a fit needs neither
-    from bayes.compare import Comparison
-    from bayes.sensitivity.sweep import SweepResult
+from bayes.store_derived import (  # noqa: F401 (re-exported: bayes.store is the one front door)
+    DERIVED,
+    FIT_ID,
+    commands,
+    compare_path,
+    fit_id,
+    load_comparison,
+    load_contrasts,
+    load_saved,
+    load_sweep,
+    save_comparison,
+    save_contrasts,
+    save_sweep,
+)
+from elicit.io import atomic_folder, recover_folder, replace_files
 
 FILES = ("fit.json", "posterior.npz", "priors.toml")
 OWNED = (*FILES, "data.csv", "terms.json", "posterior.nc")  # what save_fit writes or removes
-DERIVED = ("sweep.json", "compare.json")  # written beside a fit, for the fit they record
-FIT_ID = "fit_sha256"  # provenance field of fit.json, and field of the derived files
-_T = TypeVar("_T")
 
 
 def save_fit(result: FitResult, folder: str | Path) -> Path:
@@ -262,107 +270,3 @@ def load_fit(folder: str | Path) -> FitResult:
         terms = replace(terms, notes=tuple(n for n in doc["notes"] if n not in own))
         result = replace(result, terms=terms, data=data and replace(data, terms=terms))
     return result
-
-
-def fit_id(folder: str | Path) -> str | None:
-    """The :data:`FIT_ID` of the fit saved in ``folder`` (None without a fit, or for a fit
-    saved before fits recorded one)."""
-    path = Path(folder) / "fit.json"
-    if not path.exists():
-        return None
-    value = read_json(path).get("provenance", {}).get(FIT_ID)
-    return value if isinstance(value, str) else None
-
-
-def _recorded(doc: dict, folder: Path) -> dict:
-    """``doc`` (of sweep.json or compare.json) with the :data:`FIT_ID` of the fit in ``folder``."""
-    current = fit_id(folder)
-    return doc if current is None else {**doc, FIT_ID: current}
-
-
-# ----------------------------------------------------------------------------- sweep.json
-
-
-def save_sweep(result: SweepResult, folder) -> Path:
-    """Write ``folder/sweep.json`` atomically (the folder is created when missing)."""
-    folder = Path(folder)
-    folder.mkdir(parents=True, exist_ok=True)
-    path = folder / "sweep.json"
-    atomic_write_text(path, json.dumps(_recorded(result.to_dict(), folder), indent=2,
-                                       allow_nan=False) + "\n")  # fmt: skip
-    return path
-
-
-def load_sweep(folder: str | Path) -> SweepResult | None:
-    """The sweep saved in ``folder/sweep.json`` by :func:`save_sweep`, or None when none is.
-
-    Raises
-    ------
-    InputError
-        When the file is there but not a readable sweep.
-    """
-    from bayes.sensitivity.sweep import SweepResult
-
-    return load_saved(Path(folder) / "sweep.json", SweepResult.from_dict, what="sweep")
-
-
-# ----------------------------------------------------------------------------- compare.json
-
-
-def compare_path(fit_dir: str | Path) -> Path:
-    """Where ``save_comparison`` writes: ``fit_dir/compare.json``, in a saved fit folder."""
-    folder = Path(fit_dir)
-    if not (folder / "fit.json").exists():
-        raise InputError(f"{folder}: not a saved fit folder (run bayes fit --save {folder} first)")
-    return folder / "compare.json"
-
-
-def save_comparison(comparison: Comparison, fit_dir: str | Path) -> Path:
-    """Write ``fit_dir/compare.json`` atomically, beside a fit saved by ``bayes fit --save``."""
-    target = compare_path(fit_dir)
-    doc = _recorded(comparison.to_dict(), target.parent)
-    atomic_write_text(target, json.dumps(doc, indent=2, allow_nan=False) + "\n")
-    return target
-
-
-def load_comparison(folder: str | Path) -> Comparison | None:
-    """The comparison saved in ``folder/compare.json`` by :func:`save_comparison`, or None
-    when none is; an InputError when the file is there but not a readable comparison."""
-    from bayes.compare import Comparison
-
-    return load_saved(Path(folder) / "compare.json", Comparison.from_dict, what="comparison")
-
-
-def load_saved(path: Path, from_dict: Callable[[dict], _T], *, what: str) -> _T | None:
-    """The object saved as JSON in ``path`` (sweep.json, compare.json), or None when absent.
-
-    Parameters
-    ----------
-    path : Path
-    from_dict : callable
-        Makes the object from the JSON document (``SweepResult.from_dict``).
-    what : str
-        What the file holds, for the message ("sweep").
-
-    Raises
-    ------
-    InputError
-        When the file is not UTF-8 JSON or not a readable ``what``, or when it records a fit
-        (:data:`FIT_ID`) other than the one saved beside it (it is stale).
-    """
-    if not path.exists():
-        return None
-    try:
-        doc = json.loads(path.read_text(encoding="utf-8"))
-    except (json.JSONDecodeError, UnicodeDecodeError) as e:
-        raise InputError(f"{path}: not readable JSON ({e})") from None
-    recorded = doc.get(FIT_ID) if isinstance(doc, dict) else None
-    if recorded is not None and recorded != fit_id(path.parent):
-        raise InputError(
-            f"{path}: stale: this {what} was made for an earlier fit in {path.parent} (the fit "
-            f"was saved again since): make the {what} again for this fit, or move the file away"
-        )
-    try:
-        return from_dict(doc)
-    except (ValueError, KeyError, TypeError, IndexError) as e:
-        raise InputError(f"{path}: not a readable {what} ({type(e).__name__}: {e})") from None

@@ -7,7 +7,7 @@ import importlib
 
 import pytest
 
-MODULES = ["bayes.settings", "bayes.results.result"]
+MODULES = ["bayes.settings", "bayes.results.result", "bayes.results.contrast"]
 
 
 @pytest.mark.parametrize("name", MODULES)

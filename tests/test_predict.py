@@ -113,7 +113,8 @@ def test_predict_keeps_the_other_columns_and_flags_rows_beyond_the_data(exact, d
                         "water_cement": [0.45, 0.9, 0.5], "fly_ash": [0.1, 0.1, -0.2],
                         "curing_temp": [20.0, 20.0, 20.0], "note": ["a", "b", "c"]})  # fmt: skip
     table = predict(exact, new)
-    assert list(table.columns) == [*new.columns, *COLUMNS, "extrapolated", "units"]
+    assert list(table.columns) == [*new.columns, *COLUMNS, "extrapolated", "beyond_data_leverage",
+                                   "units"]  # fmt: skip
     assert table["plot"].tolist() == ["P1", "P2", "P3"]
     assert table["extrapolated"].tolist() == [False, True, True]  # w/c 0.9 and ash -0.2
     assert set(table["units"]) == {"MPa"} and table.attrs["units"] == "MPa"

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import click
 
+from bayes.cli.contrast import contrast_command
 from bayes.cli.fitting import fit_command, predict_command
 from bayes.cli.studies import compare_command, demo_command, report_command, sweep_command
 from elicit.guard import GuardedGroup
@@ -21,6 +22,18 @@ class _Group(GuardedGroup):
     (:mod:`elicit.guard`)."""
 
     prog = "bayes"
+
+    def main(self, args=None, *rest, **options):
+        """Run the command with its arguments recorded: the files it writes record its line."""
+        import sys
+
+        from bayes.results.provenance import record_command
+
+        record_command(sys.argv[1:] if args is None else args)
+        try:
+            return super().main(args, *rest, **options)
+        finally:
+            record_command(None)
 
     def input_message(self, ctx, message: str) -> str:
         """A library error names a parameter ("level must ..."): say the option it came from."""
@@ -45,5 +58,5 @@ def main() -> None:
 
 
 for _command in (fit_command, predict_command, report_command, demo_command, compare_command,
-                 sweep_command):  # fmt: skip
+                 sweep_command, contrast_command):  # fmt: skip
     main.add_command(_command)

@@ -167,7 +167,13 @@ def _predict_text(predictor, table) -> str:
 
 
 def _warn_outside(predictor) -> None:
-    """One ``warning:`` line on stderr when rows lie beyond the fitted data's range."""
+    """One ``warning:`` line on stderr when rows lie beyond the fitted data's range, and one
+    when rows within that range lie beyond its leverage."""
+    if predictor.hidden:
+        from bayes.results.notes import beyond_leverage
+
+        text = beyond_leverage(predictor.hidden, predictor.rows, predictor.leverage.largest)
+        click.echo(f"warning: {text}", err=True)
     if not predictor.flagged:
         return
     each = ", ".join(f"{name} ({n} row{'s' * (n != 1)})" for name, n in predictor.outside.items())

@@ -25,6 +25,7 @@ from bayes.report.document import Report, numbered
 from bayes.report.guidelines import guideline_section
 from bayes.report.quantities import least_squares
 from bayes.report.sections_comparison import comparison_section
+from bayes.report.sections_contrasts import contrasts_section
 from bayes.report.sections_figures import figures_section
 from bayes.report.sections_findings import findings_section
 from bayes.report.sections_method import cautions_section, method_section
@@ -33,7 +34,7 @@ from bayes.report.sections_priors import priors_section
 from bayes.report.sections_sensitivity import sensitivity_section
 from bayes.report.sections_study import data_section, study_section
 from bayes.results.result import FitResult
-from bayes.store import load_comparison, load_fit, load_sweep
+from bayes.store import commands, load_comparison, load_contrasts, load_fit, load_sweep
 
 if TYPE_CHECKING:  # annotations only
     from bayes.compare import Comparison
@@ -47,7 +48,8 @@ def build_report(fit_dir: str | Path, *, figures: bool = True) -> Report:
     ----------
     fit_dir : str or Path
         A folder written by ``bayes fit --save`` (:func:`bayes.store.save_fit`);
-        ``sweep.json`` and ``compare.json`` in it add the sensitivity and comparison parts.
+        ``sweep.json``, ``compare.json`` and ``contrasts.json`` in it add the sensitivity,
+        comparison and contrasts parts.
     figures : bool
         Draw the figures (False leaves them out: faster, for tests of the tables and text).
 
@@ -72,7 +74,14 @@ def build_report(fit_dir: str | Path, *, figures: bool = True) -> Report:
             f"{folder / 'compare.json'}: the saved comparison is for response "
             f"{comparison.response!r}, the fit for {result.response!r}"
         )
-    return report_from_result(result, sweep=sweep, comparison=comparison, figures=figures)
+    return report_from_result(
+        result,
+        sweep=sweep,
+        comparison=comparison,
+        figures=figures,
+        contrasts=load_contrasts(folder),
+        commands=commands(folder),
+    )
 
 
 def report_from_result(
@@ -81,6 +90,8 @@ def report_from_result(
     sweep: SweepResult | None = None,
     comparison: Comparison | None = None,
     figures: bool = True,
+    contrasts=None,
+    commands: tuple[tuple[str, str], ...] = (),
 ) -> Report:
     """Assemble the report of an in-memory fit (see :func:`build_report`).
 
@@ -94,16 +105,21 @@ def report_from_result(
         A comparison of prior sets on the fit's data (:func:`bayes.compare.compare_priors`).
     figures : bool
         Draw the figures.
+    contrasts : bayes.results.contrast.Contrasts, optional
+        Saved contrasts (:func:`bayes.store.load_contrasts`): their own section.
+    commands : tuple of (file, command)
+        The command lines that wrote the fit folder (:func:`bayes.store.commands`).
     """
     priors = result.priors
     ctx = Context(result, response_units(result), dict(priors.units), least_squares(result),
                   sweep, comparison)  # fmt: skip
     sections = [
         findings_section(ctx),
-        study_section(ctx),
+        study_section(ctx, commands),
         data_section(ctx),
         priors_section(ctx),
         posterior_section(ctx),
+        contrasts_section(ctx, contrasts) if contrasts is not None else None,
         figures_section(ctx) if figures else None,
         sensitivity_section(ctx),
         comparison_section(ctx) if comparison is not None else None,

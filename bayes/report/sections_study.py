@@ -19,8 +19,9 @@ CORRELATION_NOTE = 0.8  # |r| from which a pair of predictors is named (common p
 DECISIVE_RATIO = 0.8  # posterior/prior sd ratio above which the prior, not the data, decides
 
 
-def study_section(ctx: Context) -> Section:
-    """1. The study: title, response, data file and hash, software, seed, computation."""
+def study_section(ctx: Context, commands: tuple[tuple[str, str], ...] = ()) -> Section:
+    """1. The study: title, response, data file and hash, software, seed, computation, and
+    the ``commands`` (file, command line) that wrote the fit folder, in order."""
     r = ctx.result
     prov = r.provenance or {}
     versions = prov.get("versions") or {}
@@ -39,6 +40,9 @@ def study_section(ctx: Context) -> Section:
         ("computation", f"{r.posterior.method}: {r.posterior.detail}"),
         ("credible level", ctx.level_text),
     ]
+    if commands:
+        rows.append(("commands that wrote the fit folder, in order",
+                     tuple(f"{command}  [{name}]" for name, command in commands)))  # fmt: skip
     return Section("study", "The study", (
         Paragraph(W.goal(r.response)),
         Table("study", "The study and where the numbers came from", ("item", "value"),

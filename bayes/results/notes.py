@@ -154,3 +154,12 @@ def pool_misfit(errors: Sequence[tuple[str, float | None]]) -> list[str]:
         for name, error in errors
         if error is not None and error > POOL_MISFIT_WARNING
     ]
+
+
+def beyond_leverage(count: int, rows: int, largest: float) -> str:
+    """The warning of ``bayes predict`` on rows beyond the data's leverage."""
+    return (
+        f"{count} of {rows} row{'s' * (rows != 1)} lie within every column's range but off the "
+        f"fitted data's cloud (leverage above the data's largest, {fmt(largest, 3)}): their "
+        "predictions extrapolate too; column 'beyond_data_leverage' marks every row beyond it"
+    )

@@ -25,6 +25,9 @@ from bayes.results.result import FitResult
 
 COLUMNS = ("mean", "lower", "upper", "pred_lower", "pred_upper")  # the prediction columns
 FLAG = "extrapolated"  # True where a row lies outside the fitted data's range
+# True where a row's leverage under the fitted design exceeds every data row's: outside the
+# data's cloud though perhaps inside each column's range (hidden extrapolation)
+LEVERAGE_FLAG = "beyond_data_leverage"
 # Values per row block (rows x components, rows x draws): a mixture's block stays in the cache
 # through its Newton steps (2**15: 1.2 s CPU per 100,000 rows of a 64-node mixture, against
 # 3.0 s at 2**21); draws are partitioned once, so larger blocks only save calls.
@@ -61,7 +64,9 @@ def predict(
         the expected response), ``lower``/``upper`` (credible interval of the expected
         response) and ``pred_lower``/``pred_upper`` (predictive interval of a new
         observation), all in response units; then, when the fit holds its data rows,
-        ``extrapolated`` (a design column beyond the data's minimum or maximum) and, when
+        ``extrapolated`` (a design column beyond the data's minimum or maximum),
+        ``beyond_data_leverage`` (the row's leverage under the fitted design, see
+        :class:`Leverage`, above the largest of the data's rows) and, when
         the prior file gives the response's units, ``units``. ``attrs`` holds
         ``response``, ``units`` (None when the prior file gives none) and ``level``.
     """
@@ -88,6 +93,9 @@ class Predictor:
         Rows so far beyond the fitted data's range in that column.
     flagged : int
         Rows so far beyond the range in any column.
+    hidden : int
+        Rows so far whose leverage exceeds the data's largest (:data:`LEVERAGE_FLAG`) though
+        every value is within its column's range: hidden extrapolation.
     """
 
     result: FitResult
@@ -96,11 +104,13 @@ class Predictor:
     rows: int = 0
     outside: dict[str, int] = field(default_factory=dict)
     flagged: int = 0
+    hidden: int = 0
 
     def __post_init__(self) -> None:
         check_level(self.level)
         data = self.result.data
         self.span = None if data is None else (data.X.min(axis=0), data.X.max(axis=0))
+        self.leverage = None if data is None else Leverage.of(self.result.factor, data.X)
 
     @property
     def attrs(self) -> dict:
@@ -113,6 +123,7 @@ class Predictor:
         """The columns appended to each block: :data:`COLUMNS`, then :data:`FLAG` when the
         data's range is known and ``units`` when the response's units are."""
         flag = () if self.span is None else (FLAG,)
+        flag += () if self.leverage is None else (LEVERAGE_FLAG,)
         return (*COLUMNS, *flag, *(("units",) if self.attrs["units"] else ()))
 
     def design(self, frame: pd.DataFrame) -> np.ndarray:
@@ -145,6 +156,10 @@ class Predictor:
                 self.outside[name] = self.outside.get(name, 0) + int(beyond[:, j].sum())
             table[FLAG] = beyond.any(axis=1)
             self.flagged += int(table[FLAG].sum())
+        if self.leverage is not None:
+            far = self.leverage.beyond(X)
+            table[LEVERAGE_FLAG] = far
+            self.hidden += int((far & ~beyond.any(axis=1)).sum())
         if self.attrs["units"]:
             table["units"] = self.attrs["units"]
         self.rows += len(frame)
@@ -156,6 +171,57 @@ class Predictor:
         """:meth:`frame` of each block of rows, as they come."""
         for frame in frames:
             yield self.frame(frame)
+
+
+@dataclass(frozen=True)
+class Leverage:
+    """Leverage of new rows under the fitted design, against the largest of the data's rows.
+
+    The leverage of a row ``x`` is ``h = a' (X'X)^-1 a`` in the centred, scaled design the
+    data factor holds: ``h = 1/n + |R^-T z|^2`` with ``z = (x - x_mean) / x_scale`` and ``R``
+    the factor's design part (no ``1/n`` without an intercept). A row with ``h`` above every
+    data row's lies outside the ellipsoid that holds the data, even when each of its values
+    is within its column's range: its prediction extrapolates along a direction the data
+    barely cover: the "hidden extrapolation" of regression textbooks (Montgomery, Peck and
+    Vining, *Introduction to linear regression analysis*; from memory).
+
+    Attributes
+    ----------
+    factor : DataFactor
+    largest : float
+        The data rows' largest leverage.
+    """
+
+    factor: object
+    largest: float
+
+    @classmethod
+    def of(cls, factor, X: np.ndarray) -> Leverage | None:
+        """The leverage of ``factor``'s design, with the largest of its data rows ``X``; None
+        when the design is rank deficient (or has no columns), where leverage is not defined."""
+        p = factor.p
+        R = factor.R[:p, :p]
+        if p == 0 or R.shape[0] < p:
+            return None
+        diag = np.abs(np.diag(R))
+        if diag.min() <= 1e-12 * diag.max():
+            return None
+        out = cls(factor, 0.0)
+        return cls(factor, float(np.max(out.values(X))))
+
+    def values(self, X: np.ndarray) -> np.ndarray:
+        """The leverage of each row of ``X`` (design columns, natural units), shape (m,)."""
+        from scipy.linalg import solve_triangular
+
+        f = self.factor
+        Z = (np.asarray(X, dtype=float) - f.x_mean) / f.x_scale
+        W = solve_triangular(f.R[: f.p, : f.p], Z.T, trans="T")
+        return np.sum(W**2, axis=0) + (1.0 / f.n if f.intercept else 0.0)
+
+    def beyond(self, X: np.ndarray) -> np.ndarray:
+        """Whether each row's leverage exceeds the data's largest (by more than rounding:
+        a data row itself is never flagged)."""
+        return self.values(X) > self.largest * (1.0 + 1e-9)
 
 
 def design_intervals(posterior, X: np.ndarray, level: float = 0.95) -> pd.DataFrame:
