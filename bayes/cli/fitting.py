@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 import click
@@ -140,7 +141,10 @@ def predict_command(fit_dir, newdata, level, fmt, out, chunk_rows):
 
 
 def _plain(value):
-    """A value of a row as JSON can hold it (dates and other objects as text)."""
+    """A value of a row as JSON can hold it: a passed-through column's inf or nan as null (JSON
+    has neither), dates and other objects as text."""
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
     return value if value is None or isinstance(value, (bool, int, float, str)) else str(value)
 
 
