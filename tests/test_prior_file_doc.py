@@ -31,7 +31,7 @@ def key_sets() -> dict[str, frozenset]:
 
 def test_the_key_sets_are_found():
     sets = key_sets()
-    assert {"validate._STATEMENT_KEYS", "validate._NOISE_KEYS", "pool_table.POOL_KEYS",
+    assert {"statements.STATEMENT_KEYS", "validate._NOISE_KEYS", "pool_table.POOL_KEYS",
             "noise_record.NOISE_RECORD_KEYS", "validate_mixture.COMPONENT_KEYS"} <= set(
         sets)  # fmt: skip
 

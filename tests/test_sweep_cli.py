@@ -63,7 +63,10 @@ def test_json_holds_the_grid_and_the_conclusions(saved):
 
 def test_save_writes_sweep_json_and_plot_writes_the_chart(saved):
     doc, folder, chart = saved
-    assert json.loads((folder / "sweep.json").read_text()) == doc
+    saved = json.loads((folder / "sweep.json").read_text())
+    # the file also records the command that wrote it and when
+    assert {k: v for k, v in saved.items() if k not in ("command", "written")} == doc
+    assert saved["command"].startswith("bayes sweep ")
     assert chart.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert not [p for p in folder.iterdir() if p.name != "sweep.json"]  # no temporary files
 
