@@ -85,7 +85,8 @@ class SetResult:
     elpd_diff : float
         elpd of this set minus that of the set that predicts the left-out rows best (0 for it).
     elpd_diff_se : float or None
-        Standard error of ``elpd_diff``, ``sqrt(n) sd(pointwise differences)`` (None with
+        Standard error of ``elpd_diff``, ``sqrt(n var(pointwise differences))`` with divisor n
+        as arviz's compare (None with
         fewer than two rows).
     r_hat : float or None
         Largest R-hat of the coefficient draws (sampled sets).
@@ -298,7 +299,8 @@ def _against_best(fits: list[tuple]) -> tuple[SetResult, ...]:
     out = []
     for path, title, method, ev, loo, flat, jeffreys, r_hat in fits:
         d = loo.pointwise - best.pointwise
-        se = math.sqrt(len(d)) * float(np.std(d, ddof=1)) if len(d) > 1 else None
+        # ddof = 0 as arviz 0.2x az.compare's dse: sqrt(n * var(diff)).
+        se = math.sqrt(len(d) * float(np.var(d))) if len(d) > 1 else None
         out.append(SetResult(path, title, method, ev, LooSummary.of(loo), flat, jeffreys,
                              float(d.sum()), se, r_hat))  # fmt: skip
     return tuple(out)

@@ -211,6 +211,17 @@ class WidthPath(ReadOnlyArrays):
         dev = self.z[:q] - self.s[:q] * self.t[:q]
         return float(np.sum(dev**2 / (sigma**2 + self.s[:q] ** 2 / lam)))
 
+    def infinite_variance(self) -> np.ndarray | None:
+        """Which coefficients have infinite posterior variance at every factor (None: none).
+
+        Widening keeps the flat directions flat, so the noise posterior's tail is the same at
+        every factor: ``sigma^-(df + 1)`` with ``df = n + 2 a - k_flat``
+        (:func:`bayes.engine.exact.noise_tail`), and a coefficient that moves along a flat
+        direction (a nonzero row of ``H``) has variance ``E[sigma^2] |H_j|^2 + O(1)``:
+        infinite when ``df <= 2``.
+        """
+        return infinite_along(self.H, self.n, self.prior)
+
     @property
     def rank(self) -> int:
         """Number of eigen directions the data inform."""
@@ -288,25 +299,30 @@ class CoefficientMixtures(ReadOnlyArrays):
     locs, scales : ndarray, shape (k, K)
         Natural units.
     df : float
+    infinite : ndarray of bool, shape (k,), optional
+        Coefficients whose exact variance is infinite although the quadrature's truncated
+        mixture has a finite one (see :func:`infinite_variance`); their sd is inf.
     """
 
     weights: np.ndarray
     locs: np.ndarray
     scales: np.ndarray
     df: float = np.inf
+    infinite: np.ndarray | None = None
 
     @classmethod
     def from_posterior(cls, posterior: MixturePosterior) -> CoefficientMixtures:
         """The marginals of an exact posterior."""
         sd = np.sqrt(np.maximum(np.einsum("kjj->kj", posterior.covs), 0.0))
-        return cls(posterior.weights, posterior.means.T, sd.T, posterior.df)
+        infinite = ~np.isfinite(np.diag(posterior.cov)) if np.isinf(posterior.df) else None
+        return cls(posterior.weights, posterior.means.T, sd.T, posterior.df, infinite)
 
     @classmethod
     def from_path(cls, path: WidthPath, lam: float, alpha: float = 1.0) -> CoefficientMixtures:
         """The marginals at prior precision multiplier ``lam``, likelihood raised to ``alpha``."""
         weights, sigma = path.noise_mixture(lam, alpha)
         means, var = path.conditional(sigma / np.sqrt(alpha), lam)
-        return cls(weights, means.T, np.sqrt(var).T)
+        return cls(weights, means.T, np.sqrt(var).T, infinite=path.infinite_variance())
 
     @property
     def k(self) -> int:
@@ -324,7 +340,8 @@ class CoefficientMixtures(ReadOnlyArrays):
             factor = np.sqrt(self.df / (self.df - 2)) if self.df > 2 else np.inf
             return self.scales[:, 0] * factor
         dev = self.locs - self.mean[:, None]  # about the mean: no cancellation
-        return np.sqrt((self.scales**2 + dev**2) @ self.weights)
+        sd = np.sqrt((self.scales**2 + dev**2) @ self.weights)
+        return sd if self.infinite is None else np.where(self.infinite, np.inf, sd)
 
     def _z(self, x: np.ndarray) -> tuple[np.ndarray, tuple[int, ...]]:
         x = np.asarray(x, dtype=float)
@@ -358,3 +375,16 @@ class CoefficientMixtures(ReadOnlyArrays):
         if np.isfinite(self.df):
             return self.locs[:, 0] + self.scales[:, 0] * stats.t.ppf(q, self.df)
         return mixture_quantile(self.weights, self.locs, self.scales, q)
+
+
+def infinite_along(H: np.ndarray, n: float, prior: ScaledPrior) -> np.ndarray | None:
+    """Coefficients with infinite posterior variance: those with a nonzero row of ``H``
+    (natural units, shape (k, k_flat): how each moves along the flat directions) when the
+    noise posterior's tail ``sigma^-(df + 1)``, ``df = n + 2 a - k_flat``, leaves
+    ``E[sigma^2]`` infinite (``df <= 2``; see :func:`bayes.engine.exact.noise_tail`).
+    None when every variance is finite."""
+    if prior.noise.known or H.shape[1] == 0 or n + 2 * prior.noise.shape - H.shape[1] > 2:
+        return None
+    rows = np.sum(H**2, axis=1)
+    grows = rows > 1e-24 * rows.max()
+    return grows if grows.any() else None

@@ -28,9 +28,9 @@ from bayes.arrays import freeze
 from bayes.engine.exact import exact_posterior
 from bayes.engine.likelihood import residual_ss
 from bayes.engine.scaled import scaled_prior
-from bayes.engine.widths import CoefficientMixtures, WidthPath
+from bayes.engine.widths import CoefficientMixtures, WidthPath, infinite_along
 from bayes.errors import InputError
-from bayes.problem import DataFactor, ScaledPrior, to_natural
+from bayes.problem import DataFactor, ScaledPrior, natural_transform, to_natural
 from bayes.sensitivity.conflict import power_scaling_draws, prior_data_conflict
 from bayes.sensitivity.priors import flat_limit, variance_ratios
 from bayes.sensitivity.wording import (
@@ -65,11 +65,15 @@ class WeightedDraws:
         Non-negative, summing to 1.
     chains : int
         The Markov chains the draws came from, for the effective sample sizes.
+    infinite : ndarray of bool, shape (k,), optional
+        Coefficients whose exact posterior variance is infinite (:func:`infinite_sampled`):
+        their sd is inf, however finite the draws' spread.
     """
 
     draws: np.ndarray
     weights: np.ndarray
     chains: int = 1
+    infinite: np.ndarray | None = None
 
     def __post_init__(self) -> None:
         freeze(self, "draws", "weights")
@@ -83,7 +87,8 @@ class WeightedDraws:
 
         out = sample(factor, prior, sampler)
         nat = to_natural(factor, out.gamma.reshape(-1, factor.k))
-        return cls(nat, np.full(len(nat), 1.0 / len(nat)), sampler.chains)
+        return cls(nat, np.full(len(nat), 1.0 / len(nat)), sampler.chains,
+                   infinite_sampled(factor, prior))  # fmt: skip
 
     @property
     def k(self) -> int:
@@ -100,7 +105,8 @@ class WeightedDraws:
 
     @property
     def sd(self) -> np.ndarray:
-        return np.sqrt(self.weights @ (self.draws - self.mean) ** 2)
+        sd = np.sqrt(self.weights @ (self.draws - self.mean) ** 2)
+        return sd if self.infinite is None else np.where(self.infinite, np.inf, sd)
 
     def cdf(self, x: np.ndarray) -> np.ndarray:
         return self.weights @ (self.draws <= np.asarray(x, dtype=float))
@@ -174,6 +180,17 @@ def marginals(
     if prior.gaussian_only:
         return CoefficientMixtures.from_posterior(exact_posterior(factor, prior))
     return WeightedDraws.sample(factor, prior, sampler)
+
+
+def infinite_sampled(factor: DataFactor, prior: ScaledPrior) -> np.ndarray | None:
+    """Coefficients (natural units) with infinite posterior variance under ``prior``.
+
+    Every proper prior (normal, Laplace, Student-t) holds its coordinate as the noise sd
+    grows; the flat coordinates are held by the data alone, so the noise tail and the
+    growth are those of :func:`bayes.engine.widths.infinite_along` with the flat scaled
+    coordinates mapped to natural units (the columns of the natural transform)."""
+    flat = np.array(prior.family) == "flat"
+    return infinite_along(natural_transform(factor)[:, flat], float(factor.n), prior)
 
 
 def log_prior_density(prior: ScaledPrior, gamma: np.ndarray) -> np.ndarray:
@@ -319,11 +336,12 @@ class SampledEngine:
         importance-weighted to factor ``f``."""
         fs = self.sources(f)[0] if source is None else source
         gamma, _, nat, lp = self.runs[fs]
+        infinite = infinite_sampled(self.factor, self.prior_at(f))
         if f == fs:
-            return WeightedDraws(nat, np.full(len(nat), 1.0 / len(nat)), self.chains[fs])
+            return WeightedDraws(nat, np.full(len(nat), 1.0 / len(nat)), self.chains[fs], infinite)
         lw = log_prior_density(self.prior_at(f), gamma) - lp
         w = np.exp(lw - lw.max())
-        return WeightedDraws(nat, w / w.sum(), self.chains[fs])
+        return WeightedDraws(nat, w / w.sum(), self.chains[fs], infinite)
 
     def flat(self) -> tuple[CoefficientMixtures | WeightedDraws | None, str | None]:
         """The marginals in the flat-prior limit, or None and the reason there is none."""
