@@ -191,8 +191,8 @@ def noise_text(post, units: str, level_text: str, tail: float) -> str:
 def fit_text(residual_sd, units: str, r_squared: float, noise: str, mode_kind: str) -> str:
     return (
         f"Fit at the posterior mean: residual sd {fmt(residual_sd, 3)} "
-        f"{units}, R^2 = {r_squared:.3f}; {noise}. The 'mode' column is "
-        f"the {mode_kind}."
+        f"{units}, R^2 = {r_squared:.3f}; {noise}. The column headed "
+        f"'{mode_kind}' holds that one mode for every coefficient."
     )
 
 
@@ -288,6 +288,17 @@ def power_scaling_text(measure: str, method: str, threshold: float) -> str:
         f"{method}; a value at or above {threshold:g} "
         "flags sensitivity. Sensitive to both prior and likelihood suggests prior-data "
         "conflict; to the prior only, a weak likelihood (the prior decides)."
+    )
+
+
+def power_scaling_flat(names: list[str]) -> str:
+    listed = ", ".join(names)
+    verb = "has a flat prior" if len(names) == 1 else "have flat priors"
+    return (
+        f"{listed} {verb} and {'is' if len(names) == 1 else 'are'} left out of the power-scaling "
+        "table: a flat prior raised to any power stays flat, so the prior cannot decide "
+        f"{'it' if len(names) == 1 else 'them'}; only the data and, through correlation, the "
+        f"other coefficients' priors move {'its posterior' if len(names) == 1 else 'theirs'}."
     )
 
 
