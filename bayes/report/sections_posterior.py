@@ -26,7 +26,7 @@ def posterior_section(ctx: Context) -> Section:
     tail = (1 - r.level) / 2
     noise = W.noise_text(post, ctx.response_units, lvl, tail)
     blocks += [
-        Paragraph(W.interval_text(lvl, r.level, tail)),
+        Paragraph(W.interval_text(lvl, r.level, tail, "mcse_mean" in r.rows[0])),
         Paragraph(W.fit_text(r.diagnostics.get("residual_sd"), ctx.response_units,
                              r.diagnostics["r_squared"], noise, post.mode_kind)),
     ]  # fmt: skip

@@ -165,14 +165,16 @@ def penalty_text(sigma: float, units: str, basis: str) -> str:
 # --------------------------------------------------------------------------- the posterior
 
 
-def interval_text(level_text: str, level: float, tail: float) -> str:
+def interval_text(level_text: str, level: float, tail: float, sampled: bool = False) -> str:
+    mcse = (" and, from sampling, to no digit finer than the decade of twice its Monte Carlo "
+            "standard error (MCSE)") if sampled else ""  # fmt: skip
     return (
         f"Each {level_text} interval is an equal-tailed credible interval: given the model, the "
         f"priors and these data, the coefficient lies inside it with probability "
         f"{level:g}, with {100 * tail:g}% on each side. P(>0) is the posterior probability "
         "that the effect is positive. 'sd / prior sd' near 1 means the data changed the "
         "prior little; near 0, the data dominate. Numbers are rounded to the precision "
-        "their posterior sd supports (sd to two significant digits); fit.json in the fit "
+        f"their posterior sd supports (sd to two significant digits){mcse}; fit.json in the fit "
         "folder keeps full precision."
     )
 
@@ -210,6 +212,14 @@ DENSITIES_CAPTION = (
     "axis) and the flat-prior least-squares estimate (dotted line). The intercept is "
     "not shown."
 )
+
+
+def densities_sampled(draws: int) -> str:
+    return (
+        f" Posterior densities of the sampled fit are Rao-Blackwellised: the average over {draws} "
+        "draws of each coefficient's conditional density given the other coefficients and the noise sd "
+        "(a kernel density estimate only where no such conditional is available)."
+    )
 
 
 def forest_caption(level_text: str) -> str:
