@@ -76,8 +76,8 @@ def test_the_report_draws_the_rao_blackwell_density_of_a_sampled_fit(fits):
 
 def test_a_laplace_coordinate_conditional_is_a_density_on_the_grid():
     frame = pd.read_csv(DEMO / "trial_mix.csv")
-    result = bayes.fit(frame, "strength", NAMES, priors=_priors("laplace"),
-                       sampler=SamplerSettings(chains=2, draws=300, warmup=100, seed=5))  # fmt: skip
+    sampler = SamplerSettings(chains=2, draws=300, warmup=100, seed=5)
+    result = bayes.fit(frame, "strength", NAMES, priors=_priors("laplace"), sampler=sampler)
     assert result.posterior.method == "sampled"
     draws = result.posterior.flat_draws[:, 2]
     x = np.linspace(draws.min() - 5 * draws.std(), draws.max() + 5 * draws.std(), 801)

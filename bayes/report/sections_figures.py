@@ -24,8 +24,8 @@ def figures_section(ctx: Context) -> Section:
     blocks: list[Block] = []
     panels = [density_panel(ctx, j) for j in range(1, len(r.names))]
     if panels:
-        caption = W.DENSITIES_CAPTION + (W.densities_sampled(DENSITY_DRAWS) if r.posterior.method == "sampled"
-                                         else "")  # fmt: skip
+        sampled = r.posterior.method == "sampled"
+        caption = W.DENSITIES_CAPTION + (W.densities_sampled(DENSITY_DRAWS) if sampled else "")
         blocks.append(Figure("densities", caption, F.density_figure(panels)))
         blocks.append(Figure("forest", W.forest_caption(ctx.level_text),
                              F.forest_figure(forest_rows(ctx), r.level)))  # fmt: skip

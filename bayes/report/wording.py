@@ -217,7 +217,8 @@ DENSITIES_CAPTION = (
 def densities_sampled(draws: int) -> str:
     return (
         f" Posterior densities of the sampled fit are Rao-Blackwellised: the average over {draws} "
-        "draws of each coefficient's conditional density given the other coefficients and the noise sd "
+        "draws of each coefficient's conditional density given the other coefficients and the "
+        "noise sd "
         "(a kernel density estimate only where no such conditional is available)."
     )
 
