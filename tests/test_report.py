@@ -394,11 +394,23 @@ def test_report_of_a_sampled_fit_shows_convergence(tmp_path):
                         sampler=SamplerSettings(draws=500, seed=3))  # fmt: skip
     assert result.posterior.method == "sampled"
     report = report_from_result(result, figures=False)
-    post = next(b for s in report.sections if s.key == "posterior" for b in s.blocks
-                if b.kind == "table")  # fmt: skip
-    assert post.headers[-3:] == ("R-hat", "ESS (bulk)", "ESS (tail)")
-    for row in post.rows:
-        assert 0.99 < float(row[-3]) < 1.1 and float(row[-2]) > 100
+    tables = {b.key: b for s in report.sections for b in s.blocks if b.kind == "table"}
+    conv = tables["convergence"]
+    assert conv.headers[1:] == ("R-hat", "ESS (bulk)", "ESS (tail)", "MCSE of P(>0)")
+    for row in conv.rows:
+        assert 0.99 < float(row[1]) < 1.1 and float(row[2]) > 100
+    post = tables["posterior"]
+    assert result.posterior.mode_kind in post.headers  # the mode column says which mode
+    for row, fitted in zip(post.rows, result.rows, strict=True):
+        cells = dict(zip(post.headers, row, strict=True))
+        for key in ("mean", "lower", "upper"):
+            mcse = fitted[f"mcse_{key}"]
+            shown = cells[key if key == "mean" else f"95% {key}"]
+            decimals = len(shown.split(".")[1]) if "." in shown else 0
+            # never a digit finer than the decade of 2 MCSE (common practice, no source)
+            assert 10.0**-decimals >= 10 ** math.floor(math.log10(2 * mcse)) * (1 - 1e-12)
+            assert abs(float(shown) - fitted[key]) <= 10.0**-decimals
+            assert float(cells[f"MCSE of {key}"]) == pytest.approx(mcse, rel=0.05)
     priors = next(b for s in report.sections if s.key == "priors" for b in s.blocks
                   if b.kind == "table")  # fmt: skip
     cells = dict(zip(priors.headers, priors.rows[-1], strict=True))
@@ -462,8 +474,11 @@ def test_a_hostile_column_name_is_shown_as_text(tmp_path):
     assert "<script" not in html
     assert "&lt;script&gt;alert(1)&lt;/script&gt;" in html
     md = render_markdown(report, {f.key: f"{f.key}.png" for f in report.figures})
-    assert hostile not in md and "<script" not in md
-    assert "&lt;script&gt;alert(1)&lt;/script&gt;" in md
+    # Markdown escapes < > & with a backslash (CommonMark: any ASCII punctuation may be
+    # backslash-escaped), never with HTML entities
+    assert hostile not in md and "&lt;" not in md and "&gt;" not in md and "&amp;" not in md
+    assert r"\<script\>alert(1)\</script\>" in md
+    assert not re.search(r"(?<!\\)<(?!br>)", md)  # every other < is escaped
     assert "a$b$c" in md
 
 

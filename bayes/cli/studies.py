@@ -28,18 +28,26 @@ from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
               help="Also write it as Markdown, with PNG figures beside it.")  # fmt: skip
 @click.option("--csv-dir", type=click.Path(file_okay=False),
               help="Also write each table of the report as a CSV file in this folder.")  # fmt: skip
-def report_command(fit_dir, out, markdown, csv_dir):
+@click.option("--pdf", type=click.Path(dir_okay=False),
+              help="Also write it as PDF (drawn with reportlab; no browser needed).")  # fmt: skip
+@click.option("--docx", type=click.Path(dir_okay=False),
+              help="Also write it as a Word document (python-docx).")  # fmt: skip
+@click.option("--paper", type=click.Choice(["a4", "letter"]), default="a4", show_default=True,
+              help="Paper size of the PDF.")  # fmt: skip
+def report_command(fit_dir, out, markdown, csv_dir, pdf, docx, paper):
     """Write the report of the fit saved in FIT_DIR (by bayes fit --save)."""
     from bayes.report.build import build_report
     from bayes.report.render import outputs_text, write_report
 
     report = build_report(fit_dir)
-    outputs = [("--out", out)] + ([("--markdown", markdown)] if markdown else [])
+    named = {"--out": out, "--markdown": markdown, "--pdf": pdf, "--docx": docx}
+    outputs = [(option, path) for option, path in named.items() if path]
     if csv_dir:
         outputs += [("--csv-dir", Path(csv_dir) / f"{t.key}.csv") for t in report.tables]
     check_outputs(outputs, fit_folder_files(fit_dir))
-    write_report(report, html=out, markdown=markdown, csv_dir=csv_dir)
-    click.echo(outputs_text(report, html=out, markdown=markdown, csv_dir=csv_dir))
+    where = dict(html=out, markdown=markdown, csv_dir=csv_dir, pdf=pdf, docx=docx, paper=paper)
+    write_report(report, **where)
+    click.echo(outputs_text(report, **where))
 
 
 @click.command("demo")

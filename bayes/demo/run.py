@@ -17,8 +17,8 @@ def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
 
     ``out/fit/`` holds the saved fit, its sweep (``sweep.json``) and the comparison with a
     second engineer's prior file (``compare.json``); ``out/report.html``
-    (self-contained), ``out/report.md`` with its PNG figures beside it, and ``out/tables/*.csv``
-    the report.
+    (self-contained), ``out/report.pdf`` (A4), ``out/report.docx``, ``out/report.md`` with its
+    PNG figures beside it, and ``out/tables/*.csv`` the report.
     """
     from bayes.api import fit, load_priors
     from bayes.compare import compare_priors
@@ -58,6 +58,7 @@ def run_demo(out: Path, echo: Callable[[str], None] = print) -> None:
     echo(comparison.text())
     echo("")
     report = report_from_result(result, sweep=swept, comparison=comparison)
-    html, markdown, tables = out / "report.html", out / "report.md", out / "tables"
-    write_report(report, html=html, markdown=markdown, csv_dir=tables)
-    echo(outputs_text(report, html=html, markdown=markdown, csv_dir=tables))
+    where = dict(html=out / "report.html", markdown=out / "report.md", csv_dir=out / "tables",
+                 pdf=out / "report.pdf", docx=out / "report.docx")  # fmt: skip
+    write_report(report, **where)
+    echo(outputs_text(report, **where))

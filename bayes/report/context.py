@@ -4,11 +4,12 @@ each column and coefficient, and the formats of the table cells.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-from bayes.results.format import fmt
+from bayes.results.format import fmt, fmt_by_sd
 from bayes.results.result import FitResult
 from elicit.units import LEVEL, predictor_units, split_term, term_units
 
@@ -85,6 +86,9 @@ def known_units(name: str, units: Mapping[str, str]) -> str | None:
 # --------------------------------------------------------------------------- cells
 
 
+MCSE_DIGITS = 2  # significant digits of a Monte Carlo standard error
+
+
 def prob_cell(p: float | None) -> str:
     """A probability to three decimals, with ``>0.999`` and ``<0.001`` at the ends."""
     if p is None:
@@ -94,6 +98,30 @@ def prob_cell(p: float | None) -> str:
     if p < 0.001:
         return "<0.001"
     return f"{p:.3f}"
+
+
+def fmt_by_error(x: float | None, sd: float | None, mcse: float | None) -> str:
+    """``x`` rounded by its posterior sd (:func:`fmt_by_sd`), and never finer than its Monte
+    Carlo error supports: to the decade of 2 MCSE when that is coarser (a digit below twice the
+    Monte Carlo standard error is noise of the sampling; common practice, no source)."""
+    text = fmt_by_sd(x, sd)
+    if x is None or mcse is None or not math.isfinite(mcse) or mcse <= 0 or not math.isfinite(x):
+        return text
+    shown = len(text.split(".", 1)[1]) if "." in text else 0
+    decimals = -math.floor(math.log10(2 * mcse))
+    if decimals >= shown:
+        return text
+    return f"{round(float(x), decimals) + 0.0:.{max(decimals, 0)}f}"
+
+
+def prob_by_error(p: float | None, mcse: float | None) -> str:
+    """A probability as :func:`prob_cell` shows it, with no more decimals than its Monte Carlo
+    error supports (the decade of 2 MCSE; common practice, no source)."""
+    text = prob_cell(p)
+    if p is None or not mcse or not math.isfinite(mcse) or text[0] in "<>":
+        return text
+    decimals = min(3, max(-math.floor(math.log10(2 * mcse)), 0))
+    return f"{p:.{decimals}f}"
 
 
 def number_cell(x: float) -> str:

@@ -59,6 +59,11 @@ class Table:
     headers : tuple of str
         Column headings, with units where a column has one unit.
     rows : tuple of tuple of Cell
+    values : tuple of tuple of (float or None), optional
+        The numbers behind the cells, row by row and column by column (None for a text cell or
+        a missing number), for the machine-readable outputs: where a cell shows a display
+        string (``">0.999"``, ``"-"``, ``"inf"``) the CSV holds this number instead. Empty when
+        the builder has no numbers beyond what the cells show.
     """
 
     key: str
@@ -66,7 +71,12 @@ class Table:
     headers: tuple[str, ...]
     rows: tuple[tuple[Cell, ...], ...]
     number: int | None = None
+    values: tuple[tuple[float | None, ...], ...] = ()
     kind: ClassVar[str] = "table"
+
+    def __post_init__(self) -> None:
+        if self.values and [len(v) for v in self.values] != [len(r) for r in self.rows]:
+            raise ValueError(f"table {self.key}: values must have the shape of its rows")
 
     @property
     def label(self) -> str:

@@ -9,8 +9,10 @@ import re
 from pathlib import Path
 
 from bayes.errors import InputError
-from bayes.report.document import Cell, Report, Table
+from bayes.report.document import Report, Table, cell_lines, numeric_cell
 from elicit.outputs import write_set
+
+PAPER_NAMES = {"a4": "A4", "letter": "Letter"}
 
 
 def write_report(
@@ -19,6 +21,9 @@ def write_report(
     html: str | Path | None = None,
     markdown: str | Path | None = None,
     csv_dir: str | Path | None = None,
+    pdf: str | Path | None = None,
+    docx: str | Path | None = None,
+    paper: str = "a4",
 ) -> list[Path]:
     """Render ``report`` and write the requested outputs; return the paths written.
 
@@ -36,6 +41,10 @@ def write_report(
         Markdown file; its figures are written beside it as ``<stem>-<figure>.png``.
     csv_dir : path, optional
         Folder for one CSV file per table (created if missing).
+    pdf : path, optional
+        PDF on ``paper`` ("a4" or "letter"), drawn with reportlab (:mod:`bayes.report.pdf`).
+    docx : path, optional
+        Word document, built with python-docx (:mod:`bayes.report.word`).
     """
     files: dict[Path, bytes] = {}
     if html is not None:
@@ -52,6 +61,16 @@ def write_report(
             raise InputError(f"csv_dir must be a folder, got {folder} (a file)")
         for table in report.tables:
             files[folder / f"{table.key}.csv"] = table_csv(table).encode("utf-8")
+    if pdf is not None:
+        from bayes.report.pdf import PAPERS, render_pdf
+
+        if paper not in PAPERS:
+            raise InputError(f"paper must be one of {', '.join(PAPERS)}, got {paper!r}")
+        files[_output(pdf, ".pdf")] = render_pdf(report, paper=paper)
+    if docx is not None:
+        from bayes.report.word import render_docx
+
+        files[_output(docx, ".docx")] = render_docx(report)
     for path in files:
         path.parent.mkdir(parents=True, exist_ok=True)
     return write_set(files)
@@ -63,6 +82,9 @@ def outputs_text(
     html: str | Path | None = None,
     markdown: str | Path | None = None,
     csv_dir: str | Path | None = None,
+    pdf: str | Path | None = None,
+    docx: str | Path | None = None,
+    paper: str = "a4",
 ) -> str:
     """Where :func:`write_report` put the report, in a few lines for the terminal."""
     lines = []
@@ -73,6 +95,10 @@ def outputs_text(
         lines.append(f"Markdown: {markdown} (+ {n_fig} PNG figures beside it)")
     if csv_dir is not None:
         lines.append(f"Tables: {len(report.tables)} CSV files in {Path(csv_dir)}/")
+    if pdf is not None:
+        lines.append(f"PDF: {pdf} ({PAPER_NAMES.get(paper, paper)} paper)")
+    if docx is not None:
+        lines.append(f"Word: {docx}")
     return "\n".join(lines)
 
 
@@ -98,9 +124,9 @@ def _environment(autoescape: bool):
         undefined=jinja2.StrictUndefined,
     )
     env.filters["md"] = _md_escape
-    env.filters["cell_md"] = lambda c: "<br>".join(_md_escape(x) for x in _lines(c))
-    env.filters["lines"] = _lines
-    env.filters["regex_number"] = lambda text: bool(_NUMBER.fullmatch(text))
+    env.filters["cell_md"] = lambda c: "<br>".join(_md_escape(x) for x in cell_lines(c))
+    env.filters["lines"] = cell_lines
+    env.filters["numeric"] = numeric_cell
     return env
 
 
@@ -119,24 +145,56 @@ def render_markdown(report: Report, figure_files: dict[str, str]) -> str:
 
 
 def table_csv(table: Table) -> str:
-    """The table as CSV text (several lines in one cell joined by '; ')."""
+    """The table as CSV text, numbers as numbers.
+
+    A column whose cells all show one number (or ``-``) is a numeric column: a cell showing a
+    plain number keeps it; one showing a display string (``>0.999``, ``<0.001``, ``inf``,
+    ``3.1 ± 0.2``, ``-``) holds the number behind it (:attr:`Table.values`; empty when missing)
+    and a column ``<heading> shown`` beside it says what the cell showed. Several lines in one
+    text cell are joined by '; '.
+    """
+    numeric = [_numeric_column(table, j) for j in range(len(table.headers))]
+    flagged = [
+        numeric[j] and any(not _PLAIN.fullmatch(_text(row[j])) for row in table.rows)
+        for j in range(len(table.headers))
+    ]
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\n")
-    writer.writerow(table.headers)
-    for row in table.rows:
-        writer.writerow(["; ".join(_lines(c)) for c in row])
+    header: list[str] = []
+    for j, h in enumerate(table.headers):
+        header += [h, f"{h} shown"] if flagged[j] else [h]
+    writer.writerow(header)
+    for i, row in enumerate(table.rows):
+        out: list[str] = []
+        for j, cell in enumerate(row):
+            text = _text(cell)
+            if not flagged[j]:
+                out.append(text)
+            elif _PLAIN.fullmatch(text):
+                out += [text, ""]
+            else:
+                value = table.values[i][j] if table.values else None
+                out += ["" if value is None else repr(float(value)), text]
+        writer.writerow(out)
     return buffer.getvalue()
 
 
-def _lines(cell: Cell) -> tuple[str, ...]:
-    return (cell,) if isinstance(cell, str) else tuple(cell)
+def _text(cell) -> str:
+    return "; ".join(cell_lines(cell)).strip()
 
 
-_NUMBER = re.compile(r"-|[<>]?[-+]?(\d[\d.]*(e[-+]?\d+)?|inf)( ± [\d.e+-]+)?")
-_MD_SPECIAL = re.compile(r"([\\`*\[\]|])")
+def _numeric_column(table: Table, j: int) -> bool:
+    cells = [row[j] for row in table.rows]
+    return (
+        bool(cells) and all(numeric_cell(c) for c in cells) and any(_text(c) != "-" for c in cells)
+    )
+
+
+_PLAIN = re.compile(r"[-+]?\d[\d.]*(e[-+]?\d+)?")  # a finite number as a CSV reader reads it
+_MD_SPECIAL = re.compile(r"([\\`*\[\]|<>&])")
 
 
 def _md_escape(text: str) -> str:
-    """Text safe inside Markdown: HTML entities for <, >, &; backslash before * [ ] | ` \\."""
-    text = str(text).replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
-    return _MD_SPECIAL.sub(r"\\\1", text).replace("\n", " ")
+    """Text safe inside Markdown, with no HTML entities: a backslash before each of
+    < > & * [ ] | ` \\ (CommonMark lets any ASCII punctuation be escaped so)."""
+    return _MD_SPECIAL.sub(r"\\\1", str(text)).replace("\n", " ")

@@ -10,6 +10,7 @@ from bayes.report.context import Context, coefficient_units
 from bayes.report.document import Block, Figure, Paragraph, Section
 from bayes.report.figures import DensityPanel, ForestRow, Interval
 from bayes.report.quantities import prior_dist, stated_ranges, x_sd, y_sd
+from bayes.report.smooth import DENSITY_DRAWS, rao_blackwell_density
 
 PREDICTIVE_ROWS = 2000  # the predictive check draws at most this many rows (seeded choice)
 
@@ -23,7 +24,9 @@ def figures_section(ctx: Context) -> Section:
     blocks: list[Block] = []
     panels = [density_panel(ctx, j) for j in range(1, len(r.names))]
     if panels:
-        blocks.append(Figure("densities", W.DENSITIES_CAPTION, F.density_figure(panels)))
+        sampled = r.posterior.method == "sampled"
+        caption = W.DENSITIES_CAPTION + (W.densities_sampled(DENSITY_DRAWS) if sampled else "")
+        blocks.append(Figure("densities", caption, F.density_figure(panels)))
         blocks.append(Figure("forest", W.forest_caption(ctx.level_text),
                              F.forest_figure(forest_rows(ctx), r.level)))  # fmt: skip
     if ctx.sweep is not None:
@@ -49,8 +52,9 @@ def density_panel(ctx: Context, j: int) -> DensityPanel:
     a, b = min(ends), max(ends)
     pad = 0.05 * (b - a)
     x = np.linspace(a - pad, b + pad, 400)
+    smooth = rao_blackwell_density(r, j, x)  # a sampled fit: no kernel, no bandwidth
     return DensityPanel(
-        name, coefficient_units(ctx, name), x, post.pdf(x),
+        name, coefficient_units(ctx, name), x, post.pdf(x) if smooth is None else smooth,
         prior.pdf(x) if prior is not None else None, stated, ls,
     )  # fmt: skip
 

@@ -5,8 +5,16 @@ from __future__ import annotations
 import math
 
 from bayes.report import wording as W
-from bayes.report.context import Context, coefficient_units, number_cell, prob_cell
+from bayes.report.context import (
+    MCSE_DIGITS,
+    Context,
+    coefficient_units,
+    number_cell,
+    prob_by_error,
+    prob_cell,
+)
 from bayes.report.document import Block, Bullets, Paragraph, Section, Table
+from bayes.report.quantities import prior_dist
 from bayes.results.format import fmt, fmt_by_sd
 
 TITLE = "Sensitivity to the priors"
@@ -24,12 +32,9 @@ def sensitivity_section(ctx: Context) -> Section:
                                 sweep.detail, sweep.conclusion_level)),
         Bullets(tuple(sweep.headline) or (W.NO_CONCLUSIONS,)),
     ]  # fmt: skip
-    rows = _conclusion_rows(sweep)
-    if rows:
-        blocks.append(Table("conclusions", "Conclusions along the width sweep",
-                            ("conclusion", "P at stated priors", "status",
-                             "flips when narrower by factor", "flips when wider by factor",
-                             "P with flat priors"), rows))  # fmt: skip
+    conclusions = _conclusions_table(sweep)
+    if conclusions is not None:
+        blocks.append(conclusions)
     kept = [c for c in sweep.coefficients if _finite(c.variance_ratio) is not None]
     headers = ("coefficient", "posterior / prior variance", "prior's share of the posterior "
                "precision")  # fmt: skip
@@ -40,23 +45,35 @@ def sensitivity_section(ctx: Context) -> Section:
         blocks.append(Table("influence", "How much the data dominate the priors (at the stated "
                             "priors)", headers, tuple(influence)))  # fmt: skip
     blocks += _conflict_blocks(sweep.conflict)
-    blocks += _power_blocks(sweep.power_scaling)
+    blocks += _power_blocks(ctx, sweep.power_scaling)
     blocks += _swap_blocks(ctx, sweep.family_swap)
     if sweep.notes:
         blocks.append(Bullets(tuple(sweep.notes)))
     return Section("sensitivity", TITLE, tuple(blocks))
 
 
-def _conclusion_rows(sweep) -> tuple:
-    """One row per conclusion, in the order of the coefficients."""
-    rows = []
+def _conclusions_table(sweep) -> Table | None:
+    """One row per conclusion, in the order of the coefficients; the Monte Carlo standard error
+    of the probability at the stated priors beside it when the sweep was sampled."""
+    rows, values = [], []
     for c in sweep.coefficients:
         for k in (k for k in sweep.conclusions if k.name == c.name):
             flat = _finite(float(k.probability[-1]))
-            status = k.status  # the sweep's own words
-            rows.append((k.statement, prob_cell(k.stated), status, _flip_cell(k.narrower),
-                         _flip_cell(k.wider), prob_cell(flat)))  # fmt: skip
-    return tuple(rows)
+            mcse = k.stated_mcse or None
+            rows.append((k.statement, prob_by_error(k.stated, mcse), fmt(mcse, MCSE_DIGITS),
+                         k.status, _flip_cell(k.narrower), _flip_cell(k.wider),
+                         prob_cell(flat)))  # fmt: skip
+            values.append((None, k.stated, mcse, None, _flip_value(k.narrower),
+                           _flip_value(k.wider), flat))  # fmt: skip
+    if not rows:
+        return None
+    headers = ("conclusion", "P at stated priors", "MCSE of P at stated priors", "status",
+               "flips when narrower by factor", "flips when wider by factor",
+               "P with flat priors")  # fmt: skip
+    keep = [j for j in range(len(headers)) if any(row[j] != "-" for row in rows)]
+    return Table("conclusions", "Conclusions along the width sweep",
+                 tuple(headers[j] for j in keep), tuple(tuple(r[j] for j in keep) for r in rows),
+                 values=tuple(tuple(v[j] for j in keep) for v in values))  # fmt: skip
 
 
 def _conflict_blocks(conflict: dict) -> list[Block]:
@@ -74,17 +91,27 @@ def _conflict_blocks(conflict: dict) -> list[Block]:
     return blocks
 
 
-def _power_blocks(power: dict) -> list[Block]:
-    """Power-scaling sensitivity: what it measures and the per-coefficient table."""
+def _power_blocks(ctx: Context, power: dict) -> list[Block]:
+    """Power-scaling sensitivity: what it measures and the per-coefficient table, without the
+    coefficients with a flat prior (power-scaling a flat prior leaves it flat: it cannot decide
+    anything), which a sentence names instead."""
     if not power:
         return []
+    flat = {x["name"] for x in power["coefficients"]
+            if prior_dist(ctx.result.priors, x["name"]) is None}  # fmt: skip
     rows = tuple((x["name"], f"{x['prior']:.3f}", f"{x['likelihood']:.3f}",
-                  x["diagnosis"] or "none") for x in power["coefficients"])  # fmt: skip
-    return [
-        Paragraph(W.power_scaling_text(power["measure"], power["method"], power["threshold"])),
-        Table("power_scaling", "Power-scaling sensitivity",
-              ("coefficient", "prior", "likelihood", "diagnosis"), rows),
-    ]  # fmt: skip
+                  x["diagnosis"] or "none")
+                 for x in power["coefficients"] if x["name"] not in flat)  # fmt: skip
+    blocks: list[Block] = [
+        Paragraph(W.power_scaling_text(power["measure"], power["method"], power["threshold"]))
+    ]
+    if rows:
+        blocks.append(Table("power_scaling", "Power-scaling sensitivity",
+                            ("coefficient", "prior", "likelihood", "diagnosis"), rows))  # fmt: skip
+    if flat:
+        names = [x["name"] for x in power["coefficients"] if x["name"] in flat]
+        blocks.append(Paragraph(W.power_scaling_flat(names)))
+    return blocks
 
 
 def _swap_blocks(ctx: Context, swap: dict | None) -> list[Block]:
@@ -112,6 +139,11 @@ def _flip_cell(f: float | None) -> str:
     if f is None:
         return "-"
     return number_cell(1 / f) if f < 1 else number_cell(f)
+
+
+def _flip_value(f: float | None) -> float | None:
+    """The number :func:`_flip_cell` shows (None for none)."""
+    return None if f is None else (1 / f if f < 1 else f)
 
 
 def _finite(x: float | None) -> float | None:

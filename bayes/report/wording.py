@@ -165,14 +165,16 @@ def penalty_text(sigma: float, units: str, basis: str) -> str:
 # --------------------------------------------------------------------------- the posterior
 
 
-def interval_text(level_text: str, level: float, tail: float) -> str:
+def interval_text(level_text: str, level: float, tail: float, sampled: bool = False) -> str:
+    mcse = (" and, from sampling, to no digit finer than the decade of twice its Monte Carlo "
+            "standard error (MCSE)") if sampled else ""  # fmt: skip
     return (
         f"Each {level_text} interval is an equal-tailed credible interval: given the model, the "
         f"priors and these data, the coefficient lies inside it with probability "
         f"{level:g}, with {100 * tail:g}% on each side. P(>0) is the posterior probability "
         "that the effect is positive. 'sd / prior sd' near 1 means the data changed the "
         "prior little; near 0, the data dominate. Numbers are rounded to the precision "
-        "their posterior sd supports (sd to two significant digits); fit.json in the fit "
+        f"their posterior sd supports (sd to two significant digits){mcse}; fit.json in the fit "
         "folder keeps full precision."
     )
 
@@ -191,8 +193,8 @@ def noise_text(post, units: str, level_text: str, tail: float) -> str:
 def fit_text(residual_sd, units: str, r_squared: float, noise: str, mode_kind: str) -> str:
     return (
         f"Fit at the posterior mean: residual sd {fmt(residual_sd, 3)} "
-        f"{units}, R^2 = {r_squared:.3f}; {noise}. The 'mode' column is "
-        f"the {mode_kind}."
+        f"{units}, R^2 = {r_squared:.3f}; {noise}. The column headed "
+        f"'{mode_kind}' holds that one mode for every coefficient."
     )
 
 
@@ -210,6 +212,15 @@ DENSITIES_CAPTION = (
     "axis) and the flat-prior least-squares estimate (dotted line). The intercept is "
     "not shown."
 )
+
+
+def densities_sampled(draws: int) -> str:
+    return (
+        f" Posterior densities of the sampled fit are Rao-Blackwellised: the average over {draws} "
+        "draws of each coefficient's conditional density given the other coefficients and the "
+        "noise sd "
+        "(a kernel density estimate only where no such conditional is available)."
+    )
 
 
 def forest_caption(level_text: str) -> str:
@@ -288,6 +299,17 @@ def power_scaling_text(measure: str, method: str, threshold: float) -> str:
         f"{method}; a value at or above {threshold:g} "
         "flags sensitivity. Sensitive to both prior and likelihood suggests prior-data "
         "conflict; to the prior only, a weak likelihood (the prior decides)."
+    )
+
+
+def power_scaling_flat(names: list[str]) -> str:
+    listed = ", ".join(names)
+    verb = "has a flat prior" if len(names) == 1 else "have flat priors"
+    return (
+        f"{listed} {verb} and {'is' if len(names) == 1 else 'are'} left out of the power-scaling "
+        "table: a flat prior raised to any power stays flat, so the prior cannot decide "
+        f"{'it' if len(names) == 1 else 'them'}; only the data and, through correlation, the "
+        f"other coefficients' priors move {'its posterior' if len(names) == 1 else 'theirs'}."
     )
 
 
