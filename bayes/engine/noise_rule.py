@@ -24,6 +24,7 @@ region of step 3 (as before this search existed), so one-mode numbers are unchan
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from dataclasses import dataclass
 
@@ -233,11 +234,30 @@ def _region(f, u_star: float, top: float) -> tuple[float, float]:
     curv = -(f(u_star + h) - 2 * peak + f(u_star - h)) / h**2
     sd = 1 / np.sqrt(curv) if curv > 0 else 1.0
     lo, hi = u_star - 3 * sd, u_star + 3 * sd
-    while f(lo) > top - TAIL:
-        lo -= 2 * sd
-    while f(hi) > top - TAIL:
-        hi += 2 * sd
-    return lo, hi
+    return _reach(f, lo, -2 * sd, top - TAIL), _reach(f, hi, 2 * sd, top - TAIL)
+
+
+REGION_STEPS = 50  # steps of 2 sd before they grow; then at most REGION_GROWN growing steps
+REGION_GROWN = 200
+
+
+def _reach(f, u: float, step: float, below: float) -> float:
+    """Move ``u`` by ``step`` until ``f(u) <= below``: in steps of two sds at first (as the
+    rule always did), then in steps growing by half each time, and never without end: a
+    density that does not fall off within about e^(1e36) of the mode is an error."""
+    for i in range(REGION_STEPS + REGION_GROWN):
+        if not f(u) > below:
+            return u
+        u += step
+        if i >= REGION_STEPS:
+            step *= 1.5
+        if not math.isfinite(u):
+            break
+    raise InputError(
+        "the noise sd's posterior does not fall off away from its mode, so it cannot be "
+        "integrated: state the noise sd or a range for it ([noise] in the prior file), or "
+        "check the priors' scales against the data's"
+    )
 
 
 def _panels(lo: float, hi: float, count: int) -> tuple[np.ndarray, np.ndarray]:
