@@ -40,7 +40,8 @@ def natural_prior(
     return scaled_prior(factor, PriorSet(None, None, None, None, {}, noise, entries, blk))
 
 
-def _arviz():
+def quiet_arviz():
+    """arviz, imported without its FutureWarnings."""
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", FutureWarning)
         import arviz
@@ -54,7 +55,7 @@ def assert_draws_match(draws: np.ndarray, mean: float, sd: float, q025: float, q
     The Monte Carlo standard errors come from arviz.mcse (effective sample size
     based), so the tolerance is the sampling error of the check itself.
     """
-    az = _arviz()
+    az = quiet_arviz()
     checks = [
         ("mean", np.mean(draws), mean, az.mcse(draws, method="mean")),
         ("sd", np.std(draws, ddof=1), sd, az.mcse(draws, method="sd")),

@@ -14,7 +14,6 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-from threadpoolctl import threadpool_limits
 
 from bayes.api import fit
 from bayes.data.columns import check_distinct
@@ -24,13 +23,6 @@ from elicit.spec import CoefficientPrior, PriorSet
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = pd.read_csv(ROOT / "bayes" / "demo" / "trial_mix.csv")
-
-
-@pytest.fixture(autouse=True)
-def one_blas_thread():
-    # two shared cores: small linear algebra on one BLAS thread (common practice, no source)
-    with threadpool_limits(limits=1, user_api="blas"):
-        yield
 
 
 def _infinite_variance_fit():

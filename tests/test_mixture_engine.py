@@ -18,7 +18,6 @@ import numpy as np
 import pandas as pd
 import pytest
 from scipy import stats
-from threadpoolctl import threadpool_limits
 
 from bayes.api import fit
 from bayes.errors import InputError
@@ -30,12 +29,6 @@ X1 = np.array([-1.2, -0.7, -0.3, 0.0, 0.4, 0.8, 1.1, 1.6])
 X2 = np.array([0.5, -1.0, 1.4, -0.2, 0.9, -1.3, 0.1, 0.6])
 Y = np.array([1.9, 0.4, 2.8, 1.1, 3.9, 0.2, 2.5, 4.6])
 NOISE_RANGE = {"low": 0.8, "high": 3.0, "mass": 0.9}
-
-
-@pytest.fixture(autouse=True)
-def one_blas_thread():
-    with threadpool_limits(limits=1, user_api="blas"):
-        yield
 
 
 def _priors(noise, x1, x2=None):

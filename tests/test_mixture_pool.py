@@ -11,7 +11,6 @@ import pandas as pd
 import pytest
 from click.testing import CliRunner
 from scipy import stats
-from threadpoolctl import threadpool_limits
 
 import bayes
 from bayes.cli.app import main as bayes_main
@@ -26,12 +25,6 @@ from elicit.write import write_prior_file
 
 # Invented study: two experts on the effect of x on y.
 FRAME = pd.DataFrame({"x": [-1.0, -0.5, 0.0, 0.5, 1.0, 1.5], "y": [0.2, 1.1, 0.7, 1.9, 1.6, 2.8]})
-
-
-@pytest.fixture(autouse=True)
-def one_blas_thread():
-    with threadpool_limits(limits=1, user_api="blas"):
-        yield
 
 
 def _doc(centers, family="normal", scale=1.0, **pool):

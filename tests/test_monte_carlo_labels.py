@@ -11,6 +11,7 @@ import warnings
 import numpy as np
 import pandas as pd
 import pytest
+from sampling_helpers import quiet_arviz
 from scipy import stats
 from threadpoolctl import threadpool_limits
 
@@ -18,21 +19,6 @@ from bayes.api import fit
 from bayes.engine.loo import exact_loo, psis_loo
 from bayes.settings import SamplerSettings
 from elicit.spec import CoefficientPrior, PriorSet
-
-
-@pytest.fixture(autouse=True)
-def one_blas_thread():
-    # Small matrices: extra BLAS threads only add waiting on a shared machine.
-    with threadpool_limits(limits=1, user_api="blas"):
-        yield
-
-
-def _arviz():
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", FutureWarning)
-        import arviz
-
-    return arviz
 
 
 def _frame(n: int = 25, seed: int = 12) -> pd.DataFrame:
@@ -51,7 +37,7 @@ def sampled():
 
 
 def test_p_positive_and_interval_ends_carry_arviz_mcse(sampled):
-    az = _arviz()
+    az = quiet_arviz()
     draws = sampled.posterior.draws
     for j, row in enumerate(sampled.rows):
         d = draws[..., j]
@@ -91,7 +77,7 @@ def test_exact_fits_have_no_mcse_columns():
 
 
 def test_psis_loo_se_is_arviz_loo_se_on_the_same_draws():
-    az = _arviz()
+    az = quiet_arviz()
     frame = _frame(30, seed=13)
     result = fit(frame, response="y")
     draws = result.sample(1000, seed=3)

@@ -16,7 +16,6 @@ import numpy as np
 import pandas as pd
 import pytest
 from scipy import optimize, special, stats
-from threadpoolctl import threadpool_limits
 
 from bayes.api import fit
 from bayes.data.factor import factor_from_arrays
@@ -30,13 +29,6 @@ from elicit.validate import parse_priors
 
 GRID = np.linspace(-9.0, 8.0, 50001)  # log sigma: far beyond both modes of every design
 QUANTILES = (0.05, 0.25, 0.5, 0.75, 0.95)
-
-
-@pytest.fixture(autouse=True)
-def one_blas_thread():
-    # Small matrices: extra BLAS threads only add waiting on a shared machine.
-    with threadpool_limits(limits=1, user_api="blas"):
-        yield
 
 
 def _close(value, reference, sd, rel):

@@ -21,12 +21,6 @@ NAMES = ["water_cement", "fly_ash", "curing_temp"]
 SAMPLER = SamplerSettings(chains=4, draws=1000, warmup=200, seed=11)
 
 
-@pytest.fixture(autouse=True)
-def one_blas_thread():
-    with threadpool_limits(limits=1, user_api="blas"):
-        yield
-
-
 def _priors(family: str):
     coefficient = [
         {"name": "water_cement", "family": "normal", "low": -90.0, "high": -30.0, "mass": 0.9,

@@ -10,7 +10,6 @@ import pandas as pd
 import pytest
 from conftest import DEMO, GAUSSIAN_PRIORS, lre
 from scipy import integrate, special, stats
-from threadpoolctl import threadpool_limits
 
 from bayes.api import fit, load_priors
 from bayes.data.design import build_design
@@ -22,13 +21,6 @@ from bayes.problem import DataFactor
 from bayes.sensitivity.sweep import Threshold, default_factors, sweep
 from bayes.settings import SamplerSettings
 from elicit.validate import parse_priors
-
-
-@pytest.fixture(autouse=True)
-def one_blas_thread():
-    # Small matrices: extra BLAS threads only add waiting on a shared machine.
-    with threadpool_limits(limits=1, user_api="blas"):
-        yield
 
 
 @pytest.fixture(scope="module")

@@ -16,12 +16,6 @@ from bayes.sensitivity.result import SweepResult
 DATA, PRIORS = DEMO / "trial_mix.csv", GAUSSIAN_PRIORS
 
 
-@pytest.fixture(autouse=True)
-def one_blas_thread():
-    with threadpool_limits(limits=1, user_api="blas"):
-        yield
-
-
 def run(*args):
     return CliRunner().invoke(main, [str(a) for a in args])
 

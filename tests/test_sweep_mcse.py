@@ -10,12 +10,11 @@ prior the slope's posterior is one-dimensional and is integrated here by scipy.i
 from __future__ import annotations
 
 import math
-import warnings
 
 import numpy as np
 import pytest
+from sampling_helpers import quiet_arviz
 from scipy import integrate, optimize
-from threadpoolctl import threadpool_limits
 
 from bayes.data.factor import factor_from_arrays
 from bayes.sensitivity.result import SweepResult
@@ -25,21 +24,6 @@ from bayes.settings import DECIDE_MCSE, SamplerSettings
 from elicit.validate import parse_priors
 
 SIGMA, CENTER, SCALE = 1.0, 0.0, 0.4
-
-
-@pytest.fixture(autouse=True)
-def one_blas_thread():
-    # Small matrices: extra BLAS threads only add waiting on a shared machine.
-    with threadpool_limits(limits=1, user_api="blas"):
-        yield
-
-
-def _arviz():
-    with warnings.catch_warnings():
-        warnings.simplefilter("ignore", FutureWarning)
-        import arviz
-
-    return arviz
 
 
 def _design(n: int = 12):
@@ -215,7 +199,7 @@ def test_an_old_sweep_json_without_mcse_still_loads():
 
 
 def test_weighted_mcse_matches_arviz_and_the_spread_of_importance_sampling():
-    az = _arviz()
+    az = quiet_arviz()
     rng = np.random.default_rng(2)
     x = rng.standard_normal((4, 2000))
     flat = x.reshape(-1, 1)

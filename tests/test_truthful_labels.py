@@ -20,7 +20,6 @@ import pandas as pd
 import pytest
 from conftest import lre
 from hostile_helpers import one_line_error, run
-from threadpoolctl import threadpool_limits
 
 from bayes.api import fit
 from bayes.data.factor import factor_from_arrays
@@ -31,13 +30,6 @@ from bayes.engine.scaled import scaled_prior
 from bayes.errors import InputError
 from bayes.store import load_fit, save_fit
 from elicit.spec import CoefficientPrior, NoisePrior, PriorSet
-
-
-@pytest.fixture(autouse=True)
-def one_blas_thread():
-    # Small matrices: extra BLAS threads only add waiting on a shared machine.
-    with threadpool_limits(limits=1, user_api="blas"):
-        yield
 
 
 def _priors(coefficients: dict[str, tuple], noise: NoisePrior | None = None) -> PriorSet:
