@@ -5,8 +5,9 @@ A fit folder holds ``fit.json`` (the JSON of ``bayes fit --format json``),
 prior file as given) and, for in-memory fits, ``data.csv`` (the rows used).
 A model with categorical predictors or derived terms adds ``terms.json`` (its
 coding, see :class:`bayes.data.terms.Terms`), which ``bayes predict`` applies to new rows.
-Sampled fits add ``posterior.nc``, an arviz InferenceData file (checked against the
-draws on loading, and the loaded fit's ``inference``). ``sweep.json``, ``compare.json`` and
+Sampled fits add ``posterior.nc``, an arviz InferenceData file: the one store of their draws
+(``posterior.npz`` records their shape; folders saved before 0.2 hold them in both, checked
+equal on loading), and the loaded fit's ``inference``. ``sweep.json``, ``compare.json`` and
 ``contrasts.json`` are written beside a fit by the commands that make them; each records the
 fit it belongs to (:data:`FIT_ID`) and the command line that wrote it (:func:`commands`), see
 :mod:`bayes.store_derived`. The folder is written beside its final place and swapped in only
@@ -31,8 +32,10 @@ from bayes.store_checks import (
     DAMAGE,
     check_fit_doc,
     damaged,
+    draws_digest,
     load_arrays,
     load_inference,
+    read_inference,
     read_json,
 )
 from bayes.store_derived import (  # noqa: F401 (re-exported: bayes.store is the one front door)
@@ -90,7 +93,7 @@ def _write_fit(result: FitResult, tmp: Path) -> None:
         "x_scale": f.x_scale,
         "y_mean": np.array(f.y_mean),
         "R": f.R,
-        **_posterior_arrays(post),
+        **_posterior_arrays(post, draws_in_nc=result.inference is not None),
     }
     np.savez(tmp / "posterior.npz", **arrays)
     doc = result.to_dict()
@@ -130,8 +133,12 @@ def _priors_text(priors) -> str:
     return dump_toml(used, header="The priors this fit used (written by bayes fit --save).")
 
 
-def _posterior_arrays(post: Posterior) -> dict[str, np.ndarray]:
+def _posterior_arrays(post: Posterior, *, draws_in_nc: bool) -> dict[str, np.ndarray]:
     """The posterior's arrays in ``posterior.npz``.
+
+    A sampled fit's draws are stored once: in ``posterior.nc`` when the fit has its
+    InferenceData (``draws_in_nc``; the npz then records only their ``draws_shape``),
+    else here.
 
     Both forms write the mixture keys (``weights``, ``sigma``, ``means``, ``covs`` and
     ``df`` in ``scalars``), which older versions read unconditionally: a sampled fit
@@ -145,6 +152,11 @@ def _posterior_arrays(post: Posterior) -> dict[str, np.ndarray]:
             "covs": post.cov[None],
         }
         df, extra = np.inf, {"draws": post.draws, "sigma_draws": post.sigma_draws}
+        if draws_in_nc:
+            extra = {
+                "draws_shape": np.array(post.draws.shape[:2], dtype=np.int64),
+                "draws_digest": draws_digest(post.draws, post.sigma_draws),
+            }
     else:
         mixture = {"weights": post.weights, "sigma": post.sigma, "means": post.means,
                    "covs": post.covs}  # fmt: skip
@@ -162,14 +174,17 @@ def _posterior_arrays(post: Posterior) -> dict[str, np.ndarray]:
     }
 
 
-def _posterior_from_arrays(z, labels: dict) -> Posterior:
-    """The posterior of a ``posterior.npz`` (old or new): draws make a sampled posterior."""
+def _posterior_from_arrays(z, labels: dict, draws=None) -> Posterior:
+    """The posterior of a ``posterior.npz`` (old or new): draws make a sampled posterior
+    (``draws``: the (beta, sigma) draws read from ``posterior.nc``, else those in ``z``)."""
     sigma_mode, df, known = z["scalars"]
     common = dict(
         names=tuple(str(s) for s in z["names"]), method=labels["method"],
         detail=labels["detail"], mode=z["mode"], mode_kind=labels["mode_kind"],
         sigma_mode=float(sigma_mode), noise_known=bool(known),
     )  # fmt: skip
+    if draws is not None:
+        return DrawsPosterior(**common, draws=draws[0], sigma_draws=draws[1])
     if "draws" in z:
         return DrawsPosterior(**common, draws=z["draws"], sigma_draws=z["sigma_draws"])
     return MixturePosterior(
@@ -211,12 +226,19 @@ def load_fit(folder: str | Path) -> FitResult:
     npz = folder / "posterior.npz"
     intercept = doc.get("intercept", True)  # a folder without the field: an intercept
     z = load_arrays(npz, intercept=intercept)
+    nc, inference, draws = folder / "posterior.nc", None, None
+    if "draws_shape" in z:  # the draws are stored once, in posterior.nc
+        if not nc.exists():
+            raise InputError(f"{nc}: missing: this sampled fit's draws are stored there")
+        names = tuple(str(s) for s in z["names"])
+        shape = tuple(int(c) for c in z["draws_shape"])
+        inference, *draws = read_inference(nc, names, shape, z["draws_digest"])
     try:
         factor = DataFactor(
             tuple(str(s) for s in z["factor_names"]), int(z["factor_n"]), z["x_mean"],
             z["x_scale"], float(z["y_mean"]), z["R"], intercept,
         )  # fmt: skip
-        post = _posterior_from_arrays(z, doc["labels"])
+        post = _posterior_from_arrays(z, doc["labels"], draws)
     except DAMAGE as e:
         raise damaged(npz, e) from None
     try:
@@ -253,13 +275,11 @@ def load_fit(folder: str | Path) -> FitResult:
             raise damaged(folder / "data.csv", e) from None
         if data.n != factor.n or not (np.isfinite(data.X).all() and np.isfinite(data.y).all()):
             raise InputError(f"{folder / 'data.csv'}: damaged: its rows are not the fit's")
-    inference = None
-    if (folder / "posterior.nc").exists():
+    if nc.exists() and inference is None:  # an older folder: the draws are in both files
         if not isinstance(post, DrawsPosterior):
-            raise InputError(f"{folder / 'posterior.nc'}: not this fit's InferenceData: "
+            raise InputError(f"{nc}: not this fit's InferenceData: "
                              "the fit is exact and has no draws")  # fmt: skip
-        inference = load_inference(folder / "posterior.nc", post.names, post.draws,
-                                   post.sigma_draws)  # fmt: skip
+        inference = load_inference(nc, post.names, post.draws, post.sigma_draws)
     result = FitResult(doc["response"], factor, priors, post, doc["level"], data=data,
                        provenance=doc["provenance"], terms=terms,
                        inference=inference)  # fmt: skip

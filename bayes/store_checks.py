@@ -100,6 +100,8 @@ def check_arrays(z: dict[str, np.ndarray], *, path: Path, intercept: bool = True
     if "draws" in z:
         shapes["draws"] = (*z["draws"].shape[:-1], k)
         shapes["sigma_draws"] = z["draws"].shape[:-1]
+    if "draws_shape" in z:  # the draws are in posterior.nc: (chains, draws) of them
+        shapes.update(draws_shape=(2,), draws_digest=(32,))
     if "growth" in z or "tail_df" in z:  # both or neither: the noise posterior's tail
         shapes.update(growth=(k, k), tail_df=())
     for key, shape in shapes.items():
@@ -121,23 +123,44 @@ def check_arrays(z: dict[str, np.ndarray], *, path: Path, intercept: bool = True
                 "draws", "sigma_draws", "factor_n", "growth", "tail_df"):  # fmt: skip
         if key in z and not np.all(np.isfinite(z[key])):
             raise InputError(f"{path}: damaged: array {key!r} has values that are not finite")
+    if "draws_shape" in z and (z["draws_shape"].dtype.kind not in "iu" or
+                               np.any(z["draws_shape"] < 1)):  # fmt: skip
+        raise InputError(f"{path}: damaged: array 'draws_shape' is not two counts")
     if int(z["factor_n"]) < 1 or np.any(z["x_scale"] <= 0) or np.any(z["weights"] < 0):
         raise InputError(f"{path}: damaged: the row count, scales or weights are out of range")
 
 
-def load_inference(path: Path, names: tuple[str, ...], draws: np.ndarray, sigma: np.ndarray):
-    """The arviz InferenceData of ``posterior.nc``, read into memory and checked against the
-    draws of ``posterior.npz``: a ``posterior`` group whose ``beta`` has dimensions (chain,
-    draw, coefficient) with the coefficient names ``names`` and whose ``sigma`` has (chain,
-    draw), both of the draws' shapes, finite, and equal to them.
+def draws_digest(beta: np.ndarray, sigma: np.ndarray) -> np.ndarray:
+    """The SHA-256 of a fit's draws (float64, C order) as 32 bytes: ``posterior.npz`` keeps it,
+    so a ``posterior.nc`` from another fit of the same shape is refused."""
+    import hashlib
+
+    h = hashlib.sha256(np.ascontiguousarray(beta, dtype=np.float64).tobytes())
+    h.update(np.ascontiguousarray(sigma, dtype=np.float64).tobytes())
+    return np.frombuffer(h.digest(), dtype=np.uint8).copy()
+
+
+def read_inference(path: Path, names: tuple[str, ...], shape: tuple[int, int],
+                   digest: np.ndarray | None = None):  # fmt: skip
+    """The arviz InferenceData of ``posterior.nc``, read into memory and checked: a
+    ``posterior`` group whose ``beta`` has dimensions (chain, draw, coefficient) with the
+    coefficient names ``names`` and whose ``sigma`` has (chain, draw), of ``shape`` (chains,
+    draws), all finite.
 
     Parameters
     ----------
     path : Path
     names : tuple of str
         The coefficients ("intercept" first).
-    draws : ndarray, shape (chains, draws, k)
-    sigma : ndarray, shape (chains, draws)
+    shape : tuple of int
+        (chains, draws) the fit recorded.
+    digest : ndarray of 32 uint8, optional
+        The draws' :func:`draws_digest` the fit recorded.
+
+    Returns
+    -------
+    tuple
+        (InferenceData, beta draws of shape (chains, draws, k), sigma draws (chains, draws)).
 
     Raises
     ------
@@ -157,19 +180,32 @@ def load_inference(path: Path, names: tuple[str, ...], draws: np.ndarray, sigma:
             beta, noise = post["beta"], post["sigma"]
         except (*DAMAGE, RuntimeError, ImportError) as e:
             raise damaged(path, e) from None
+    want = (*shape, len(names))
     bad = None
-    if tuple(beta.dims) != ("chain", "draw", "coefficient") or beta.shape != draws.shape:
-        bad = f"its beta has dimensions {dict(beta.sizes)}, not the fit's {draws.shape}"
-    elif tuple(noise.dims) != ("chain", "draw") or noise.shape != sigma.shape:
-        bad = f"its sigma has dimensions {dict(noise.sizes)}, not the fit's {sigma.shape}"
+    if tuple(beta.dims) != ("chain", "draw", "coefficient") or beta.shape != want:
+        bad = f"its beta has dimensions {dict(beta.sizes)}, not the fit's {want}"
+    elif tuple(noise.dims) != ("chain", "draw") or noise.shape != tuple(shape):
+        bad = f"its sigma has dimensions {dict(noise.sizes)}, not the fit's {tuple(shape)}"
     elif "coefficient" not in beta.coords or [
         str(c) for c in beta.coords["coefficient"].values
     ] != list(names):
         bad = "its coefficient names are not the fit's"
     elif not (np.isfinite(beta.values).all() and np.isfinite(noise.values).all()):
         bad = "it has draws that are not finite"
-    elif not (np.array_equal(beta.values, draws) and np.array_equal(noise.values, sigma)):
-        bad = "its draws are not those of posterior.npz"
+    elif digest is not None and not np.array_equal(draws_digest(beta.values, noise.values),
+                                                   digest):  # fmt: skip
+        bad = "its draws are not those this fit recorded"
     if bad:
         raise InputError(f"{path}: not this fit's InferenceData: {bad}")
+    return idata, np.asarray(beta.values, float), np.asarray(noise.values, float)
+
+
+def load_inference(path: Path, names: tuple[str, ...], draws: np.ndarray, sigma: np.ndarray):
+    """The InferenceData of ``posterior.nc`` beside a ``posterior.npz`` that holds the draws
+    too (folders saved before the draws were stored once): checked as by
+    :func:`read_inference`, and equal to those draws."""
+    idata, beta, noise = read_inference(path, names, draws.shape[:2])
+    if not (np.array_equal(beta, draws) and np.array_equal(noise, sigma)):
+        raise InputError(f"{path}: not this fit's InferenceData: "
+                         "its draws are not those of posterior.npz")  # fmt: skip
     return idata

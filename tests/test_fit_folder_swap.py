@@ -177,7 +177,7 @@ def _shifted(idata):
         (lambda p: p.write_bytes(b"CDF\x01 not really"), "damaged or not written by bayes"),
         (lambda p: _redo(p, _nan), "draws that are not finite"),
         (lambda p: _redo(p, _renamed), "coefficient names are not the fit's"),
-        (lambda p: _redo(p, _shifted), "draws are not those of posterior.npz"),
+        (lambda p: _redo(p, _shifted), "draws are not those this fit recorded"),
     ],
 )
 def test_foreign_or_damaged_posterior_nc_is_one_line(sampled_dir, tmp_path, change, message):
@@ -189,3 +189,37 @@ def test_foreign_or_damaged_posterior_nc_is_one_line(sampled_dir, tmp_path, chan
     text = str(err.value)
     assert text.startswith(str(folder / "posterior.nc")) and message in text
     assert "\n" not in text
+
+
+def test_sampled_draws_are_stored_once(sampled_dir):
+    z = np.load(sampled_dir / "posterior.npz")
+    assert "draws" not in z and "sigma_draws" not in z
+    assert list(z["draws_shape"]) == [2, 100]
+    fit = load_fit(sampled_dir)
+    beta = fit.inference.posterior["beta"].values
+    assert np.array_equal(fit.posterior.draws, beta)
+    again = load_fit(save_fit(fit, sampled_dir.parent / "again"))  # a loaded fit saves the same
+    assert np.array_equal(again.posterior.draws, fit.posterior.draws)
+    assert np.array_equal(again.posterior.sigma_draws, fit.posterior.sigma_draws)
+
+
+def test_sampled_fit_without_its_netcdf_is_one_line(sampled_dir, tmp_path):
+    folder = _broken_copy(sampled_dir, tmp_path, lambda p: p.unlink())
+    with pytest.raises(InputError) as err:
+        load_fit(folder)
+    expected = f"{folder / 'posterior.nc'}: missing: this sampled fit's draws are stored there"
+    assert str(err.value) == expected
+
+
+def test_old_folder_with_draws_in_both_files_is_still_checked(tmp_path):
+    # tests/data/saved_fits/sampled was saved by 0.1.0, which kept the draws in both files
+    assert "draws" in np.load(SAVED / "sampled" / "posterior.npz")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        fit = load_fit(SAVED / "sampled")
+        assert np.array_equal(fit.inference.posterior["beta"].values, fit.posterior.draws)
+        folder = tmp_path / "old"
+        shutil.copytree(SAVED / "sampled", folder)
+        _redo(folder / "posterior.nc", _shifted)
+        with pytest.raises(InputError, match="draws are not those of posterior.npz"):
+            load_fit(folder)
