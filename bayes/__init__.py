@@ -1,11 +1,15 @@
 """Bayesian linear regression with elicited priors: design, engines, summaries, report.
 
 The public names load on first use (PEP 562), so that ``bayes --help`` does not pay for numpy,
-scipy and pandas::
+scipy and pandas.
 
-    import bayes
-    result = bayes.fit(frame, response="strength", priors="priors.toml")
-    print(result.text())
+Examples
+--------
+>>> import bayes, pandas as pd
+>>> frame = pd.DataFrame({"x": [0.0, 1.0, 2.0, 3.0], "y": [0.1, 0.9, 2.2, 2.8]})
+>>> result = bayes.fit(frame, response="y")  # or priors="priors.toml"
+>>> "fit" in dir(bayes) and result.posterior.method == "exact"
+True
 """
 
 from __future__ import annotations

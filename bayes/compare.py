@@ -23,6 +23,7 @@ from bayes.data.design import Design
 from bayes.engine.evidence import Evidence, bridge_sampling, log_marginal_likelihood
 from bayes.engine.loo import LooResult, exact_loo, psis_loo
 from bayes.errors import InputError
+from bayes.jsonable import jsonable, number_or_nan
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
 from bayes.threads import blas_threads
 
@@ -112,7 +113,7 @@ class SetResult:
         """One set back from its object in ``compare.json`` (see :meth:`Comparison.to_dict`)."""
         good_k = doc.get("pareto_k_good")  # absent from files saved before it was kept
         loo = LooSummary(
-            float(doc["elpd_loo"]), _nan_for_none(doc["elpd_loo_se"]), float(doc["p_loo"]),
+            float(doc["elpd_loo"]), number_or_nan(doc["elpd_loo_se"]), float(doc["p_loo"]),
             doc["loo_method"], doc["pareto_k_max"],
             tuple(int(i) - 1 for i in doc["pareto_k_bad_rows"]),
             None if good_k is None else float(good_k),
@@ -147,11 +148,11 @@ class SetResult:
             "log_bayes_factor_vs_best": log_bayes_factor,
             "log_bayes_factor_vs_best_mc_se": log_bayes_factor_mc_se,
             "elpd_loo": self.loo.elpd,
-            "elpd_loo_se": _finite(self.loo.se),
+            "elpd_loo_se": jsonable(self.loo.se),
             "p_loo": self.loo.p_loo,
             "loo_method": self.loo.method,
             "elpd_diff_vs_best": self.elpd_diff,
-            "elpd_diff_se": _finite(self.elpd_diff_se),
+            "elpd_diff_se": jsonable(self.elpd_diff_se),
             "pareto_k_max": self.loo.pareto_k_max,
             "pareto_k_bad_rows": [i + 1 for i in self.loo.bad_rows],
             "pareto_k_good": self.loo.good_k,
@@ -164,7 +165,18 @@ class SetResult:
 @dataclass(frozen=True)
 class Comparison:
     """The comparison of several prior sets on one design (numbers; the words are made by
-    :mod:`bayes.compare_wording`)."""
+    :mod:`bayes.compare_wording`).
+
+    Examples
+    --------
+    >>> import bayes, elicit, pandas as pd
+    >>> frame = pd.DataFrame({"x": [0.0, 1.0, 2.0, 3.0], "y": [0.1, 0.9, 2.2, 2.8]})
+    >>> sets = [elicit.parse_priors({"coefficient": [{"name": "x", "center": c, "scale": 2.0}]},
+    ...                             source=f"{c}.toml") for c in (0.0, 1.0)]
+    >>> comparison = bayes.compare_priors(bayes.fit(frame, response="y").data, sets)
+    >>> round(float(comparison.probabilities.sum()), 12)  # equal prior odds, two sets
+    1.0
+    """
 
     response: str
     n: int
@@ -280,14 +292,6 @@ class Comparison:
         return comparison_text(self)
 
 
-def _finite(x):
-    return None if x is None or not math.isfinite(x) else float(x)
-
-
-def _nan_for_none(x) -> float:
-    return math.nan if x is None else float(x)
-
-
 def _against_best(fits: list[tuple]) -> tuple[SetResult, ...]:
     """The sets, each with its elpd difference to the set that predicts best.
 
@@ -327,10 +331,24 @@ def compare_priors(
         PSIS-LOO on Gibbs draws otherwise; "sample" samples every set.
     sampler : SamplerSettings
         Chains, draws, warm-up and seed (sampled sets only).
+    progress : callable(done, total), optional
+        Called as the sampler advances (sampled sets only).
+    provenance : dict, optional
+        Recorded with the comparison (``compare.json``).
 
     Returns
     -------
     Comparison
+
+    Examples
+    --------
+    >>> import bayes, elicit, pandas as pd
+    >>> frame = pd.DataFrame({"x": [0.0, 1.0, 2.0, 3.0], "y": [0.1, 0.9, 2.2, 2.8]})
+    >>> sets = [elicit.parse_priors({"coefficient": [{"name": "x", "center": c, "scale": 0.1}]},
+    ...                             source=f"{c}.toml") for c in (1.0, -5.0)]
+    >>> comparison = bayes.compare_priors(bayes.fit(frame, response="y").data, sets)
+    >>> bool(comparison.probabilities[0] > 0.99)  # the data put the slope near 0.94, not -5
+    True
     """
     from bayes.data.factor import factor_from_arrays
     from bayes.engine.exact import exact_posterior

@@ -68,6 +68,26 @@ def save_fit(result: FitResult, folder: str | Path) -> Path:
 
     Sampled fits also get ``posterior.nc``: their arviz InferenceData (posterior and
     prior groups, coordinates named after the columns).
+
+    Parameters
+    ----------
+    result : FitResult
+    folder : str or Path
+        A new folder, or a fit folder written earlier.
+
+    Returns
+    -------
+    Path
+        ``folder``.
+
+    Examples
+    --------
+    >>> import bayes, pandas as pd
+    >>> frame = pd.DataFrame({"x": [0.0, 1.0, 2.0, 3.0], "y": [0.1, 0.9, 2.2, 2.8]})
+    >>> import tempfile
+    >>> folder = bayes.save_fit(bayes.fit(frame, response="y"), tempfile.mkdtemp() + "/fit")
+    >>> sorted(p.name for p in folder.iterdir())
+    ['data.csv', 'fit.json', 'posterior.npz', 'priors.toml']
     """
     folder = Path(folder)
     if folder.exists() and not folder.is_dir():
@@ -204,6 +224,25 @@ def load_fit(folder: str | Path) -> FitResult:
     ------
     InputError
         When the folder is not a complete fit folder.
+
+    Parameters
+    ----------
+    folder : str or Path
+        A fit folder written by :func:`save_fit` (or ``bayes fit --save``), by this or an
+        earlier version.
+
+    Returns
+    -------
+    FitResult
+
+    Examples
+    --------
+    >>> import bayes, pandas as pd
+    >>> frame = pd.DataFrame({"x": [0.0, 1.0, 2.0, 3.0], "y": [0.1, 0.9, 2.2, 2.8]})
+    >>> import tempfile
+    >>> folder = bayes.save_fit(bayes.fit(frame, response="y"), tempfile.mkdtemp() + "/fit")
+    >>> round(float(bayes.load_fit(folder).summary().loc["x", "mean"]), 2)
+    0.94
     """
     import tomllib
 

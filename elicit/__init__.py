@@ -11,29 +11,42 @@ numbers), :mod:`elicit.show` (the same in words), :mod:`elicit.interview` and :m
 (the ``elicit`` command).
 
 The names below are imported from their modules on first use, so that ``elicit --help`` does not
-load scipy.
+load scipy; ``elicit.convert``, ``elicit.pool`` and ``elicit.show`` are the modules themselves
+(statements to distributions, several experts into one prior, the feedback in words).
+
+>>> import elicit
+>>> priors = elicit.parse_priors({"coefficient": [
+...     {"name": "dose", "low": 1.0, "high": 3.0, "mass": 0.9}]})
+>>> round(priors.get("dose").scale, 4)  # (3 - 1) / (2 z_0.95) = 1 / 1.64485
+0.608
 """
 
 _HOMES = {
     "FAMILIES": "elicit.spec",
     "CoefficientPrior": "elicit.spec",
     "CorrelatedBlock": "elicit.conditional",
-    "NoisePrior": "elicit.spec",
+    "NoisePrior": "elicit.noise_prior",
     "PriorFileError": "elicit.errors",
     "PriorSet": "elicit.spec",
-    "Statement": "elicit.spec",
+    "Statement": "elicit.statement_record",
     "flat_priors": "elicit.spec",
+    "load_priors": "elicit.read",
+    "write_prior_file": "elicit.write",
     "parse_priors": "elicit.validate",
     "read_prior_file": "elicit.read",
 }
 
-__all__ = sorted(_HOMES)
+_MODULES = ("convert", "pool", "show")  # public submodules, loaded on first use too
+
+__all__ = sorted([*_HOMES, *_MODULES])
 
 
 def __getattr__(name: str):
-    if name in _HOMES:
-        import importlib
+    import importlib
 
+    if name in _MODULES:
+        return importlib.import_module(f"elicit.{name}")
+    if name in _HOMES:
         return getattr(importlib.import_module(_HOMES[name]), name)
     raise AttributeError(f"module 'elicit' has no attribute {name!r}")
 

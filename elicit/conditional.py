@@ -134,6 +134,14 @@ class CorrelatedBlock:
         Positive definite.
     rows : tuple of RowStatement
         The stated rows it was derived from (empty if given directly).
+
+    Examples
+    --------
+    >>> import elicit
+    >>> priors = elicit.parse_priors({"correlation": {
+    ...     "names": ["a", "b"], "mean": [0.0, 1.0], "cov": [[1.0, 0.5], [0.5, 2.0]]}})
+    >>> priors.block.names, float(priors.block.cov[0, 1])
+    (('a', 'b'), 0.5)
     """
 
     names: tuple[str, ...]

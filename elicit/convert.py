@@ -19,6 +19,13 @@ coefficient priors the posterior of the coefficients stays an exact Student-t, a
 priors the Gibbs sampler draws ``sigma^2`` in closed form. A log-normal on ``sigma`` would be
 equally easy to state but is conjugate to nothing. Shape and scale are solved so that the stated
 range holds ``sigma`` with probability ``mass``, equal tails.
+
+Examples
+--------
+>>> from elicit import convert
+>>> center, scale = convert.from_range("normal", -9.0, -3.0, 0.9, per=0.1)
+>>> round(center, 6), round(scale, 2)  # 3 / z_0.95 = 3 / 1.64485 = 1.824 per 0.1: x 10
+(-60.0, 18.24)
 """
 
 from __future__ import annotations

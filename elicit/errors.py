@@ -19,11 +19,32 @@ def shown(value: Any) -> str:
 
 
 class InputError(ValueError):
-    """Bad input: the message is one line naming the file, row, column, field or parameter."""
+    """Bad input: the message is one line naming the file, row, column, field or parameter.
+
+    Examples
+    --------
+    >>> import bayes, pandas as pd
+    >>> try:
+    ...     bayes.fit(pd.DataFrame({"x": [1.0, 2.0, 3.0]}), response="strength")
+    ... except bayes.InputError as e:
+    ...     print(type(e).__name__)
+    InputError
+    """
 
 
 class PriorFileError(InputError):
-    """A bad prior file: names the file, the entry ('coefficient 3 (fly_ash)') and the field."""
+    """A bad prior file: names the file, the entry ('coefficient 3 (fly_ash)') and the field.
+
+    Examples
+    --------
+    >>> import elicit
+    >>> try:
+    ...     elicit.parse_priors({"coefficient": [{"name": "x", "low": 3.0, "high": 1.0}]},
+    ...                         source="priors.toml")
+    ... except elicit.PriorFileError as e:
+    ...     print(str(e).split(":")[0])
+    priors.toml
+    """
 
 
 class ElicitationWarning(UserWarning):

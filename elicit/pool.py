@@ -14,6 +14,17 @@ Two opinion pools, each with expert weights ``w_i`` (normalised to sum to one):
   consistent readings of one quantity and ignores the spread of their centres. For normals it is
   exactly normal with precision ``sum_i w_i / s_i^2`` and the precision-weighted mean (misfit 0);
   for the other families it is computed on a grid and matched by quantiles like the linear pool.
+
+Examples
+--------
+>>> from elicit import pool
+>>> from elicit.spec import Statement
+>>> def said(center, scale):
+...     return Statement(None, None, None, None, None, 1.0, None, "normal", center, scale,
+...                      None, 1.0)
+>>> log = pool.pool([said(0.0, 1.0), said(2.0, 1.0)], method="log", family="normal")
+>>> log.center, log.scale, log.misfit  # weights 1/2 each: precision 1/2 + 1/2, mean midway
+(1.0, 1.0, 0.0)
 """
 
 from __future__ import annotations

@@ -100,6 +100,22 @@ def pool_files(
     ------
     InputError
         One line naming the file and field (or the column) at fault.
+
+    Returns
+    -------
+    tuple
+        The pooled :class:`elicit.spec.PriorSet`, and the ``[pool]`` table the output records.
+
+    Examples
+    --------
+    >>> import elicit
+    >>> docs = [("a.toml", {"coefficient": [{"name": "x", "center": 0.0, "scale": 1.0,
+    ...                                      "expert": "A"}]}),
+    ...         ("b.toml", {"coefficient": [{"name": "x", "center": 2.0, "scale": 1.0,
+    ...                                      "expert": "B"}]})]
+    >>> pooled, record = elicit.pool_files(docs)
+    >>> round(pooled.get("x").center, 6)  # the linear pool of two mirror images: midway
+    1.0
     """
     check_same_study(docs)
     weights = dict(weights or {})

@@ -116,10 +116,59 @@ def read_prior_file(path: str | Path) -> PriorSet:
     ----------
     path : str or Path
 
+    Returns
+    -------
+    PriorSet
+
     Raises
     ------
     PriorFileError
         Unreadable file, TOML syntax error or duplicate key (with line and column), or any
         validation error (see :func:`elicit.validate.parse_priors`).
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> path = pathlib.Path(tempfile.mkdtemp()) / "priors.toml"
+    >>> _ = path.write_text('''
+    ... [[coefficient]]
+    ... name = "dose"
+    ... center = 2.0
+    ... scale = 0.5
+    ... ''')
+    >>> read_prior_file(path).coefficients[0].scale
+    0.5
     """
     return parse_priors(load_document(path), source=str(path))
+
+
+def load_priors(priors: PriorSet | str | Path | None) -> PriorSet:
+    """The prior set a fit uses: a :class:`PriorSet` as it is, a prior file read by
+    :func:`read_prior_file`, or flat priors for ``None``.
+
+    Parameters
+    ----------
+    priors : PriorSet, str, Path or None
+
+    Returns
+    -------
+    PriorSet
+
+    Raises
+    ------
+    PriorFileError
+        As :func:`read_prior_file`.
+
+    Examples
+    --------
+    >>> import elicit
+    >>> elicit.load_priors(None).coefficients  # no file: every coefficient flat
+    ()
+    """
+    from elicit.spec import flat_priors
+
+    if priors is None:
+        return flat_priors()
+    if isinstance(priors, PriorSet):
+        return priors
+    return read_prior_file(Path(priors))

@@ -3,6 +3,16 @@
 The numbers come from :mod:`elicit.feedback` and :mod:`elicit.predictive` as plain frozen
 objects; this module only puts them into sentences (numbers to four significant figures) and
 into the JSON object of ``elicit show --format json``.
+
+Examples
+--------
+>>> import elicit
+>>> from elicit.feedback import feedback
+>>> priors = elicit.parse_priors({"coefficient": [
+...     {"name": "x", "low": 1.0, "high": 3.0, "mass": 0.9}]})
+>>> text = elicit.show.format_text(feedback(priors))
+>>> "x" in text and "normal" in text
+True
 """
 
 from __future__ import annotations

@@ -16,50 +16,15 @@ from dataclasses import dataclass, field, replace
 from elicit import convert
 from elicit.conditional import CorrelatedBlock
 from elicit.errors import InputError, PriorFileError
+from elicit.noise_prior import NoisePrior  # noqa: F401 (its home; re-exported for callers)
 from elicit.pool import DEFAULT_METHOD, linear_misfit, pool
 from elicit.pool_mixture import MIXTURE, Component, MixtureDistribution, from_opinions, moments
 from elicit.pool_mixture import widened as widened_components
+from elicit.statement_record import Statement
 
 FAMILIES = ("normal", "laplace", "student_t", "flat")
 POOL_FAMILIES = (*FAMILIES, MIXTURE)  # a pool may also be kept as the experts' mixture
 INTERCEPT = "intercept"
-
-
-@dataclass(frozen=True)
-class Statement:
-    """One expert's words, kept verbatim for the record, with the prior they convert to.
-
-    Attributes
-    ----------
-    expert, rationale : str or None
-    low, high, mass : float or None
-        Stated range (response units per ``per`` units of predictor) and its probability.
-    per : float
-        The range or quantiles are for a change of ``per`` units of the predictor.
-    quantiles : tuple of (probability, value) or None
-        As stated.
-    family : str
-        One of FAMILIES.
-    center, scale : float
-        The converted prior, per one unit of predictor (flat: 0 and nan).
-    df : float or None
-        Student-t degrees of freedom.
-    weight : float
-        Pooling weight (> 0).
-    """
-
-    expert: str | None
-    rationale: str | None
-    low: float | None
-    high: float | None
-    mass: float | None
-    per: float
-    quantiles: tuple[tuple[float, float], ...] | None
-    family: str
-    center: float
-    scale: float
-    df: float | None
-    weight: float
 
 
 def _sd(family: str, scale: float, df: float | None) -> float:
@@ -100,6 +65,15 @@ class CoefficientPrior:
         :attr:`pool_error`).
     components : tuple of elicit.pool_mixture.Component
         The mixture's components (family "mixture" only).
+
+    Examples
+    --------
+    >>> import elicit
+    >>> priors = elicit.parse_priors({"coefficient": [
+    ...     {"name": "x", "low": -9.0, "high": -3.0, "mass": 0.9, "per": 0.1}]})
+    >>> c = priors.get("x")
+    >>> c.family, round(c.center, 6)  # the midpoint -6, per 0.1 unit: -60 per unit
+    ('normal', -60.0)
     """
 
     name: str
@@ -233,38 +207,6 @@ class CoefficientPrior:
 
 
 @dataclass(frozen=True)
-class NoisePrior:
-    """Prior on the residual sd ``sigma`` of the response: ``sd`` (known, response units), or
-    ``sigma^2 ~ scipy.stats.invgamma(shape, scale=scale)`` (scale in response units^2), from the
-    stated range ``low``, ``high`` (probability ``mass``) when one was stated. ``expert`` and
-    ``rationale`` are kept for the record; a pooled prior keeps the experts' noise priors in
-    ``statements`` and its method in ``pool`` (:mod:`elicit.noise_record`).
-    """
-
-    sd: float | None
-    low: float | None
-    high: float | None
-    mass: float | None
-    shape: float | None
-    scale: float | None
-    expert: str | None = None
-    rationale: str | None = None
-    statements: tuple[NoisePrior, ...] = ()
-    pool: str | None = None
-
-    @property
-    def known(self) -> bool:
-        return self.sd is not None
-
-    @property
-    def median(self) -> float:
-        """The known sd, or the prior median of the sd (response units)."""
-        if self.sd is not None:
-            return self.sd
-        return convert.noise_median(self.shape, self.scale)
-
-
-@dataclass(frozen=True)
 class ReferenceRow:
     """Predictor values at which feedback shows the implied response."""
 
@@ -287,6 +229,17 @@ class PriorSet:
         Pooled: one per column; columns without an entry are flat.
     block : CorrelatedBlock or None
     reference_rows : tuple of ReferenceRow
+
+    Examples
+    --------
+    >>> import elicit
+    >>> priors = elicit.parse_priors({
+    ...     "study": {"response": "strength", "response_units": "MPa"},
+    ...     "coefficient": [{"name": "x", "center": 2.0, "scale": 0.5}]})
+    >>> priors.get("x").scale, priors.get("w") is None  # columns without an entry are flat
+    (0.5, True)
+    >>> priors.rescaled(2.0).get("x").scale
+    1.0
     """
 
     path: str | None
@@ -302,6 +255,16 @@ class PriorSet:
     @property
     def _source(self) -> str:
         return self.path or "<priors>"
+
+    def __repr__(self) -> str:
+        from elicit.display import prior_set_text
+
+        return prior_set_text(self)
+
+    def _repr_html_(self) -> str:
+        from elicit.display import prior_set_html
+
+        return prior_set_html(self)
 
     def get(self, column: str) -> CoefficientPrior | None:
         """The prior of design column ``column``, or None (flat or in the block)."""
@@ -395,5 +358,17 @@ class PriorSet:
 
 
 def flat_priors() -> PriorSet:
-    """No prior file: every coefficient flat, Jeffreys prior on the noise."""
+    """No prior file: every coefficient flat, Jeffreys prior on the noise.
+
+    Returns
+    -------
+    PriorSet
+
+    Examples
+    --------
+    >>> import elicit
+    >>> flat = elicit.flat_priors()
+    >>> flat.coefficients, flat.noise  # no coefficient prior; None: the Jeffreys noise prior
+    ((), None)
+    """
     return PriorSet(None, None, None, None, {}, None, (), None)

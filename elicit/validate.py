@@ -303,6 +303,19 @@ def parse_priors(doc: Mapping[str, Any], *, source: str = "<priors>") -> PriorSe
     ------
     PriorFileError
         One line naming ``source``, the entry and the field.
+
+    Returns
+    -------
+    PriorSet
+
+    Examples
+    --------
+    >>> import elicit
+    >>> priors = elicit.parse_priors({"coefficient": [
+    ...     {"name": "x", "family": "laplace", "low": -1.0, "high": 1.0, "mass": 0.5}]})
+    >>> c = priors.get("x")
+    >>> c.family, round(c.scale, 4)  # P(|X| <= 1) = 1 - exp(-1 / b) = 0.5: b = 1 / ln 2
+    ('laplace', 1.4427)
     """
     top = FieldReader(source, "top level", doc, _TOP_KEYS)
     study = FieldReader(source, "[study]", doc.get("study", {}), _STUDY_KEYS)

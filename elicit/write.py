@@ -190,5 +190,18 @@ def write_prior_file(priors: PriorSet, path: str | Path, *, header: str | None =
     path : str or Path
     header : str, optional
         Comment lines written at the top of the file.
+
+    Returns
+    -------
+    None
+
+    Examples
+    --------
+    >>> import elicit, tempfile, pathlib
+    >>> priors = elicit.parse_priors({"coefficient": [{"name": "x", "center": 2.0, "scale": 0.5}]})
+    >>> path = pathlib.Path(tempfile.mkdtemp()) / "priors.toml"
+    >>> elicit.write_prior_file(priors, path)
+    >>> elicit.read_prior_file(path).get("x").scale  # read back as written
+    0.5
     """
     atomic_write_text(path, dump_toml(prior_doc(priors), header=header))

@@ -62,6 +62,16 @@ def build_report(fit_dir: str | Path, *, figures: bool = True) -> Report:
     InputError
         When the folder is not a saved fit, or a saved sweep or comparison is unreadable or
         belongs to another model.
+
+    Examples
+    --------
+    >>> import bayes, pandas as pd
+    >>> frame = pd.DataFrame({"x": [0.0, 1.0, 2.0, 3.0], "y": [0.1, 0.9, 2.2, 2.8]})
+    >>> import tempfile
+    >>> folder = bayes.save_fit(bayes.fit(frame, response="y"), tempfile.mkdtemp() + "/fit")
+    >>> report = bayes.build_report(folder, figures=False)
+    >>> len(report.sections) > 0 and not report.figures
+    True
     """
     folder = Path(fit_dir)
     result = load_fit(folder)

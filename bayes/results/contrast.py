@@ -97,6 +97,15 @@ class Contrasts:
     level : float
     method : {"exact", "sampled"}
     contrasts : tuple of Contrast
+
+    Examples
+    --------
+    >>> import bayes, pandas as pd
+    >>> frame = pd.DataFrame({"x": [0.0, 1.0, 2.0, 3.0], "y": [0.1, 0.9, 2.2, 2.8]})
+    >>> result = bayes.fit(frame, response="y")
+    >>> table = bayes.contrast(result, "x", "2 * x").frame()
+    >>> [round(float(v), 2) for v in table["mean"]]  # the least-squares slope 0.94, and twice it
+    [0.94, 1.88]
     """
 
     response: str

@@ -6,31 +6,8 @@ Only markup and words here; the numbers come from the result objects.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
-from html import escape
-
 from bayes.results.format import fmt
-
-MAX_ROWS = 30  # rows of a table shown in a notebook; the rest are counted, not shown
-
-
-def html_block(title: str, headers: Sequence[str], rows: Sequence[Sequence], *,
-               lines: Sequence[str] = (), notes: Sequence[str] = ()) -> str:  # fmt: skip
-    """A title, a table (at most ``MAX_ROWS`` rows), lines of text and notes, all escaped."""
-    head = "".join(f"<th>{escape(str(h))}</th>" for h in headers)
-    body = "".join(
-        "<tr>" + "".join(f"<td>{escape(str(c))}</td>" for c in row) + "</tr>"
-        for row in rows[:MAX_ROWS]
-    )
-    more = len(rows) - MAX_ROWS
-    if more > 0:
-        body += f'<tr><td colspan="{len(headers)}">... {more} more rows</td></tr>'
-    parts = [f"<div><strong>{escape(title)}</strong>"]
-    parts += [f"<div>{escape(line)}</div>" for line in lines]
-    parts.append(f"<table><thead><tr>{head}</tr></thead><tbody>{body}</tbody></table>")
-    parts += [f"<div><em>Note:</em> {escape(n)}</div>" for n in notes]
-    parts.append("</div>")
-    return "".join(parts)
+from elicit.display import MAX_ROWS, html_block  # noqa: F401 (their home: shared with elicit)
 
 
 def fit_html(result) -> str:

@@ -56,6 +56,8 @@ def predict(
         columns (a plot ID) are kept.
     level : float
         Level of both intervals.
+    source : str
+        What the new rows are called in messages (a file name).
 
     Returns
     -------
@@ -69,6 +71,14 @@ def predict(
         :class:`Leverage`, above the largest of the data's rows) and, when
         the prior file gives the response's units, ``units``. ``attrs`` holds
         ``response``, ``units`` (None when the prior file gives none) and ``level``.
+
+    Examples
+    --------
+    >>> import bayes, pandas as pd
+    >>> frame = pd.DataFrame({"x": [0.0, 1.0, 2.0, 3.0], "y": [0.1, 0.9, 2.2, 2.8]})
+    >>> table = bayes.predict(bayes.fit(frame, response="y"), pd.DataFrame({"x": [4.0]}))
+    >>> round(float(table["mean"][0]), 2)  # least squares: 0.09 + 0.94 * 4
+    3.85
     """
     check_level(level)
     predictor = Predictor(result, level, source)

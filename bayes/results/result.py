@@ -18,6 +18,7 @@ import numpy as np
 
 from bayes.data.design import Design
 from bayes.engine.posterior import Posterior
+from bayes.jsonable import jsonable
 from bayes.problem import DataFactor
 from bayes.results import notes as wording
 from bayes.results.format import fmt, format_table
@@ -63,6 +64,16 @@ class FitResult:
     Derived (read-only, computed on first use): ``rows`` (the coefficient table),
     ``diagnostics``, ``penalties`` (equivalent ridge/lasso penalties in natural units),
     ``notes`` (plain-language notes and warnings) and, for sampled fits, ``convergence``.
+
+    Examples
+    --------
+    >>> import bayes, pandas as pd
+    >>> frame = pd.DataFrame({"x": [0.0, 1.0, 2.0, 3.0], "y": [0.1, 0.9, 2.2, 2.8]})
+    >>> result = bayes.fit(frame, response="y")
+    >>> result.posterior.names
+    ('intercept', 'x')
+    >>> round(float(result.summary().loc["intercept", "mean"]), 2)  # 1.5 - 0.94 * 1.5
+    0.09
     """
 
     response: str
@@ -286,9 +297,9 @@ class FitResult:
             "detail": post.detail,
             "response": self.response,
             "mode_kind": post.mode_kind,
-            "coefficients": [_jsonable(r) for r in self.rows],
-            "diagnostics": _jsonable(self.diagnostics),
-            "penalties": [_jsonable(r) for r in self.penalties],
+            "coefficients": [jsonable(r) for r in self.rows],
+            "diagnostics": jsonable(self.diagnostics),
+            "penalties": [jsonable(r) for r in self.penalties],
             "noise": {
                 "known": post.noise_known,
                 "sd_at_mode": post.sigma_mode,
@@ -297,7 +308,7 @@ class FitResult:
                 "upper": post.sigma_quantile((1 + self.level) / 2),
             },
             "notes": list(self.notes),
-            "provenance": _jsonable(self.provenance),
+            "provenance": jsonable(self.provenance),
         }
 
     def text(self, digits: int = 6) -> str:
@@ -337,18 +348,3 @@ class FitResult:
                 )
         lines += [f"Note: {n}" for n in self.notes]
         return "\n".join(lines)
-
-
-def _jsonable(obj):
-    if isinstance(obj, Mapping):
-        return {k: _jsonable(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_jsonable(v) for v in obj]
-    if isinstance(obj, (np.floating, float)):
-        x = float(obj)
-        return x if math.isfinite(x) else None
-    if isinstance(obj, np.integer):
-        return int(obj)
-    if isinstance(obj, np.ndarray):
-        return _jsonable(obj.tolist())
-    return obj

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from bayes.arrays import freeze
+from bayes.jsonable import json_array, json_range, jsonable
 from bayes.sensitivity import wording
 from bayes.settings import DECIDE_MCSE
 
@@ -124,8 +125,8 @@ class Conclusion:
             "op": self.op,
             "value": self.value,
             "statement": self.statement,
-            "probability": _json_array(self.probability),
-            "probability_mcse": _json_array(mcse),
+            "probability": json_array(self.probability),
+            "probability_mcse": json_array(mcse),
             "at_stated": self.stated,
             "at_stated_mcse": self.stated_mcse,
             "decided": self.decided,
@@ -133,9 +134,9 @@ class Conclusion:
             "draws_at_stated": self.draws,
             "draws_to_settle": self.draws_to_settle,
             "narrower_flip": self.narrower,
-            "narrower_flip_range": _json_range(self.narrower_range),
+            "narrower_flip_range": json_range(self.narrower_range),
             "wider_flip": self.wider,
-            "wider_flip_range": _json_range(self.wider_range),
+            "wider_flip_range": json_range(self.wider_range),
             "flat_probability": None if np.isnan(flat) else float(flat),
             "flat_probability_mcse": None if np.isnan(flat) else float(mcse[-1]),
             "holds_flat": None if np.isnan(flat) else bool(flat >= self.level),
@@ -217,6 +218,18 @@ class SweepResult:
     notes : tuple of str
     extra : dict
         Engine details (sampled factors, effective sample sizes).
+
+    Examples
+    --------
+    >>> import bayes, pandas as pd
+    >>> frame = pd.DataFrame({"x": [0.0, 1.0, 2.0, 3.0], "y": [0.1, 0.9, 2.2, 2.8]})
+    >>> import elicit
+    >>> priors = elicit.parse_priors({"coefficient": [{"name": "x", "center": 0.0, "scale": 1.0}]})
+    >>> result = bayes.sweep(bayes.fit(frame, response="y", priors=priors), factors=[0.1, 10.0])
+    >>> [c.name for c in result.coefficients]
+    ['intercept', 'x']
+    >>> len(result.factors)  # 0.1, the stated width 1, and 10
+    3
     """
 
     response: str
@@ -312,16 +325,16 @@ class SweepResult:
                 "name": c.name,
                 "prior": c.prior,
                 "swept": c.swept,
-                "mean": _json_array(c.mean),
-                "sd": _json_array(c.sd),
-                "lower": _json_array(c.lower),
-                "upper": _json_array(c.upper),
-                "p_positive": _json_array(c.p_positive),
+                "mean": json_array(c.mean),
+                "sd": json_array(c.sd),
+                "lower": json_array(c.lower),
+                "upper": json_array(c.upper),
+                "p_positive": json_array(c.p_positive),
                 "variance_ratio": c.variance_ratio,
                 "prior_share": c.prior_share,
                 "prior_interval": None if c.prior_interval is None else list(c.prior_interval),
                 **{
-                    f"{key}_mcse": _json_array(getattr(c, f"{key}_mcse"))
+                    f"{key}_mcse": json_array(getattr(c, f"{key}_mcse"))
                     for key in MCSE_STATISTICS
                     if getattr(c, f"{key}_mcse") is not None
                 },
@@ -331,9 +344,9 @@ class SweepResult:
                 ),
             }
             if c.mode is not None:
-                row["mode"] = _json_array(c.mode)
+                row["mode"] = json_array(c.mode)
             coefs.append(row)
-        return _jsonable({
+        return jsonable({
             "response": self.response,
             "units": self.units,
             "level": self.level,
@@ -372,27 +385,3 @@ _FIELDS = (
     "family_swap",
     "notes",
 )  # the keys of SweepResult.to_dict other than the engine's extras
-
-
-def _json_range(r: tuple | None) -> list | None:
-    return None if r is None else [None if x is None else float(x) for x in r]
-
-
-def _json_array(a: np.ndarray) -> list:
-    return [None if not np.isfinite(x) else float(x) for x in np.asarray(a, dtype=float)]
-
-
-def _jsonable(obj):
-    if isinstance(obj, dict):
-        return {k: _jsonable(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [_jsonable(v) for v in obj]
-    if isinstance(obj, (float, np.floating)):
-        return float(obj) if math.isfinite(obj) else None
-    if isinstance(obj, np.integer):
-        return int(obj)
-    if isinstance(obj, np.bool_):
-        return bool(obj)
-    if isinstance(obj, np.ndarray):
-        return _jsonable(obj.tolist())
-    return obj

@@ -105,6 +105,16 @@ def sweep(
     InputError
         When there are no priors to widen, a level lies outside (0, 1), or a column,
         expert or threshold does not fit the model.
+
+    Examples
+    --------
+    >>> import bayes, pandas as pd
+    >>> frame = pd.DataFrame({"x": [0.0, 1.0, 2.0, 3.0], "y": [0.1, 0.9, 2.2, 2.8]})
+    >>> import elicit
+    >>> priors = elicit.parse_priors({"coefficient": [{"name": "x", "center": 0.0, "scale": 1.0}]})
+    >>> result = bayes.sweep(bayes.fit(frame, response="y", priors=priors), factors=[0.5, 2.0])
+    >>> [float(f) for f in result.factors]  # the stated width (1) is always on the grid
+    [0.5, 1.0, 2.0]
     """
     if isinstance(fit, DataFactor):
         factor = fit
