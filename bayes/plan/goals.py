@@ -57,7 +57,10 @@ def parse_goal(text: str, names, terms=None) -> Goal:
         raise InputError(f"--goal: '{text}': '{m[3].strip()}' is not a number") from None
     if not np.isfinite(value):
         raise InputError(f"--goal: '{text}': the value must be finite")
-    a, c = parse_linear(m[1], names, terms)
+    try:
+        a, c = parse_linear(m[1], names, terms)
+    except InputError as e:
+        raise InputError(f"--goal '{text}': {e}") from None
     return Goal(text.strip(), a, m[2][0], value - c)
 
 

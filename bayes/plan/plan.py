@@ -192,10 +192,11 @@ def _plot(result, cand, design, goals, seed: int) -> dict:
     if len(pts) > PLOT_CANDIDATES:
         keep = np.random.default_rng(seed).choice(len(pts), PLOT_CANDIDATES, replace=False)
         pts = pts[np.sort(keep)]
-    counts: dict[int, int] = {}
+    counts: dict[tuple, int] = {}  # runs at the same point of the drawn plane
     for i in design:
-        counts[i] = counts.get(i, 0) + 1
-    chosen = [[*(float(v) for v in cand.frame.iloc[i][pick]), n] for i, n in counts.items()]
+        point = tuple(float(v) for v in cand.frame.iloc[i][pick])
+        counts[point] = counts.get(point, 0) + 1
+    chosen = [[*point, n] for point, n in counts.items()]
     data = []
     design_names = list(result.factor.names)
     if result.data is not None and all(c in design_names for c in pick):

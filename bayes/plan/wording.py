@@ -22,7 +22,7 @@ ROUTES = {
 CRITERIA = {
     "D": "Bayesian D-optimal (Chaloner and Verdinelli, 1995): maximises the expected log "
     "determinant of the posterior precision",
-    "c": "c-optimal for {contrast}: minimises its expected posterior variance",
+    "C": "c-optimal for {contrast}: minimises its expected posterior variance",
 }
 CAUTIONS = (
     "The plan assumes the model holds over the candidates' region; runs beyond the data's range "
