@@ -132,7 +132,6 @@ def load_comparison(folder: str | Path) -> Comparison | None:
     """The comparison saved in ``folder/compare.json`` by :func:`save_comparison`, or None
     when none is; an InputError when the file is there but not a readable comparison."""
     from bayes.compare import Comparison
-    from bayes.plan.result import PlanResult
 
     return load_saved(Path(folder) / "compare.json", Comparison.from_dict, what="comparison")
 
