@@ -105,15 +105,17 @@ def plan(result, candidates: pd.DataFrame, runs: int | None = None, *,
             return out
 
         # The curve: each K extends the design of K - 1 (greedy, then exchanged).
-        last = runs if runs is not None else max_runs
+        # With a target the curve goes on until every goal reaches it (at most max_runs).
+        last = max(runs or 0, max_runs) if target is not None else runs
         curve_k, curve_a, designs, previous = [], [], {}, ()
         for K in range(1, last + 1):
             found = search(nodes, C, K, kind, c, restarts=1, seed=seed, start=previous)
             previous = list(found.design)
             designs[K] = found
             curve_k.append(K)
-            curve_a.append(assess(found.design, max(sims // 2, 200)))
-            if runs is None and all(a.value >= target for a in curve_a[-1]):
+            curve_a.append(assess(found.design, max(sims // 4, 200)))
+            reached = target is not None and all(a.value >= target for a in curve_a[-1])
+            if reached and K >= (runs or 0):
                 break
         K = runs if runs is not None else curve_k[-1]
         best = search(nodes, C, K, kind, c, restarts=restarts, seed=seed)
