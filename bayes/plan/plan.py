@@ -8,6 +8,7 @@ The numbers come from :mod:`bayes.plan.nodes` (today's posterior given the noise
 from __future__ import annotations
 
 from collections.abc import Sequence
+from dataclasses import replace
 
 import numpy as np
 import pandas as pd
@@ -119,8 +120,8 @@ def plan(result, candidates: pd.DataFrame, runs: int | None = None, *,
                 break
         K = runs if runs is not None else curve_k[-1]
         best = search(nodes, C, K, kind, c, restarts=restarts, seed=seed)
-        if best.value < designs[K].value:
-            best = designs[K]
+        if best.value < designs[K].value:  # the curve's extended design did better
+            best = replace(designs[K], restarts=best.restarts + 1)
         final = assess(best.design, sims)
         coefficient_rows = _sds(result, nodes, C[list(best.design)], reported)
         gain = gain_nats(nodes, C[list(best.design)])
