@@ -34,6 +34,8 @@ _HOMES = {
     "build_report": "bayes.report.build",
     "contrast": "bayes.results.contrast",
     "Contrasts": "bayes.results.contrast",
+    "plan": "bayes.plan.plan",
+    "PlanResult": "bayes.plan.result",
 }
 
 __all__ = sorted(_HOMES)

@@ -7,8 +7,9 @@ A model with categorical predictors or derived terms adds ``terms.json`` (its
 coding, see :class:`bayes.data.terms.Terms`), which ``bayes predict`` applies to new rows.
 Sampled fits add ``posterior.nc``, an arviz InferenceData file: the one store of their draws
 (``posterior.npz`` records their shape; folders saved before 0.2 hold them in both, checked
-equal on loading), and the loaded fit's ``inference``. ``sweep.json``, ``compare.json`` and
-``contrasts.json`` are written beside a fit by the commands that make them; each records the
+equal on loading), and the loaded fit's ``inference``. ``sweep.json``, ``compare.json``,
+``contrasts.json`` (and ``plan.json`` with ``plan.csv``) are written beside a fit by the
+commands that make them; each records the
 fit it belongs to (:data:`FIT_ID`) and the command line that wrote it (:func:`commands`), see
 :mod:`bayes.store_derived`. The folder is written beside its final place and swapped in only
 when complete; a save killed part way is finished or undone by the next save or load
@@ -46,10 +47,12 @@ from bayes.store_derived import (  # noqa: F401 (re-exported: bayes.store is the
     fit_id,
     load_comparison,
     load_contrasts,
+    load_plan,
     load_saved,
     load_sweep,
     save_comparison,
     save_contrasts,
+    save_plan,
     save_sweep,
 )
 from elicit.io import atomic_folder, recover_folder, replace_files

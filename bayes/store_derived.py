@@ -1,4 +1,5 @@
-"""The files written beside a saved fit: ``sweep.json``, ``compare.json``, ``contrasts.json``.
+"""The files written beside a saved fit: ``sweep.json``, ``compare.json``, ``contrasts.json``,
+``plan.json`` (with ``plan.csv``, the planned runs).
 
 Each records the fit it was made for (:data:`FIT_ID`, the SHA-256 that ``fit.json`` records of
 itself), so that one left from an earlier fit is known stale, and, when the `bayes` command
@@ -19,6 +20,7 @@ from elicit.io import atomic_write_text
 
 if TYPE_CHECKING:  # annotations only: loading a fit needs none of them
     from bayes.compare import Comparison
+    from bayes.plan.result import PlanResult
     from bayes.results.contrast import Contrasts
     from bayes.sensitivity.sweep import SweepResult
 
@@ -26,6 +28,7 @@ DERIVED = (
     "sweep.json",
     "compare.json",
     "contrasts.json",
+    "plan.json",
 )  # written beside a fit, for the fit they record
 FIT_ID = "fit_sha256"  # provenance field of fit.json, and field of the derived files
 _T = TypeVar("_T")
@@ -153,6 +156,30 @@ def load_contrasts(folder: str | Path) -> Contrasts | None:
     from bayes.results.contrast import Contrasts
 
     return load_saved(Path(folder) / "contrasts.json", Contrasts.from_dict, what="contrasts")
+
+
+# ----------------------------------------------------------------------------- plan.json
+
+
+def save_plan(plan: PlanResult, fit_dir: str | Path) -> tuple[Path, Path]:
+    """Write ``fit_dir/plan.json`` and ``fit_dir/plan.csv`` (the runs, in the candidates'
+    columns, in order of value) atomically, beside a fit saved by ``bayes fit --save``."""
+    folder = Path(fit_dir)
+    if not (folder / "fit.json").exists():
+        raise InputError(f"{folder}: not a saved fit folder (run bayes fit --save {folder} first)")
+    target, table = folder / "plan.json", folder / "plan.csv"
+    atomic_write_text(table, plan.frame().to_csv(index=False))
+    doc = _recorded(plan.to_dict(), folder)
+    atomic_write_text(target, json.dumps(doc, indent=2, allow_nan=False) + "\n")
+    return target, table
+
+
+def load_plan(folder: str | Path) -> PlanResult | None:
+    """The plan saved in ``folder/plan.json`` by :func:`save_plan`, or None when none is; an
+    InputError when the file is there but unreadable or stale."""
+    from bayes.plan.result import PlanResult
+
+    return load_saved(Path(folder) / "plan.json", PlanResult.from_dict, what="plan")
 
 
 def load_saved(path: Path, from_dict: Callable[[dict], _T], *, what: str) -> _T | None:

@@ -305,6 +305,16 @@ def width_sweep(repeats: int) -> list[dict]:
     return rows
 
 
+def run_plan(repeats: int) -> list[dict]:
+    """Planning K = 12 runs among 1,000 candidates (p = 10): end to end, against enumeration
+    and against refitting for each candidate (benchmarks/plan.py, the same invented data)."""
+    try:
+        from plan import measurements  # benchmarks/plan.py
+    except ImportError as e:
+        return [row("plan of 12 runs", None, None, "< 2 s", None, f"not available ({e})")]
+    return [row(*m) for m in measurements(repeats)]
+
+
 def gibbs_rate(repeats: int) -> dict:
     """Gibbs effective draws per second (p = 20, Laplace priors, unknown noise), n 1e4 vs 1e6."""
     try:
@@ -409,6 +419,7 @@ def main() -> None:
         rows.append(results["memory"]["row"])
         rows.append(laplace_vs_lasso(args.repeats))
         rows.extend(width_sweep(args.repeats))
+        rows.extend(run_plan(args.repeats))
         rows.append(gibbs_rate(args.repeats))
     rows.append(help_time(args.repeats))
     results["rows"] = rows

@@ -23,7 +23,7 @@ LAYERS = (
     ("bayes.engine",),
     ("bayes.results",),
     ("bayes.api",),
-    ("bayes.sensitivity", "bayes.compare"),  # bayes.compare_wording too
+    ("bayes.sensitivity", "bayes.compare", "bayes.plan"),  # bayes.compare_wording too
     ("bayes.store",),
     ("bayes.report",),
     ("bayes.demo", "bayes.cli", "elicit.cli"),

@@ -2,7 +2,8 @@
 
 Only the command modules touch files and the terminal. Heavy libraries are imported inside the
 commands so that ``bayes --help`` starts instantly. Commands live in :mod:`bayes.cli.fitting`
-(fit, predict) and :mod:`bayes.cli.studies` (sweep, compare, report, demo); their shared
+(fit, predict), :mod:`bayes.cli.studies` (sweep, compare, report, demo), :mod:`bayes.cli.contrast`
+and :mod:`bayes.cli.plan`; their shared
 options and helpers in :mod:`bayes.cli.options`.
 """
 
@@ -12,6 +13,7 @@ import click
 
 from bayes.cli.contrast import contrast_command
 from bayes.cli.fitting import fit_command, predict_command
+from bayes.cli.plan import plan_command
 from bayes.cli.studies import compare_command, demo_command, report_command, sweep_command
 from elicit.guard import GuardedGroup
 
@@ -58,5 +60,5 @@ def main() -> None:
 
 
 for _command in (fit_command, predict_command, report_command, demo_command, compare_command,
-                 sweep_command, contrast_command):  # fmt: skip
+                 sweep_command, contrast_command, plan_command):  # fmt: skip
     main.add_command(_command)

@@ -29,12 +29,20 @@ from bayes.report.sections_contrasts import contrasts_section
 from bayes.report.sections_figures import figures_section
 from bayes.report.sections_findings import findings_section
 from bayes.report.sections_method import cautions_section, method_section
+from bayes.report.sections_plan import plan_section
 from bayes.report.sections_posterior import posterior_section
 from bayes.report.sections_priors import priors_section
 from bayes.report.sections_sensitivity import sensitivity_section
 from bayes.report.sections_study import data_section, study_section
 from bayes.results.result import FitResult
-from bayes.store import commands, load_comparison, load_contrasts, load_fit, load_sweep
+from bayes.store import (
+    commands,
+    load_comparison,
+    load_contrasts,
+    load_fit,
+    load_plan,
+    load_sweep,
+)
 
 if TYPE_CHECKING:  # annotations only
     from bayes.compare import Comparison
@@ -48,8 +56,8 @@ def build_report(fit_dir: str | Path, *, figures: bool = True) -> Report:
     ----------
     fit_dir : str or Path
         A folder written by ``bayes fit --save`` (:func:`bayes.store.save_fit`);
-        ``sweep.json``, ``compare.json`` and ``contrasts.json`` in it add the sensitivity,
-        comparison and contrasts parts.
+        ``sweep.json``, ``compare.json``, ``contrasts.json`` and ``plan.json`` in it add the
+        sensitivity, comparison, contrasts and next-trials parts.
     figures : bool
         Draw the figures (False leaves them out: faster, for tests of the tables and text).
 
@@ -84,6 +92,12 @@ def build_report(fit_dir: str | Path, *, figures: bool = True) -> Report:
             f"{folder / 'compare.json'}: the saved comparison is for response "
             f"{comparison.response!r}, the fit for {result.response!r}"
         )
+    plan = load_plan(folder)
+    if plan is not None and plan.response != result.response:
+        raise InputError(
+            f"{folder / 'plan.json'}: the saved plan is for response {plan.response!r}, the "
+            f"fit for {result.response!r}"
+        )
     return report_from_result(
         result,
         sweep=sweep,
@@ -91,6 +105,7 @@ def build_report(fit_dir: str | Path, *, figures: bool = True) -> Report:
         figures=figures,
         contrasts=load_contrasts(folder),
         commands=commands(folder),
+        plan=plan,
     )
 
 
@@ -102,6 +117,7 @@ def report_from_result(
     figures: bool = True,
     contrasts=None,
     commands: tuple[tuple[str, str], ...] = (),
+    plan=None,
 ) -> Report:
     """Assemble the report of an in-memory fit (see :func:`build_report`).
 
@@ -119,6 +135,9 @@ def report_from_result(
         Saved contrasts (:func:`bayes.store.load_contrasts`): their own section.
     commands : tuple of (file, command)
         The command lines that wrote the fit folder (:func:`bayes.store.commands`).
+    plan : bayes.plan.result.PlanResult, optional
+        A saved plan of the next runs (:func:`bayes.store.load_plan`): the "Next trials"
+        section.
     """
     priors = result.priors
     ctx = Context(result, response_units(result), dict(priors.units), least_squares(result),
@@ -133,6 +152,7 @@ def report_from_result(
         figures_section(ctx) if figures else None,
         sensitivity_section(ctx),
         comparison_section(ctx) if comparison is not None else None,
+        plan_section(ctx, plan, figures=figures) if plan is not None else None,
         method_section(ctx),
         cautions_section(ctx),
         guideline_section(ctx, figures=figures),
