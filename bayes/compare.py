@@ -18,10 +18,12 @@ from pathlib import Path
 
 import numpy as np
 
+from bayes.compare_sets import mixture_set, sampled_loo
 from bayes.compare_wording import cautions, comparison_text, readings
 from bayes.data.design import Design
 from bayes.engine.evidence import Evidence, bridge_sampling, log_marginal_likelihood
-from bayes.engine.loo import LooResult, exact_loo, psis_loo
+from bayes.engine.loo import LooResult, exact_loo
+from bayes.engine.mixture_prior import has_mixture
 from bayes.errors import InputError
 from bayes.jsonable import jsonable, number_or_nan
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
@@ -353,7 +355,6 @@ def compare_priors(
     from bayes.data.factor import factor_from_arrays
     from bayes.engine.exact import exact_posterior
     from bayes.engine.scaled import scaled_prior
-    from bayes.problem import to_natural
 
     if len(prior_sets) < 2:
         raise InputError(
@@ -366,9 +367,12 @@ def compare_priors(
         for ps in prior_sets:
             if design.terms is not None:
                 design.terms.check_priors(ps)
+            label = ps.path or "priors"
+            if has_mixture(ps):
+                fits.append(mixture_set(factor, design, ps, label, method, sampler, progress))
+                continue
             scaled = scaled_prior(factor, ps)
             flat = tuple(c for c, f in zip(names, scaled.family, strict=True) if f == "flat")
-            label = ps.path or "priors"
             if method == "exact" and not scaled.gaussian_only:
                 raise InputError(
                     f"{label}: priors that are not Gaussian need method 'sample' or 'auto', "
@@ -380,18 +384,10 @@ def compare_priors(
                 loo = exact_loo(post, design.X, design.y, ps)
                 fits.append((label, ps.title, "exact", ev, loo, flat, scaled.noise.jeffreys, None))
                 continue
-            import arviz as az
-
             from bayes.engine.gibbs import sample
 
             d = sample(factor, scaled, sampler, progress=progress)
             ev = bridge_sampling(factor, scaled, d.gamma, d.sigma, sampler.seed)
-            beta = to_natural(factor, d.gamma)
-            loo = psis_loo(beta, d.sigma, design.X, design.y)
-            r_hat = (
-                float(np.max(az.rhat(az.convert_to_dataset(beta)).to_array()))
-                if sampler.chains > 1
-                else None
-            )
+            loo, r_hat = sampled_loo(factor, design, d, sampler)
             fits.append((label, ps.title, "sampled", ev, loo, flat, scaled.noise.jeffreys, r_hat))
         return Comparison(design.response, design.n, _against_best(fits), provenance or {})

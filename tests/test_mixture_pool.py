@@ -256,7 +256,7 @@ def test_a_saved_mixture_fit_reloads_with_the_same_numbers(tmp_path):
 
 
 @pytest.mark.parametrize("command", ["sweep", "compare"])
-def test_sweep_and_compare_say_that_mixtures_are_not_supported(tmp_path, command):
+def test_sweep_and_compare_take_mixture_priors_on_the_command_line(tmp_path, command):
     from elicit.write import dump_toml
 
     data = tmp_path / "data.csv"
@@ -264,13 +264,17 @@ def test_sweep_and_compare_say_that_mixtures_are_not_supported(tmp_path, command
     mixture, normal = tmp_path / "mixture.toml", tmp_path / "normal.toml"
     mixture.write_text(dump_toml(_doc([-5.0, 5.0], family="mixture")))
     normal.write_text(dump_toml(_doc([-5.0, 5.0])))
-    args = [command, str(data), "--priors", str(mixture)]
+    args = [command, str(data), "--priors", str(mixture), "--format", "json"]
     if command == "compare":
         args += ["--priors", str(normal)]
     out = CliRunner().invoke(bayes_main, args)
-    assert out.exit_code == 2
-    assert "mixture prior" in out.stderr and "not support" in out.stderr
-    assert len(out.stderr.strip().splitlines()) == 1
+    assert out.exit_code == 0, out.output
+    doc = json.loads(out.stdout)
+    if command == "sweep":  # exact: normal components (tests/test_mixture_sweep.py checks it)
+        assert doc["method"] == "exact" and "combinations of components" in doc["detail"]
+    else:
+        assert [s["method"] for s in doc["sets"]] == ["exact", "exact"]
+        assert "combinations" in doc["sets"][0]["evidence_method"]
 
 
 def test_a_mixture_entry_must_be_the_only_entry_for_its_column():

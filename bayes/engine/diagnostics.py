@@ -210,3 +210,44 @@ def weighted_mean_mcse(values: np.ndarray, weights: np.ndarray, chains: int) -> 
         ess = float(az.ess(z[:, j].reshape(chains, -1), method="mean"))
         out[j] = math.sqrt(float(np.mean(z[:, j] ** 2)) / ess) if ess > 0 else math.inf
     return out[0] if one else out
+
+
+def infinite_sampled(factor, prior) -> np.ndarray | None:
+    """Coefficients (natural units) with infinite posterior variance under ``prior`` (any of
+    flat, normal, Laplace and Student-t coordinates; the fit's draws cannot show it).
+
+    With the noise sd unknown its posterior falls like ``sigma^-(df + 1)`` at large sigma,
+    ``df = n + 2 a - k_flat`` (:func:`bayes.engine.widths.infinite_along`). Given sigma, a
+    flat coordinate's variance grows like ``sigma^2`` (it is held by the data alone), and a
+    Student-t coordinate with ``nu < 2`` degrees of freedom like ``sigma^(2 - nu)`` (its
+    prior's second moment, cut off at the likelihood's width, which grows like sigma); a
+    normal or Laplace coordinate, or a t with ``nu >= 2``, stays bounded (``nu = 2`` grows
+    like ``log sigma``, finite for every proper posterior). So a flat coordinate's variance is
+    infinite when ``df <= 2`` and a t coordinate's when ``df <= 2 - nu``; a natural
+    coefficient's is infinite when it moves with such a coordinate (a nonzero entry of its
+    row of the natural transform).
+    """
+    from bayes.engine.widths import infinite_along
+    from bayes.problem import natural_transform
+
+    family = np.array(prior.family)
+    T = natural_transform(factor)
+    flat = family == "flat"
+    out = infinite_along(T[:, flat], float(factor.n), prior)
+    if prior.noise.known:
+        return out
+    tail_df = factor.n + 2 * prior.noise.shape - int(flat.sum())
+    heavy = (family == "student_t") & (np.nan_to_num(prior.df, nan=np.inf) < 2)
+    heavy &= tail_df <= 2 - np.nan_to_num(prior.df, nan=np.inf)
+    if not heavy.any():
+        return out
+    rows = np.sum(T[:, heavy] ** 2, axis=1)
+    grows = rows > 1e-24 * rows.max()
+    return grows if out is None else out | grows
+
+
+def noise_tail_df(factor, prior) -> float:
+    """``df`` of the noise posterior's tail ``sigma^-(df + 1)`` (inf when the sd is known)."""
+    if prior.noise.known:
+        return math.inf
+    return float(factor.n + 2 * prior.noise.shape - sum(f == "flat" for f in prior.family))

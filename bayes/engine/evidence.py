@@ -152,7 +152,11 @@ def log_prior(factor: DataFactor, prior: ScaledPrior, gamma: np.ndarray) -> np.n
 
 
 def log_posterior_kernel(
-    factor: DataFactor, prior: ScaledPrior, gamma: np.ndarray, log_sigma: np.ndarray | None
+    factor: DataFactor,
+    prior: ScaledPrior,
+    gamma: np.ndarray,
+    log_sigma: np.ndarray | None,
+    mixed: tuple = (),
 ) -> np.ndarray:
     """Unnormalised log posterior of ``(gamma, log sigma)`` (or ``gamma``, noise known).
 
@@ -162,6 +166,9 @@ def log_posterior_kernel(
     ----------
     gamma : ndarray, shape (..., p + 1)
     log_sigma : ndarray, shape (...), or None when the noise sd is known
+    mixed : tuple of bayes.engine.mixture_prior.MixedCoordinate
+        Coordinates with a mixture prior (flat in ``prior``): their mixture densities, per
+        natural unit, are added.
 
     Returns
     -------
@@ -178,7 +185,14 @@ def log_posterior_kernel(
         s2 = np.exp(2 * log_sigma)
         extra = log_noise_prior(prior, s2) + np.log(2 * s2)  # d sigma^2 = 2 sigma^2 d log sigma
     loglik = -n / 2 * LOG_2PI - n * log_sigma - rss / (2 * np.exp(2 * log_sigma))
-    return loglik + log_prior(factor, prior, gamma) + extra
+    out = loglik + log_prior(factor, prior, gamma) + extra
+    if mixed:
+        from bayes.engine.mixture_prior import log_mixed_prior
+
+        x_scale = np.concatenate([[1.0], factor.x_scale]) if factor.intercept else factor.x_scale
+        # the mixture density of theta_j = x_j beta_j, read per natural unit of beta_j
+        out = out + log_mixed_prior(mixed, gamma) + sum(np.log(x_scale[m.index]) for m in mixed)
+    return out
 
 
 def bridge_sampling(
@@ -188,6 +202,7 @@ def bridge_sampling(
     sigma: np.ndarray,
     seed: int = 0,
     tol: float = 1e-12,
+    mixed: tuple = (),
 ) -> Evidence:
     """Log marginal likelihood from posterior draws by bridge sampling.
 
@@ -208,6 +223,8 @@ def bridge_sampling(
         Posterior draws of the noise sd (ignored when it is known).
     seed : int
         Seed of the proposal draws.
+    mixed : tuple of bayes.engine.mixture_prior.MixedCoordinate
+        Coordinates with a mixture prior (flat in ``prior``; the draws' labels summed out).
 
     Returns
     -------
@@ -237,7 +254,7 @@ def bridge_sampling(
 
     def log_q(x: np.ndarray) -> np.ndarray:
         ls = None if known else x[..., -1]
-        return log_posterior_kernel(factor, prior, x[..., : gamma.shape[-1]], ls)
+        return log_posterior_kernel(factor, prior, x[..., : gamma.shape[-1]], ls, mixed)
 
     flat = kept.reshape(-1, dim)
     l1 = log_q(flat) - log_g(flat)

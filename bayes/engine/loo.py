@@ -147,7 +147,8 @@ def _region_ends(u: np.ndarray) -> np.ndarray:
     of the noise posterior) is far wider than the spacing of nodes inside one.
     """
     gaps = np.diff(u)
-    breaks = np.flatnonzero(gaps > 10 * np.median(gaps))
+    # a fall marks the next combination of a mixture prior's components (its own nodes)
+    breaks = np.flatnonzero((gaps > 10 * np.median(np.abs(gaps))) | (gaps < 0))
     return np.unique(np.concatenate([[0, len(u) - 1], breaks, breaks + 1]))
 
 
@@ -167,13 +168,18 @@ def _loo_by_evidence(names, X: np.ndarray, y: np.ndarray, i: int, priors) -> flo
     each data set gets its own factor.
     """
     from bayes.data.factor import factor_from_arrays
+    from bayes.engine.mixture_exact import mixture_log_evidence
+    from bayes.engine.mixture_prior import has_mixture
     from bayes.engine.scaled import scaled_prior
 
     intercept = len(names) == X.shape[1] + 1
     values = []
     for rows in (np.arange(len(y)), np.delete(np.arange(len(y)), i)):
         factor = factor_from_arrays(X[rows], y[rows], names[int(intercept) :], intercept=intercept)
-        values.append(log_marginal_likelihood(factor, scaled_prior(factor, priors)).log_ml)
+        if has_mixture(priors):
+            values.append(mixture_log_evidence(factor, priors).log_ml)
+        else:
+            values.append(log_marginal_likelihood(factor, scaled_prior(factor, priors)).log_ml)
     return values[0] - values[1]
 
 

@@ -18,8 +18,9 @@ At most :data:`bayes.engine.mixture_prior.EXACT_COMBINATIONS` combinations are e
 from __future__ import annotations
 
 import numpy as np
+from scipy import special
 
-from bayes.engine.evidence import log_marginal_likelihood
+from bayes.engine.evidence import Evidence, log_marginal_likelihood
 from bayes.engine.exact import exact_posterior
 from bayes.engine.mixture_mode import LogJoint, mixture_mode
 from bayes.engine.mixture_prior import (
@@ -59,6 +60,22 @@ def check_exact(priors) -> None:
             f"the mixture priors give {count} combinations of components, more than the "
             f"{EXACT_COMBINATIONS} the exact engine enumerates; use method='sample'"
         )
+
+
+def mixture_log_evidence(factor: DataFactor, priors) -> Evidence:
+    """The exact log evidence under mixture priors of normal components: the log-sum-exp over
+    the combinations ``c`` of ``log w_c + log p_c(y)`` (the prior is the mixture of the
+    combinations' Gaussian priors, so the evidence is the same mixture of their evidences)."""
+    check_exact(priors)
+    terms = []
+    method = ""
+    for log_weight, chosen in combinations(priors):
+        ev = log_marginal_likelihood(factor, scaled_prior(factor, chosen))
+        terms.append(log_weight + ev.log_ml)
+        method = ev.method
+    value = float(special.logsumexp(terms))
+    return Evidence(value, 0.0, f"{method}, summed over the {len(terms)} combinations of the "
+                    "mixture priors' components")  # fmt: skip
 
 
 def _combined_sigma_cdf(weights: np.ndarray, cdfs: list[np.ndarray]) -> np.ndarray:

@@ -67,6 +67,12 @@ def sampled_mixture_posterior(
     return post, inference
 
 
+def exact_mixture_applies(factor: DataFactor, priors) -> bool:
+    """Whether the exact engine takes ``priors`` (mixtures it can enumerate, the other priors
+    flat or normal)."""
+    return exact_applies(priors) and scaled_prior(factor, base_priors(priors)).gaussian_only
+
+
 def mixture_posterior(
     factor: DataFactor,
     priors,
@@ -82,8 +88,7 @@ def mixture_posterior(
     the exact engine cannot take the mixtures.
     """
     if method == "auto":
-        exact = exact_applies(priors) and scaled_prior(factor, base_priors(priors)).gaussian_only
-        method = "exact" if exact else "sample"
+        method = "exact" if exact_mixture_applies(factor, priors) else "sample"
     if method == "exact":
         check_exact(priors)
         return exact_mixture_posterior(factor, priors), None

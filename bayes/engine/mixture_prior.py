@@ -187,3 +187,14 @@ def log_mixed_prior(coordinates: tuple[MixedCoordinate, ...], gamma: np.ndarray)
     for m in coordinates:
         out = out + m.log_density(gamma[..., m.index])
     return out
+
+
+def stand_in_prior(factor: DataFactor, priors) -> ScaledPrior:
+    """The scaled prior of ``priors``, a mixture read as its proper stand-in
+    (:func:`proper_stand_in`): for the checks that need only which coordinates are held."""
+    from bayes.engine.scaled import scaled_prior
+
+    if not has_mixture(priors):
+        return scaled_prior(factor, priors)
+    base = scaled_prior(factor, base_priors(priors))
+    return proper_stand_in(base, mixed_coordinates(factor, priors))

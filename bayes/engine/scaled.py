@@ -64,10 +64,10 @@ def scaled_prior(factor: DataFactor, priors) -> ScaledPrior:
         j = index[cp.column]
         if cp.family == "flat":
             continue
-        if cp.family == "mixture":  # fitted by bayes.engine.mixture_fit, through bayes.fit only
+        if cp.family == "mixture":  # fitted by bayes.engine.mixture_fit
             raise InputError(
-                f"{priors.path or 'priors'}: '{cp.column}' has a mixture prior: sweeps and "
-                "comparisons do not support mixture priors yet (bayes fit and report do)"
+                f"{priors.path or 'priors'}: '{cp.column}' has a mixture prior, which only "
+                "the mixture engines take (bayes.engine.mixture_fit)"
             )
         family[j] = cp.family
         center[j] = cp.center

@@ -126,7 +126,11 @@ class FitResult:
             from bayes.engine.diagnostics import monte_carlo_errors
 
             mcse = monte_carlo_errors(self.posterior.draws, self.level)
+            infinite = self._sampled_infinite[0]
             for j, row in enumerate(rows):
+                if infinite is not None and infinite[j]:  # the draws' spread is finite, the
+                    row["sd"] = math.inf  # posterior's is not (the noise tail's check)
+                    row["sd_ratio"] = None if row["sd_ratio"] is None else math.inf
                 for key in CONVERGENCE_COLUMNS:
                     row[key] = float(self.convergence[key][j])
                 for key in MCSE_COLUMNS:
@@ -192,11 +196,22 @@ class FitResult:
                    if r["sd"] > 0)  # fmt: skip
         return p, ends
 
+    @cached_property
+    def _sampled_infinite(self) -> tuple[np.ndarray | None, float]:
+        """A sampled fit's coefficients with infinite posterior variance, and the noise
+        tail's df (:func:`bayes.engine.diagnostics.infinite_sampled`)."""
+        from bayes.engine.diagnostics import infinite_sampled, noise_tail_df
+        from bayes.engine.mixture_prior import stand_in_prior
+
+        prior = stand_in_prior(self.factor, self.priors)
+        return infinite_sampled(self.factor, prior), noise_tail_df(self.factor, prior)
+
     def _infinite_sd(self) -> tuple[list[str], float]:
         """The coefficients whose exact posterior sd is infinite, and the noise tail's df."""
         post = self.posterior
         df = getattr(post, "df", np.inf)
         df = df if np.isfinite(df) else getattr(post, "tail_df", np.inf)
+        df = self._sampled_infinite[1] if self.sampled else df
         return [r["name"] for r in self.rows if r["sd"] == math.inf], float(df)
 
     def _jeffreys_df(self) -> float | None:

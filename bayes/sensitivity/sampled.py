@@ -25,12 +25,13 @@ import numpy as np
 from scipy import stats
 
 from bayes.arrays import freeze
+from bayes.engine.diagnostics import infinite_sampled
 from bayes.engine.exact import exact_posterior
 from bayes.engine.likelihood import residual_ss
 from bayes.engine.scaled import scaled_prior
-from bayes.engine.widths import CoefficientMixtures, WidthPath, infinite_along
+from bayes.engine.widths import CoefficientMixtures, WidthPath
 from bayes.errors import InputError
-from bayes.problem import DataFactor, ScaledPrior, natural_transform, to_natural
+from bayes.problem import DataFactor, ScaledPrior, to_natural
 from bayes.sensitivity.conflict import power_scaling_draws, prior_data_conflict
 from bayes.sensitivity.priors import flat_limit, variance_ratios
 from bayes.sensitivity.wording import (
@@ -182,17 +183,6 @@ def marginals(
     return WeightedDraws.sample(factor, prior, sampler)
 
 
-def infinite_sampled(factor: DataFactor, prior: ScaledPrior) -> np.ndarray | None:
-    """Coefficients (natural units) with infinite posterior variance under ``prior``.
-
-    Every proper prior (normal, Laplace, Student-t) holds its coordinate as the noise sd
-    grows; the flat coordinates are held by the data alone, so the noise tail and the
-    growth are those of :func:`bayes.engine.widths.infinite_along` with the flat scaled
-    coordinates mapped to natural units (the columns of the natural transform)."""
-    flat = np.array(prior.family) == "flat"
-    return infinite_along(natural_transform(factor)[:, flat], float(factor.n), prior)
-
-
 def log_prior_density(prior: ScaledPrior, gamma: np.ndarray) -> np.ndarray:
     """Log density of the coefficient priors of the scaled problem at ``gamma`` (S, k).
 
@@ -232,8 +222,6 @@ class SampledEngine:
     method = "sampled"
 
     def __init__(self, factor, priors, *, columns, expert, grid, sampler: SamplerSettings):
-        from bayes.engine.modes import posterior_mode
-
         self.factor, self.priors, self.columns, self.expert = factor, priors, columns, expert
         self._priors_at: dict[float, ScaledPrior] = {}
         k = factor.k
@@ -242,8 +230,7 @@ class SampledEngine:
         for side in (range(i1, -1, -1), range(i1, len(grid))):
             start = None
             for i in side:
-                m = posterior_mode(factor, self.prior_at(grid[i]), warm_start=start)
-                modes[i], start = to_natural(factor, m.gamma), m.gamma
+                modes[i], start = self._mode(float(grid[i]), start)
         lg = np.log(grid)
         targets = np.linspace(lg[0], lg[-1], SAMPLED)
         targets[np.argmin(np.abs(targets))] = 0.0
@@ -253,9 +240,9 @@ class SampledEngine:
         self.sampler, self.rounds = sampler, 0
         chain_ess = [self._sample(float(fs), sampler) for fs in self.sampled]
         self.detail = sampled_detail(self.sampled, sampler)
-        limit = scaled_prior(factor, flat_limit(priors, columns=columns, expert=expert))
+        limit = self._limit_prior(flat_limit(priors, columns=columns, expert=expert))
         try:
-            modes[-1] = to_natural(factor, posterior_mode(factor, limit).gamma)
+            modes[-1] = self._limit_mode(limit)
         except ValueError:
             pass
         self.modes = modes
@@ -268,10 +255,8 @@ class SampledEngine:
         """Sample at factor ``fs`` (added to its draws so far); the smallest chain ESS."""
         import arviz
 
-        from bayes.engine.gibbs import sample
-
         k = self.factor.k
-        out = sample(self.factor, self.prior_at(fs), sampler)
+        out = self._draw(fs, sampler)
         gamma = out.gamma.reshape(-1, k)
         sigma = out.sigma.reshape(-1)
         if fs in self.runs:  # a further round: its chains follow the earlier ones
@@ -279,7 +264,7 @@ class SampledEngine:
             sigma = np.concatenate([self.runs[fs][1], sigma])
         self.chains[fs] = self.chains.get(fs, 0) + sampler.chains
         self.runs[fs] = (gamma, sigma, to_natural(self.factor, gamma),
-                         log_prior_density(self.prior_at(fs), gamma))  # fmt: skip
+                         self.log_prior(fs, gamma))  # fmt: skip
         nat_chains = self.runs[fs][2].reshape(self.chains[fs], -1, k)
         if self.chains[fs] == 1 and nat_chains.shape[1] <= 3:
             return float("nan")
@@ -309,6 +294,35 @@ class SampledEngine:
         self.detail = sampled_detail(self.sampled, s, self.chains[1.0], self.rounds)
         return True
 
+    # The hooks a prior with mixtures overrides (bayes.sensitivity.mixture.MixtureSampledEngine).
+
+    def _mode(self, f: float, start):
+        """The posterior mode at factor ``f`` (natural units) and the next search's start."""
+        from bayes.engine.modes import posterior_mode
+
+        m = posterior_mode(self.factor, self.prior_at(f), warm_start=start)
+        return to_natural(self.factor, m.gamma), m.gamma
+
+    def _limit_prior(self, limit):
+        return scaled_prior(self.factor, limit)
+
+    def _limit_mode(self, limit) -> np.ndarray:
+        from bayes.engine.modes import posterior_mode
+
+        return to_natural(self.factor, posterior_mode(self.factor, limit).gamma)
+
+    def _draw(self, f: float, sampler: SamplerSettings):
+        from bayes.engine.gibbs import sample
+
+        return sample(self.factor, self.prior_at(f), sampler)
+
+    def log_prior(self, f: float, gamma: np.ndarray) -> np.ndarray:
+        """Log prior density at factor ``f`` of the scaled draws ``gamma`` (S, k)."""
+        return log_prior_density(self.prior_at(f), gamma)
+
+    def infinite_at(self, f: float) -> np.ndarray | None:
+        return infinite_sampled(self.factor, self.prior_at(f))
+
     def draws_at(self, f: float) -> int:
         """The draws behind the values at factor ``f`` (those of its nearest sampled factor)."""
         return len(self.runs[self.sources(f)[0]][0])
@@ -336,10 +350,10 @@ class SampledEngine:
         importance-weighted to factor ``f``."""
         fs = self.sources(f)[0] if source is None else source
         gamma, _, nat, lp = self.runs[fs]
-        infinite = infinite_sampled(self.factor, self.prior_at(f))
+        infinite = self.infinite_at(f)
         if f == fs:
             return WeightedDraws(nat, np.full(len(nat), 1.0 / len(nat)), self.chains[fs], infinite)
-        lw = log_prior_density(self.prior_at(f), gamma) - lp
+        lw = self.log_prior(f, gamma) - lp
         w = np.exp(lw - lw.max())
         return WeightedDraws(nat, w / w.sum(), self.chains[fs], infinite)
 
@@ -356,12 +370,22 @@ class SampledEngine:
 
     def checks(self, priors) -> tuple[dict, dict]:
         """Conflict checks on the normal reading of the priors; power-scaling from the draws."""
-        normal = priors.as_family("normal")
-        path = WidthPath.build(self.factor, scaled_prior(self.factor, normal))
-        conflict = prior_data_conflict(path, normal)
-        conflict["method"] += CONFLICT_NORMAL_READING
         gamma, sigma, nat, lp = self.runs[1.0]
-        n = self.factor.n
-        log_lik = -n * np.log(sigma) - residual_ss(self.factor, gamma) / (2 * sigma**2)
-        names = self.factor.coefficient_names
-        return conflict, power_scaling_draws(names, nat, lp, log_lik)
+        return normal_reading_conflict(self.factor, priors), power_scaling_of(
+            self.factor, gamma, sigma, nat, lp
+        )
+
+
+def normal_reading_conflict(factor: DataFactor, priors) -> dict:
+    """The prior-data conflict checks computed for the normal reading of ``priors``."""
+    normal = priors.as_family("normal")
+    conflict = prior_data_conflict(WidthPath.build(factor, scaled_prior(factor, normal)), normal)
+    conflict["method"] += CONFLICT_NORMAL_READING
+    return conflict
+
+
+def power_scaling_of(factor: DataFactor, gamma, sigma, nat, log_prior) -> dict:
+    """Power-scaling sensitivity from posterior draws: scaled ``gamma`` (S, k), ``sigma`` (S,),
+    natural ``nat`` (S, k) and the log prior density at each draw."""
+    log_lik = -factor.n * np.log(sigma) - residual_ss(factor, gamma) / (2 * sigma**2)
+    return power_scaling_draws(factor.coefficient_names, nat, log_prior, log_lik)

@@ -33,6 +33,7 @@ import numpy as np
 
 from bayes.api import load_priors
 from bayes.data.factor import factor_from_arrays
+from bayes.engine.mixture_prior import has_mixture
 from bayes.engine.scaled import scaled_prior
 from bayes.errors import InputError
 from bayes.problem import DataFactor
@@ -41,6 +42,7 @@ from bayes.sensitivity.conclusions import follow_conclusions
 from bayes.sensitivity.family_swap import family_swap as read_as_families
 from bayes.sensitivity.gaussian import GaussianEngine
 from bayes.sensitivity.grid import Threshold, default_factors, factor_grid, thresholds_for
+from bayes.sensitivity.mixture import mixture_engine
 from bayes.sensitivity.priors import block_names, prior_interval, widened
 from bayes.sensitivity.result import MCSE_STATISTICS, CoefficientSweep, SweepResult
 from bayes.sensitivity.sampled import MIN_ESS, SampledEngine, mcse_of
@@ -137,7 +139,10 @@ def sweep(
     thresholds = thresholds_for(thresholds, names)
     grid = default_factors() if factors is None else factor_grid(factors)
     with blas_threads(len(names)):  # small problems run on one BLAS thread
-        if scaled_prior(factor, priors).gaussian_only:
+        if has_mixture(priors):
+            engine = mixture_engine(factor, priors, columns=columns, expert=expert, grid=grid,
+                                    sampler=sampler)  # fmt: skip
+        elif scaled_prior(factor, priors).gaussian_only:
             engine = GaussianEngine(factor, priors, columns=columns, expert=expert, swept=swept)
         else:
             engine = SampledEngine(factor, priors, columns=columns, expert=expert, grid=grid,

@@ -87,6 +87,17 @@ def exact_detail(one: bool, noise_known: bool) -> str:
     return detail
 
 
+def mixture_detail(noise_known: bool) -> str:
+    """How the exact sweep computed the grid for mixture priors."""
+    detail = (
+        "exact; at each width the mixture over the combinations of components, each "
+        "combination's posterior weighted by its evidence"
+    )
+    if not noise_known:
+        detail += ", noise sd integrated out by quadrature"
+    return detail
+
+
 def sampled_detail(sampled, sampler, chains_at_stated: int = 0, rounds: int = 0) -> str:
     """How the sampled engine computed the grid (``sampled``: the factors it sampled at;
     ``rounds`` further rounds at the stated priors gave ``chains_at_stated`` chains there)."""
