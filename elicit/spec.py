@@ -46,6 +46,8 @@ class Statement:
         Student-t degrees of freedom.
     weight : float
         Pooling weight (> 0).
+    fit, bins, chips : str, tuple, tuple or None
+        fit "probability": quantiles fitted on cumulative probabilities; chips in bins as stated.
     """
 
     expert: str | None
@@ -60,6 +62,9 @@ class Statement:
     scale: float
     df: float | None
     weight: float
+    fit: str | None = None
+    bins: tuple[float, ...] | None = None
+    chips: tuple[int, ...] | None = None
 
 
 def _sd(family: str, scale: float, df: float | None) -> float:
@@ -252,9 +257,7 @@ class NoisePrior:
     statements: tuple[NoisePrior, ...] = ()
     pool: str | None = None
 
-    @property
-    def known(self) -> bool:
-        return self.sd is not None
+    known = property(lambda self: self.sd is not None)
 
     @property
     def median(self) -> float:
@@ -265,9 +268,7 @@ class NoisePrior:
 
 
 @dataclass(frozen=True)
-class ReferenceRow:
-    """Predictor values at which feedback shows the implied response."""
-
+class ReferenceRow:  # predictor values at which feedback shows the implied response
     label: str | None
     values: Mapping[str, float]
 
@@ -299,9 +300,7 @@ class PriorSet:
     block: CorrelatedBlock | None
     reference_rows: tuple[ReferenceRow, ...] = field(default=())
 
-    @property
-    def _source(self) -> str:
-        return self.path or "<priors>"
+    _source = property(lambda self: self.path or "<priors>")
 
     def get(self, column: str) -> CoefficientPrior | None:
         """The prior of design column ``column``, or None (flat or in the block)."""
