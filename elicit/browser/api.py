@@ -109,6 +109,7 @@ class Session:
         worst = views.worst_error(prior.dist(), s)
         return {
             "column": term.column, "family": prior.family, "per": s.per, "marks": marks,
+            "xlabel": wording.axis(what, self._units()),
             "curve": curve, "worst": worst, "restated": again, "implied": rows,
             "words": {
                 "belief": wording.belief(curve, what, self._units()),
@@ -127,6 +128,7 @@ class Session:
         what = f"residual sd of {self.study.response}"
         return {
             "column": form.NOISE, "family": "inverse_gamma", "per": 1.0, "marks": marks,
+            "xlabel": wording.axis(what, self._units()),
             "curve": curve, "worst": None, "restated": [], "implied": [],
             "words": {"belief": wording.belief(curve, what, self._units()) if curve["x"] else [],
                       "fit": None, "restated": [], "implied": [],

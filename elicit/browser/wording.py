@@ -18,6 +18,11 @@ def change(per: float, column: str, units: str | None) -> str:
     return f"per {per:g}{f' {units}' if units else ''} of {column}"
 
 
+def axis(what: str, response_units: str | None) -> str:
+    """The label under a picture: 'change in strength per 0.1 of water_cement (MPa)'."""
+    return f"{what} ({response_units})" if response_units else what
+
+
 def belief(curve: Mapping[str, Any], what: str, response_units: str | None) -> list[str]:
     """The fitted prior's quantiles and P(> 0) in words; ``what`` names the quantity."""
     q = curve["quantiles"]
