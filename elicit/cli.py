@@ -204,7 +204,7 @@ def pool(priors: tuple[str, ...], out: str, method: str | None, families: tuple[
 
 @main.command()
 @click.option("--data", required=True, type=click.Path(dir_okay=False), help="CSV of the study.")
-@click.option("--response", required=True, help="Response column.")
+@click.option("--response", help="Response column (default: the resumed file's).")
 @click.option("--out", required=True, type=click.Path(dir_okay=False), help="Prior file to write.")
 @click.option("--response-units", help="Units of the response, e.g. MPa.")
 @click.option("--expert", help="Default expert name.")
@@ -220,9 +220,21 @@ def pool(priors: tuple[str, ...], out: str, method: str | None, families: tuple[
 )
 @click.option("--reference", multiple=True, metavar="COLUMN=LEVEL",
               help="Reference level of a categorical predictor (repeatable).")  # fmt: skip
+@click.option("--browser", is_flag=True, help="Interview in the browser (a local server).")
+@click.option(
+    "--others",
+    multiple=True,
+    type=click.Path(dir_okay=False),
+    help="--browser: another expert's prior file, shown after answering (repeatable).",
+)
+@click.option("--no-open", is_flag=True, help="--browser: print the address, do not open it.")
+@click.option("--host", default="127.0.0.1", show_default=True,
+              help="--browser: address to serve on (another than 127.0.0.1 warns).")  # fmt: skip
+@click.option("--port", type=click.IntRange(0, 65535), default=0,
+              help="--browser: port (default: a free one).")  # fmt: skip
 def interview(
     data: str,
-    response: str,
+    response: str | None,
     out: str,
     response_units: str | None,
     expert: str | None,
@@ -230,14 +242,30 @@ def interview(
     conditional: bool,
     formula: str | None = None,
     reference: tuple[str, ...] = (),
+    browser: bool = False,
+    others: tuple[str, ...] = (),
+    no_open: bool = False,
+    host: str = "127.0.0.1",
+    port: int = 0,
 ):
     """Ask an expert about each predictor, with feedback; save after every answer; resume."""
     from elicit.interview import Interview, terms_from_data
 
     frame = _read_data(data)
+    if response is None:  # the browser takes it from the file being resumed
+        response = _resumed_response(out)
     if response not in frame:
         raise BadInput(f"{data}: no response column {response!r}")
     _out_path(out)
+    if browser:
+        if conditional or formula or reference:
+            raise BadInput("--browser: asks about numeric predictors only (no --conditional, "
+                           "--formula or --reference yet)")  # fmt: skip
+        _browser(frame, response, Path(out), response_units, expert, no_noise, others,
+                 no_open=no_open, host=host, port=port)  # fmt: skip
+        return
+    if others or no_open or host != "127.0.0.1" or port:
+        raise BadInput("--others, --no-open, --host and --port go with --browser")
 
     echo = not sys.stdin.isatty()
 
@@ -274,6 +302,33 @@ def interview(
     except click.Abort:
         click.echo(f"\nelicit: interview stopped; {_kept(Path(out))}", err=True)
         sys.exit(2)  # an interrupted interview is bad input: status 2, nothing lost
+
+
+def _resumed_response(out: str) -> str:
+    from elicit.read import read_prior_file
+
+    if Path(out).exists() and (found := read_prior_file(out).response):
+        return found
+    raise BadInput("--response: missing (and no prior file to resume names one)")
+
+
+def _browser(frame, response, out: Path, response_units, expert, no_noise, others, *,
+             no_open: bool, host: str, port: int) -> None:  # fmt: skip
+    import webbrowser
+
+    from elicit.browser.api import Study
+    from elicit.browser.launch import check_host, serve
+    from elicit.interview import terms_from_data
+    from elicit.read import read_prior_file
+
+    if warning := check_host(host):
+        click.echo(f"elicit: {warning}", err=True)
+    units = read_prior_file(out).units if out.exists() else {}
+    terms = tuple(terms_from_data(frame, response, units=units))
+    study = Study(out, frame, response, terms, response_units,
+                  tuple((p, read_prior_file(p)) for p in others), noise=not no_noise)  # fmt: skip
+    serve(study, expert=expert, host=host, port=port, say=click.echo,
+          ready=None if no_open else webbrowser.open)  # fmt: skip
 
 
 def _kept(out: Path) -> str:

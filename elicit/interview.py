@@ -20,16 +20,13 @@ from typing import Any
 
 import click
 
-from elicit import convert, show
+from elicit import answers, convert, show
 from elicit.errors import InputError, PriorFileError
 from elicit.feedback import block_feedback, coefficient_feedback, noise_feedback
 from elicit.outfile import Draft, OutputLock, check_writable
-from elicit.predictive import predictor_means, prior_predictive
 from elicit.questions import Term, above, finite, positive, probability, terms_from_data
-from elicit.read import read_prior_file
 from elicit.spec import FAMILIES, INTERCEPT, PriorSet
 from elicit.validate import parse_priors
-from elicit.write import prior_doc, write_prior_file
 
 __all__ = ["Interview", "Term", "terms_from_data"]  # Term's home is elicit.questions
 
@@ -82,25 +79,10 @@ class Interview:
         self._load()
 
     def _load(self) -> None:
-        response = self.response
-        if self.out.exists():
-            priors = read_prior_file(self.out)
-            if priors.response is not None and priors.response != response:
-                raise PriorFileError(
-                    f"{self.out}: [study]: field 'response': the file is for "
-                    f"{priors.response!r}, not {response!r}"
-                )
-            self.doc = prior_doc(priors)
-            self.doc.setdefault("study", {})["response"] = response
-        else:
-            study = {"response": response}
-            if self._response_units:
-                study["response_units"] = self._response_units
-            self.doc = {"study": study}
+        self.doc = answers.open_document(self.out, self.response, self._response_units)
         self.priors = parse_priors(self.doc, source=str(self.out))
         if self.expert is None:  # on resume, the last expert named is the default
-            named = [s.expert for c in self.priors.coefficients for s in c.statements if s.expert]
-            self.expert = named[-1] if named else None
+            self.expert = answers.last_expert(self.priors)
 
     def ask(self, prompt: str, type=None, default=None) -> Any:
         """Ask through the ``ask`` callable, replaying and recording the draft."""
@@ -121,23 +103,14 @@ class Interview:
     # -------------------------------------------------------------- state
     @property
     def answered(self) -> set[str]:
-        done = {c.column for c in self.priors.coefficients}
-        if self.priors.block is not None:
-            done |= set(self.priors.block.names)
-        return done
+        return answers.answered(self.priors)
 
     def _candidate(self, key: str, value: Any) -> PriorSet:
-        doc = dict(self.doc)
-        if key == "coefficient":
-            doc["coefficient"] = [*self.doc.get("coefficient", []), value]
-        else:
-            doc[key] = value
-        return parse_priors(doc, source=str(self.out))
+        return answers.with_answer(self.doc, key, value, str(self.out))
 
     def _save(self, priors: PriorSet) -> None:
-        write_prior_file(priors, self.out, header="Prior file written by `elicit interview`.")
+        self.doc = answers.save(priors, self.out)
         self.priors = priors
-        self.doc = prior_doc(priors)
 
     def _units(self) -> str:
         u = self.priors.response_units
@@ -190,13 +163,9 @@ class Interview:
         noise_sd = priors.noise.median if priors.noise is not None else None
         info = coefficient_feedback(priors.get(term.column), noise_sd=noise_sd)
         self.say("\n".join(show.format_coefficient(info, noise_sd=noise_sd)))
-        if self.frame is None or not term.reference or info.family == "flat":
-            return
-        means = predictor_means(self.frame, self.response)
-        y_mean = float(self.frame[self.response].mean())
-        rows = [(label, {term.column: value}) for label, value in term.reference]
-        implied = prior_predictive(priors, rows, means=means, y_mean=y_mean)
-        self.say("\n".join(show.format_predictive(implied, units=priors.response_units)))
+        implied = answers.implied_response(priors, term, self.frame, self.response)
+        if implied is not None:
+            self.say("\n".join(show.format_predictive(implied, units=priors.response_units)))
 
     def _ask_range(self, what: str, subject: str, last: Mapping[str, Any]) -> dict[str, float]:
         """Lowest and highest plausible ``what``, and the probability of that range, each

@@ -28,7 +28,10 @@ any other key is an error.
 
     - ``low``, ``high``, ``mass``: the range holds the effect with probability ``mass``;
     - ``quantiles = [[0.05, -80], [0.5, -60], [0.95, -35]]``: (probability, value) pairs,
-      fitted by least squares on the quantile scale;
+      fitted by least squares on the quantile scale, or, with ``fit = "probability"``, on the
+      stated cumulative probabilities (:mod:`elicit.cumulative_fit`);
+    - ``bins = [-10, -8, -6, -4, -2]``, ``chips = [1, 4, 4, 1]``: chips in bins (edges, and
+      a whole count per bin), fitted on the cumulative proportions at the edges;
     - ``center``, ``scale``: the distribution's own parameters, per one unit of predictor;
 
     (none of them for ``flat``); ``per`` (default 1: the range or quantiles are for a change of

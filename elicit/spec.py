@@ -252,9 +252,7 @@ class PriorSet:
     block: CorrelatedBlock | None
     reference_rows: tuple[ReferenceRow, ...] = field(default=())
 
-    @property
-    def _source(self) -> str:
-        return self.path or "<priors>"
+    _source = property(lambda self: self.path or "<priors>")
 
     def __repr__(self) -> str:
         from elicit.display import prior_set_text

@@ -27,6 +27,8 @@ class Statement:
         Student-t degrees of freedom.
     weight : float
         Pooling weight (> 0).
+    fit, bins, chips : str, tuple, tuple or None
+        fit "probability": quantiles fitted on cumulative probabilities; chips in bins as stated.
 
     Examples
     --------
@@ -50,3 +52,6 @@ class Statement:
     scale: float
     df: float | None
     weight: float
+    fit: str | None = None
+    bins: tuple[float, ...] | None = None
+    chips: tuple[int, ...] | None = None

@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 import warnings
 
-from elicit import convert
+from elicit import convert, cumulative_fit
 from elicit.errors import ElicitationWarning, shown
 from elicit.fields import FieldReader
 from elicit.limits import LARGEST, PRECISION, SMALLEST, UNITS
@@ -19,7 +19,7 @@ from elicit.spec import Statement
 
 STATEMENT_KEYS = frozenset(
     {"family", "low", "high", "mass", "per", "quantiles", "center", "scale", "df"}
-    | {"expert", "rationale", "weight"}
+    | {"expert", "rationale", "weight", "fit", "bins", "chips"}
 )
 
 
@@ -65,21 +65,28 @@ def parse_statement(r: FieldReader) -> Statement:
             ("range", ("low", "high", "mass")),
             ("quantiles", ("quantiles",)),
             ("center", ("center", "scale")),
+            ("bins", ("bins", "chips")),
         )
         if any(r.has(k) for k in keys)
     ]
     if len(modes) > 1:
         raise r.error(
-            {"range": "low", "quantiles": "quantiles", "center": "center"}[modes[1]],
-            "give one of low/high/mass, quantiles, or center/scale, not several",
+            {"range": "low", "quantiles": "quantiles", "center": "center", "bins": "bins"}[
+                modes[1]
+            ],
+            "give one of low/high/mass, quantiles, bins/chips, or center/scale, not several",
         )
     mode = modes[0] if modes else None
-    low = high = mass = quantiles = None
+    low = high = mass = quantiles = bins = chips = None
+    fit_kind = r.text("fit")
+    if fit_kind is not None and (mode != "quantiles" or fit_kind not in cumulative_fit.FIT_KINDS):
+        raise r.error("fit", f"is {' or '.join(cumulative_fit.FIT_KINDS)}, for quantiles only")
     if family == "flat":
         if mode is not None or per is not None:
             key = next(
                 k
-                for k in ("low", "high", "mass", "quantiles", "center", "scale", "per")
+                for k in ("low", "high", "mass", "quantiles", "bins", "chips", "center", "scale")
+                + ("per",)
                 if r.has(k)
             )
             raise r.error(key, "a flat prior takes no range or parameters")
@@ -92,17 +99,25 @@ def parse_statement(r: FieldReader) -> Statement:
             raise r.error("mass", f"{mass:g} gives a scale beyond the float limit") from None
     elif mode == "quantiles":
         quantiles = parse_quantiles(r)
+        fitter = cumulative_fit.fit_probabilities if fit_kind == "probability" else None
         try:
-            fit = convert.fit_quantiles(family, quantiles, per=per or 1.0, df=df)
+            fit = (fitter or convert.fit_quantiles)(family, quantiles, per=per or 1.0, df=df)
         except ValueError as exc:
             raise r.error("quantiles", str(exc)) from None
-        if fit.warning:
+        if fitter is None and fit.warning:  # a fit on the probabilities shows its worst error
             warnings.warn(
                 f"{r.source}: {r.where}: field 'quantiles': {fit.warning}",
                 ElicitationWarning,
                 stacklevel=2,
             )
         center, scale = fit.center, fit.scale
+    elif mode == "bins":
+        bins, chips = parse_bins(r)
+        try:
+            by_p = cumulative_fit.fit_bins(family, bins, chips, per=per or 1.0, df=df)
+        except ValueError as exc:
+            raise r.error("chips", str(exc)) from None
+        center, scale = by_p.center, by_p.scale
     elif mode == "center":
         if per is not None:
             raise r.error(
@@ -113,9 +128,11 @@ def parse_statement(r: FieldReader) -> Statement:
         center = r.number("center", required=True)
         scale = r.number("scale", required=True, positive=True)
     else:
-        raise r.error("low", f"a {family} prior needs low/high/mass, quantiles, or center/scale")
+        raise r.error("low", f"a {family} prior needs low/high/mass, quantiles, bins/chips, or "
+                      "center/scale")  # fmt: skip
     if family != "flat":
-        key = "per" if per is not None else {"range": "low", "quantiles": "quantiles"}.get(mode)
+        key = "per" if per is not None else {"range": "low", "quantiles": "quantiles",
+                                             "bins": "bins"}.get(mode)  # fmt: skip
         check_center_scale(r, key or "scale", center, scale)
     return Statement(
         expert=r.text("expert"),
@@ -130,7 +147,26 @@ def parse_statement(r: FieldReader) -> Statement:
         scale=scale,
         df=df,
         weight=weight or 1.0,
+        fit=fit_kind,
+        bins=bins,
+        chips=chips,
     )
+
+
+def parse_bins(r: FieldReader) -> tuple[tuple[float, ...], tuple[int, ...]]:
+    """The ``bins`` (edges, increasing) and ``chips`` (one whole count per bin) fields."""
+    edges = r.numbers("bins", required=True)
+    raw = r.table.get("chips")
+    if not isinstance(raw, list) or any(isinstance(c, bool) or not isinstance(c, int) or c < 0
+                                        for c in raw):  # fmt: skip
+        raise r.error("chips", f"must be a list of whole numbers, 0 or more, got {shown(raw)}")
+    if len(edges) < 2 or len(raw) != len(edges) - 1:
+        raise r.error("chips", f"need one count per bin: {len(edges)} edges, {len(raw)} counts")
+    if any(not b > a for a, b in zip(edges, edges[1:], strict=False)):
+        raise r.error("bins", "edges must increase")
+    if sum(raw) > 10**6:
+        raise r.error("chips", f"at most {10**6} chips in all, got {sum(raw)}")
+    return tuple(edges), tuple(int(c) for c in raw)
 
 
 def parse_quantiles(r: FieldReader) -> tuple[tuple[float, float], ...]:

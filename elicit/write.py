@@ -80,6 +80,10 @@ def _statement_doc(s: Statement) -> dict[str, Any]:
         out.update(low=s.low, high=s.high, mass=s.mass)
     elif s.quantiles is not None:
         out["quantiles"] = [list(pair) for pair in s.quantiles]
+        if s.fit is not None:
+            out["fit"] = s.fit
+    elif s.bins is not None:
+        out.update(bins=list(s.bins), chips=list(s.chips))
     elif s.family != "flat":
         out.update(center=s.center, scale=s.scale)
     if s.per != 1.0:
