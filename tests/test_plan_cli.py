@@ -16,7 +16,10 @@ from bayes.report.build import build_report
 from bayes.store import load_plan
 
 SAVED = ROOT / "tests" / "data" / "saved_fits"
-GRID = "water_cement=0.42:0.58:0.04,fly_ash=0:0.3:0.15,curing_temp=15:30:5,superplasticizer=0.4:1.1:0.1"
+GRID = (
+    "water_cement=0.42:0.58:0.04,fly_ash=0:0.3:0.15,curing_temp=15:30:5,"
+    "superplasticizer=0.4:1.1:0.1"
+)
 
 
 def run(*args):

@@ -1,4 +1,5 @@
-"""`bayes plan`'s search and criteria: classical optimal designs, enumeration, nested Monte Carlo."""
+"""`bayes plan`'s search and criteria: classical optimal designs, enumeration, nested Monte
+Carlo."""
 
 from __future__ import annotations
 

@@ -46,8 +46,7 @@ def _matches(expected: list[str], actual: list[str]) -> bool:
 
 def test_the_walkthrough_has_the_whole_job():
     commands = [c for c, _ in _walkthrough()]
-    assert [c.split()[1] for c in commands] == ["show", "fit", "sweep", "compare", "report",
-                                                   "plan"]
+    assert [c.split()[1] for c in commands] == ["show", "fit", "sweep", "compare", "report", "plan"]
     figure = re.search(r"!\[[^\]]*\]\((docs/[^)]+\.png)\)", (ROOT / "README.md").read_text())
     assert figure and (ROOT / figure.group(1)).read_bytes().startswith(b"\x89PNG")
 

@@ -40,11 +40,11 @@ from bayes.cli.options import emit
 @click.option("--sims", type=int, default=2000, show_default=True,
               help="Simulations of the assurance of a sampled fit.")  # fmt: skip
 @click.option("--figure", "figure_path", type=click.Path(dir_okay=False),
-              help="Write the figure (PNG): assurance against K, and the planned runs.")  # fmt: skip
+              help="Write the figure (PNG): assurance against K, the runs.")  # fmt: skip
 @click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text",
               show_default=True)  # fmt: skip
 @click.option("--save", is_flag=True,
-              help="Store the plan in FIT_DIR/plan.json and the runs in FIT_DIR/plan.csv.")  # fmt: skip
+              help="Store plan.json and plan.csv (the runs) in FIT_DIR.")  # fmt: skip
 def plan_command(fit_dir, candidates_path, grid, runs, goals, contrasts, criterion, level,
                  target, max_runs, restarts, seed, sims, figure_path, fmt, save):  # fmt: skip
     """Plan the next runs for the fit saved in FIT_DIR: which candidates to make, what they

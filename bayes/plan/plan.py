@@ -127,8 +127,14 @@ def plan(result, candidates: pd.DataFrame, runs: int | None = None, *,
         gain = gain_nats(nodes, C[list(best.design)])
     goal_rows = []
     for g, a in zip(parsed, final, strict=True):
-        reach = next((k for k, row in zip(curve_k, curve_a, strict=True)
-                      if target is not None and row[parsed.index(g)].value >= target), None)
+        reach = next(
+            (
+                k
+                for k, row in zip(curve_k, curve_a, strict=True)
+                if target is not None and row[parsed.index(g)].value >= target
+            ),
+            None,
+        )
         goal_rows.append({"label": g.label, "p_today": probability_today(post, g.a, g.op, g.value),
                           "assurance": a.value, "settled_for": a.settled_for,
                           "settled_against": a.settled_against, "mcse": a.mcse,

@@ -55,16 +55,17 @@ def criterion_text(plan) -> str:
 def search_text(plan) -> str:
     if plan.search == "enumeration":
         return "every set of runs tried (exhaustive enumeration)"
-    return (f"exchange algorithm (Fedorov, 1972), {plan.restarts} starts")
+    return f"exchange algorithm (Fedorov, 1972), {plan.restarts} starts"
 
 
 def goal_sentence(goal: dict, level: float, runs: int) -> str:
-    """"superplasticizer<0: today P = 0.61; after 12 runs settled either way with probability
+    """ "superplasticizer<0: today P = 0.61; after 12 runs settled either way with probability
     0.83 (for 0.80, against 0.03)"."""
     err = f" ± {fmt(goal['mcse'], 2)}" if goal["mcse"] else ""
     return (f"{goal['label']}: today P = {goal['p_today']:.3f}; after these {runs} runs the "
             f"posterior passes {level:g} either way with probability {goal['assurance']:.3f}"
-            f"{err} (for {goal['settled_for']:.3f}, against {goal['settled_against']:.3f})")  # fmt: skip
+            f"{err} (for {goal['settled_for']:.3f}, "
+            f"against {goal['settled_against']:.3f})")  # fmt: skip
 
 
 def reach_sentence(goal: dict, target: float) -> str:
