@@ -59,11 +59,29 @@ def plan(result, candidates: pd.DataFrame, runs: int | None = None, *,
         The assurance aimed at: the curve runs until every goal reaches it.
     sweep : SweepResult, optional
         The saved sweep, for the default goals.
+    max_runs, restarts, seed, sims : int
+        Longest assurance curve; exchange starts; seed; simulations of a sampled fit.
+    source : str
+        What the candidates are called in messages.
 
     Raises
     ------
     InputError
         K < 1, a level or target outside (0, 1), a bad goal or contrast, bad candidates.
+
+
+    Returns
+    -------
+    PlanResult
+
+    Examples
+    --------
+    >>> import bayes, pandas as pd
+    >>> frame = pd.DataFrame({"x": [-0.5, 0.0, 0.5, 0.2], "y": [0.9, 2.1, 2.9, 2.5]})
+    >>> result = bayes.plan(bayes.fit(frame, response="y"),
+    ...                     pd.DataFrame({"x": [-1.0, -0.5, 0.0, 0.5, 1.0]}), 2)
+    >>> sorted(r["values"]["x"] for r in result.runs)  # a straight line: D-optimal at the ends
+    [-1.0, 1.0]
     """
     if not 0.0 < level < 1.0:
         raise InputError(f"level must lie strictly between 0 and 1, got {level!r}")

@@ -81,6 +81,17 @@ class PlanResult:
         ``x``, ``y`` (the two predictors drawn), ``candidates``, ``chosen`` ([x, y, count]) and
         ``data`` points.
     notes : tuple of str
+
+    Examples
+    --------
+    >>> import bayes, pandas as pd
+    >>> frame = pd.DataFrame({"x": [-0.5, 0.0, 0.5, 0.2], "y": [0.9, 2.1, 2.9, 2.5]})
+    >>> result = bayes.plan(bayes.fit(frame, response="y"),
+    ...                     pd.DataFrame({"x": [-1.0, -0.5, 0.0, 0.5, 1.0]}), 2)
+    >>> sorted(r["values"]["x"] for r in result.runs)  # D-optimal for a line
+    [-1.0, 1.0]
+    >>> result.criterion, len(result.runs)
+    ('D', 2)
     """
 
     response: str
