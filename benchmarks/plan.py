@@ -18,11 +18,14 @@ All on INVENTED data (seeded random numbers), in this process, side by side:
 from __future__ import annotations
 
 import argparse
-import statistics
-import time
+import sys
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from run import paired  # noqa: E402  (benchmarks/run.py: the one timing helper)
 
 N_DATA, P, CANDIDATES, RUNS = 60, 10, 1000, 12
 
@@ -44,26 +47,6 @@ def problem():
     result = fit(frame, "y", names, priors=priors)
     cand = pd.DataFrame(rng.uniform(0, 1, (CANDIDATES, P)), columns=names)
     return frame, priors, result, cand
-
-
-def timed(fn, repeats: int) -> float:
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - start)
-    return statistics.median(times)
-
-
-def paired(ours, ref, repeats: int) -> tuple[float, float]:
-    """Median times of ``ours`` and ``ref`` run in turn (drifts in load fall on both)."""
-    a, b = [], []
-    for _ in range(repeats):
-        for fn, out in ((ref, b), (ours, a)):
-            start = time.perf_counter()
-            fn()
-            out.append(time.perf_counter() - start)
-    return statistics.median(a), statistics.median(b)
 
 
 def measurements(repeats: int = 3) -> list[tuple]:

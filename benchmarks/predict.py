@@ -18,9 +18,8 @@ against pandas reading and writing the same file (the input/output floor). The s
 from __future__ import annotations
 
 import argparse
-import statistics
+import sys
 import tempfile
-import time
 import warnings
 from pathlib import Path
 
@@ -28,21 +27,14 @@ import numpy as np
 import pandas as pd
 from scipy import stats
 
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from run import median_time as timed  # noqa: E402  (benchmarks/run.py: the one timing helper)
+
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "bayes" / "demo"
 PREDICTORS = ["water_cement", "fly_ash", "curing_temp", "superplasticizer"]
 LOOP_ROWS = 2000
 DRAW_ROWS = 100_000  # at most this many rows for the sampled fit (4000 draws a row)
-
-
-def timed(fn, repeats: int) -> float:
-    """Median wall time of ``fn()``, seconds."""
-    times = []
-    for _ in range(repeats):
-        start = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - start)
-    return statistics.median(times)
 
 
 def rows(n: int) -> pd.DataFrame:
