@@ -74,6 +74,16 @@ class _Reader:
         text = (raw or "").strip()
         return text or None
 
+    def finished(self, entry: dict[str, Any]) -> dict[str, Any]:
+        """``entry`` with the expert's name and rationale when given; every field's message
+        together as one :class:`FormError` when any field was wrong."""
+        for key in ("expert", "rationale"):
+            if value := self.text(key):
+                entry[key] = value
+        if self.errors:
+            raise FormError(self.errors)
+        return entry
+
 
 def bin_edges(form: Mapping[str, Any]) -> list[float]:
     """The bin edges of the chips-and-bins method: ``bin_count`` equal bins from ``bin_low``
@@ -94,13 +104,7 @@ def bin_edges(form: Mapping[str, Any]) -> list[float]:
 def noise_entry(form: Mapping[str, Any]) -> dict[str, Any]:
     """The ``[noise]`` table from the form (a range of the residual sd and its probability)."""
     r = _Reader(form)
-    table = {"low": r.number("low"), "high": r.number("high"), "mass": r.number("mass")}
-    for key in ("expert", "rationale"):
-        if value := r.text(key):
-            table[key] = value
-    if r.errors:
-        raise FormError(r.errors)
-    return table
+    return r.finished({"low": r.number("low"), "high": r.number("high"), "mass": r.number("mass")})
 
 
 def coefficient_entry(form: Mapping[str, Any], name: str) -> dict[str, Any]:
@@ -147,9 +151,4 @@ def coefficient_entry(form: Mapping[str, Any], name: str) -> dict[str, Any]:
         entry.update(bins=edges, chips=chips if ok else [])
     if per is not None and per != 1.0:
         entry["per"] = per
-    for key in ("expert", "rationale"):
-        if value := r.text(key):
-            entry[key] = value
-    if r.errors:
-        raise FormError(r.errors)
-    return entry
+    return r.finished(entry)
