@@ -46,6 +46,9 @@ def _curve(ax, plan) -> None:
         ax.axhline(plan.target, color="0.4", ls="--", lw=1, label=f"target {plan.target:g}")
     ax.set_ylim(0, 1)
     ax.set_xlabel("runs planned (K)")
+    from matplotlib.ticker import MaxNLocator
+
+    ax.xaxis.set_major_locator(MaxNLocator(integer=True))  # a count of runs: whole numbers
     ax.set_ylabel(f"assurance (posterior past {plan.level:g} either way)")
     ax.set_title("Assurance against the number of runs", fontsize=10)
     ax.grid(alpha=0.3)
