@@ -17,7 +17,14 @@ MAX_LINES = 400
 # elicit sits below all of bayes (its command, elicit.cli, composes the two from above).
 LAYERS = (
     ("elicit",),
-    ("bayes.errors", "bayes.settings", "bayes.threads", "bayes.arrays", "bayes.jsonable"),
+    (
+        "bayes.errors",
+        "bayes.settings",
+        "bayes.threads",
+        "bayes.arrays",
+        "bayes.jsonable",
+        "bayes.palette",
+    ),
     ("bayes.problem", "bayes.distributions"),
     ("bayes.data",),
     ("bayes.engine",),

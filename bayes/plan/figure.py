@@ -5,6 +5,11 @@ from __future__ import annotations
 
 import io
 
+from bayes.palette import GREY, LIGHT_GREY, OKABE_ITO
+
+#: One colour per goal, in order (Okabe-Ito, as every figure of the tool).
+GOAL_COLOURS = tuple(OKABE_ITO[c] for c in ("blue", "orange", "green", "purple", "sky_blue"))
+
 #: Figure size in inches and resolution of the PNG.
 SIZE = (10.0, 4.2)
 DPI = 120
@@ -33,17 +38,18 @@ def _curve(ax, plan) -> None:
                 transform=ax.transAxes)  # fmt: skip
         ax.set_axis_off()
         return
-    for g in plan.goals:
+    for i, g in enumerate(plan.goals):
         values = plan.curve[g["label"]]["assurance"]
         errs = plan.curve[g["label"]]["mcse"]
-        line = ax.plot(ks, values, marker="o", ms=3, label=g["label"])[0]
+        colour = GOAL_COLOURS[i % len(GOAL_COLOURS)]
+        line = ax.plot(ks, values, marker="o", ms=3, color=colour, label=g["label"])[0]
         if any(errs):
             lo = [v - 2 * e for v, e in zip(values, errs, strict=True)]
             hi = [v + 2 * e for v, e in zip(values, errs, strict=True)]
             ax.fill_between(ks, lo, hi, color=line.get_color(), alpha=0.2, lw=0)
         ax.plot([plan.k], [g["assurance"]], marker="*", ms=10, color=line.get_color())
     if plan.target is not None:
-        ax.axhline(plan.target, color="0.4", ls="--", lw=1, label=f"target {plan.target:g}")
+        ax.axhline(plan.target, color=GREY, ls="--", lw=1, label=f"target {plan.target:g}")
     ax.set_ylim(0, 1)
     ax.set_xlabel("runs planned (K)")
     from matplotlib.ticker import MaxNLocator
@@ -67,21 +73,23 @@ def _space(ax, plan) -> None:
         ys = [p[1] if two else 0.0 for p in points]
         return xs, ys
 
-    ax.scatter(*xy(plot["candidates"]), s=6, color="0.75", label="candidates", zorder=1)
+    ax.scatter(*xy(plot["candidates"]), s=6, color=LIGHT_GREY, label="candidates", zorder=1)
     if plot.get("data"):
-        ax.scatter(*xy(plot["data"]), s=22, marker="x", color="tab:blue", label="data so far",
-                   zorder=2)  # fmt: skip
+        ax.scatter(*xy(plot["data"]), s=22, marker="x", color=OKABE_ITO["black"],
+                   label="data so far", zorder=2)  # fmt: skip
     chosen = plot["chosen"]
     xs, ys = xy(chosen)
     counts = [p[-1] for p in chosen]
     ax.scatter(xs, ys, s=[40 + 25 * (n - 1) for n in counts], facecolors="none",
-               edgecolors="tab:red", linewidths=1.6, label="planned runs", zorder=3)  # fmt: skip
+               edgecolors=OKABE_ITO["vermillion"], linewidths=1.6, label="planned runs", zorder=3,
+               clip_on=False)  # fmt: skip
     for x, y, n in zip(xs, ys, counts, strict=True):
         if n > 1:
-            ax.annotate(f"x{n}", (x, y), xytext=(5, 4), textcoords="offset points",
-                        fontsize=8, color="tab:red")  # fmt: skip
+            ax.annotate(f"\u00d7{n}", (x, y), xytext=(6, 5), textcoords="offset points", fontsize=8,
+                        color=OKABE_ITO["vermillion"], annotation_clip=False)  # fmt: skip
+    ax.margins(0.08)  # room for the largest marker at the candidates' edge
     ax.set_xlabel(plot["x"])
     ax.set_ylabel(plot["y"] if two else "")
     ax.set_title(f"The {plan.k} planned runs", fontsize=10)
-    ax.legend(fontsize=8, loc="best")
+    ax.legend(fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.14), ncol=3, frameon=False)
     ax.grid(alpha=0.3)

@@ -15,19 +15,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from bayes.palette import OKABE_ITO
 from bayes.report.ticks import readable_axis
 
-# Okabe and Ito (2008), "Color Universal Design": the eight colours (common practice, no source).
-OKABE_ITO = {
-    "black": "#000000",
-    "orange": "#E69F00",
-    "sky_blue": "#56B4E9",
-    "green": "#009E73",
-    "yellow": "#F0E442",
-    "blue": "#0072B2",
-    "vermillion": "#D55E00",
-    "purple": "#CC79A7",
-}
 PRIOR = OKABE_ITO["orange"]
 POSTERIOR = OKABE_ITO["blue"]
 LEAST_SQUARES = OKABE_ITO["vermillion"]

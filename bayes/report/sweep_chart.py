@@ -12,6 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
+from bayes.palette import GREY, OKABE_ITO
 from elicit.units import term_units
 
 CHART_SUFFIXES = (".png", ".svg", ".pdf")  # the file types a chart is written as
@@ -34,8 +35,7 @@ def check_chart_path(path: str | os.PathLike, *, option: str = "--plot") -> None
         )
 
 
-# Okabe and Ito's colour-blind-safe palette.
-_BLUE, _ORANGE, _GREEN, _PURPLE, _GREY = "#0072B2", "#E69F00", "#009E73", "#CC79A7", "#555555"
+_BLUE, _ORANGE, _GREEN, _PURPLE = (OKABE_ITO[c] for c in ("blue", "orange", "green", "purple"))
 
 
 def axis_label(name: str, units: dict) -> str:
@@ -121,7 +121,7 @@ def plot_sweep(sweep, path_or_axes=None, *, intercept: bool = False):
             ax.axvline(f, color=_PURPLE, ls=":", lw=1.8,
                        label="conclusion flips" if i == 0 else None)  # fmt: skip
         for con in mine:
-            ax.axhline(con.value, color=_GREY, lw=0.7)
+            ax.axhline(con.value, color=GREY, lw=0.7)
         ax.set_xscale("log")
         ax.set_title(c.name + ("" if c.swept else " (prior not widened)"), fontsize=10)
         ax.set_xlabel("prior width factor (1 = as stated)", fontsize=8)
