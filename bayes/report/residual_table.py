@@ -8,6 +8,7 @@ import numpy as np
 
 from bayes.report.context import Context, number_cell
 from bayes.report.document import Table
+from bayes.report.findings_wording import largest_residuals_caption
 
 LARGEST_ROWS = 5  # rows shown: those with the largest |residual|
 
@@ -38,11 +39,3 @@ def residual_table(ctx: Context, fitted: np.ndarray, sigma: float) -> Table:
         values.append((None, *numbers))
     caption = largest_residuals_caption(len(order), data.n, data.row_label if labelled else None)
     return Table("residuals", caption, headers, tuple(rows), values=tuple(values))
-
-
-def largest_residuals_caption(shown: int, of: int, row_label: str | None) -> str:
-    named = f"named by the row label {row_label}" if row_label else "numbered in the order fitted"
-    return (
-        f"The {shown} of the {of} rows with the largest residuals at the posterior mean ({named}); "
-        "a residual beyond about 3 noise sds deserves a look at that row's record."
-    )
