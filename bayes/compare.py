@@ -184,6 +184,7 @@ class Comparison:
     n: int
     sets: tuple[SetResult, ...]
     provenance: dict
+    notes: tuple[str, ...] = ()  # the design's (Design.output_notes)
 
     @classmethod
     def from_dict(cls, doc: dict) -> Comparison:
@@ -192,7 +193,8 @@ class Comparison:
         sets = tuple(SetResult.from_dict(s) for s in doc["sets"])
         if len(sets) < 2:
             raise ValueError(f"a comparison needs at least two sets, got {len(sets)}")
-        return cls(doc["response"], int(doc["n"]), sets, dict(doc["provenance"]))
+        notes = tuple(str(n) for n in doc.get("notes", ()))  # absent in older files
+        return cls(doc["response"], int(doc["n"]), sets, dict(doc["provenance"]), notes)
 
     @property
     def log_ml(self) -> np.ndarray:
@@ -287,6 +289,7 @@ class Comparison:
             "readings": readings(self),
             "cautions": cautions(self),
             "provenance": self.provenance,
+            "notes": list(self.notes),
         }
 
     def text(self) -> str:
@@ -390,4 +393,5 @@ def compare_priors(
             ev = bridge_sampling(factor, scaled, d.gamma, d.sigma, sampler.seed)
             loo, r_hat = sampled_loo(factor, design, d, sampler)
             fits.append((label, ps.title, "sampled", ev, loo, flat, scaled.noise.jeffreys, r_hat))
-        return Comparison(design.response, design.n, _against_best(fits), provenance or {})
+        return Comparison(design.response, design.n, _against_best(fits), provenance or {},
+                          design.output_notes)  # fmt: skip

@@ -157,5 +157,5 @@ def comparison_text(comparison) -> str:
         lines.append("Evidence, on the scale of Kass and Raftery (1995):")
         lines += [f"  {r}" for r in said]
     lines += loo_lines(comparison)
-    lines += [f"Note: {c}" for c in cautions(comparison)]
+    lines += [f"Note: {c}" for c in (*cautions(comparison), *comparison.notes)]
     return "\n".join(lines)

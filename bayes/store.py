@@ -307,11 +307,16 @@ def load_fit(folder: str | Path) -> FitResult:
     if (folder / "data.csv").exists():
         names = factor.names
         try:
-            frame = pd.read_csv(folder / "data.csv")
+            label = doc.get("row_label")  # absent in older folders
+            if not isinstance(label, str) or label in (*names, doc["response"]):
+                label = None
+            frame = pd.read_csv(folder / "data.csv", dtype=None if label is None else {label: str})
+            labels = () if label not in frame else tuple(frame[label].fillna("").astype(str))
             data = Design(
                 doc["response"], names, frame[list(names)].to_numpy(float),
                 frame[doc["response"]].to_numpy(float), str(doc["provenance"].get("data", "data")),
-                int(doc["provenance"].get("dropped", 0)), terms, intercept,
+                int(doc["provenance"].get("dropped", 0)), terms, intercept, label, labels,
+                tuple(str(n) for n in doc.get("column_notes", ())),
             )  # fmt: skip
         except (*DAMAGE, pd.errors.ParserError, pd.errors.EmptyDataError) as e:
             raise damaged(folder / "data.csv", e) from None

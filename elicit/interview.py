@@ -24,6 +24,7 @@ from elicit import answers, convert, show
 from elicit.errors import InputError, PriorFileError
 from elicit.feedback import block_feedback, coefficient_feedback, noise_feedback
 from elicit.outfile import Draft, OutputLock, check_writable
+from elicit.predictive import predictor_means
 from elicit.questions import Term, above, finite, positive, probability, terms_from_data
 from elicit.spec import FAMILIES, INTERCEPT, PriorSet
 from elicit.validate import parse_priors
@@ -265,8 +266,8 @@ class Interview:
         """
         if self.frame is None:
             raise InputError("conditional-means questions need the data: give frame")
-        numeric = self.frame.select_dtypes("number")
-        means = {t.column: float(numeric[t.column].mean()) for t in terms}
+        data_means = predictor_means(self.frame, self.response)  # level indicators too
+        means = {t.column: data_means[t.column] for t in terms}
         rows = [("all predictors at their data means", dict(means))]
         for t in terms:
             label, value = t.reference[-1]

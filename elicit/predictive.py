@@ -62,9 +62,17 @@ class NoPredictive:
 
 
 def predictor_means(frame, response: str | None) -> dict[str, float]:
-    """Means of the numeric columns of ``frame`` other than ``response``."""
+    """Means of the numeric columns of ``frame`` other than ``response`` and, for each text
+    (categorical) column, of each level's indicator column ``name[level]``."""
+    from elicit.columns_kind import column_kinds
+
     numeric = frame.select_dtypes("number")
-    return {c: float(numeric[c].mean()) for c in numeric.columns if c != response}
+    out = {c: float(numeric[c].mean()) for c in numeric.columns if c != response}
+    if response is not None and response in frame:
+        for name in column_kinds(frame, response).categorical:
+            labels = frame[name].dropna().astype(str)
+            out |= {f"{name}[{v}]": float((labels == v).mean()) for v in labels.unique()}
+    return out
 
 
 def data_rows(frame, columns: Sequence[str]) -> list[tuple[str, dict[str, float]]]:

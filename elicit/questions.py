@@ -44,13 +44,30 @@ class Term:
 
 
 def terms_from_data(frame, response: str, *, units: Mapping[str, str] | None = None) -> list[Term]:
-    """One :class:`Term` per numeric predictor column of ``frame`` (all but ``response``)."""
+    """One :class:`Term` per predictor column of ``frame`` (all but ``response``, the row label
+    and empty columns, by the rule of :mod:`elicit.columns_kind`), in the file's order: a
+    numeric column with its units, range and 10% / 90% quantiles; a text (categorical) column
+    one term per level other than the reference level (the most frequent), asked as its
+    difference from the reference level."""
+    from elicit.columns_kind import as_numbers, column_kinds, level_counts, most_frequent
+
     units = units or {}
+    kinds = column_kinds(frame, response)
     terms = []
-    for name in frame.select_dtypes("number").columns:
-        if name == response:
+    for name in kinds.predictors:
+        if name in kinds.categorical:
+            labels = [str(v) for v in frame[name].dropna()]
+            found, counts = level_counts(labels)
+            ref = found[most_frequent(found, counts)]
+            for level, k in zip(found, counts, strict=True):
+                if level == ref:
+                    continue
+                describe = (f"the difference in {response} for '{name}' at {level} rather than "
+                            f"the reference level {ref}; {k} of {len(labels)} rows")  # fmt: skip
+                rows = ((f"{name} = {ref} (reference level)", 0.0), (f"{name} = {level}", 1.0))
+                terms.append(Term(name, level, None, describe, rows))
             continue
-        x = frame[name].dropna()
+        x = as_numbers(frame[name]).dropna()
         lo, hi = float(x.quantile(0.1)), float(x.quantile(0.9))
         describe = f"data: {float(x.min()):.4g} to {float(x.max()):.4g}, mean {float(x.mean()):.4g}"
         reference = ((f"{name} = {lo:.4g} (10% quantile)", lo),

@@ -11,6 +11,7 @@ import numpy as np
 from bayes.data.formula import categorical_factors, formula_intercept, model_matrix, quoted
 from bayes.data.terms import Categorical, Terms, level_labels
 from bayes.errors import InputError
+from elicit.columns_kind import most_frequent
 
 
 def reference_levels(pairs: Iterable[str] | None) -> dict[str, str]:
@@ -93,7 +94,7 @@ def make_terms(
             )
         chosen = reference.pop(name, None)
         if chosen is None:
-            ref = str(found[int(np.argmax(counts))])
+            ref = str(found[most_frequent(found, counts)])
             why = f"the most frequent, {int(counts.max())} of {n} rows"
         elif chosen in found:
             ref, why = chosen, "as asked"

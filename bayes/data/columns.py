@@ -10,19 +10,15 @@ header being line 1) and the column.
 from __future__ import annotations
 
 import hashlib
-import math
-import re
 from collections.abc import Mapping, Sequence
 
 import numpy as np
 import pandas as pd
 
 from bayes.errors import InputError
+from elicit.columns_kind import SEPARATED, as_numbers, column_kinds, is_text
 from elicit.errors import shown
 from elicit.limits import LARGEST, SMALLEST, UNITS
-
-# a number written with thousands separators ("1,234", "12,345.6") or a decimal comma ("3,5")
-SEPARATED = re.compile(r"^\s*[+-]?(?:\d{1,3}(?:,\d{3})+(?:\.\d*)?|\d+,\d+)\s*$")
 
 
 def file_row(frame: pd.DataFrame, i: int) -> int:
@@ -38,17 +34,6 @@ def file_row(frame: pd.DataFrame, i: int) -> int:
 def file_rows(frame: pd.DataFrame, positions: Sequence[int] | np.ndarray) -> np.ndarray:
     """:func:`file_row` of each of ``positions``, as an int array."""
     return np.array([file_row(frame, i) for i in positions], dtype=int)
-
-
-def as_numbers(series: pd.Series) -> pd.Series:
-    """``series`` read as numbers, NaN where a value is not one; an integer beyond the float
-    range (pandas keeps one of hundreds of digits as a Python int) reads as +-inf."""
-    try:
-        return pd.to_numeric(series, errors="coerce")
-    except OverflowError:
-        values = [(math.inf if v > 0 else -math.inf) if isinstance(v, int) and abs(v) > LARGEST
-                  else v for v in series]  # fmt: skip
-        return pd.to_numeric(pd.Series(values, series.index, dtype=object), errors="coerce")
 
 
 def first_bad_number(series: pd.Series) -> int | None:
@@ -108,23 +93,6 @@ def stack_columns(values: Mapping[str, np.ndarray], names: Sequence[str], n: int
     return np.column_stack([values[c] for c in names]) if names else np.empty((n, 0))
 
 
-def is_text(series: pd.Series) -> bool:
-    """Whether a column holds labels rather than numbers.
-
-    A column is text when fewer than half of its non-missing values read as
-    numbers: a numeric column with a stray typo stays numeric (and the typo is
-    reported with its row), a column of cement types becomes categorical.
-    """
-    if pd.api.types.is_numeric_dtype(series) or pd.api.types.is_bool_dtype(series):
-        return False
-    present = series.dropna()
-    if present.empty:
-        return False
-    numbers = as_numbers(present).notna().to_numpy()
-    separated = present.astype(str).str.match(SEPARATED).to_numpy()
-    return bool((numbers | separated).mean() < 0.5)
-
-
 def string_columns(frame: pd.DataFrame) -> pd.DataFrame:
     """``frame`` with its column names as str (a frame read from a file may hold others)."""
     return frame.set_axis([str(c) for c in frame.columns], axis=1)
@@ -146,12 +114,24 @@ def needed_columns(frame: pd.DataFrame, names: Sequence[str], *, source: str) ->
 
 
 def select_columns(
-    frame: pd.DataFrame, response: str, predictors: Sequence[str] | None = None, *, source: str
+    frame: pd.DataFrame,
+    response: str,
+    predictors: Sequence[str] | None = None,
+    *,
+    source: str,
+    numeric_only: bool = False,
 ) -> tuple[pd.DataFrame, list[str]]:
     """Check the response and predictor names against ``frame``'s columns.
 
-    Returns the frame with string column names and the predictor list (default:
-    every numeric column other than the response, judged from ``frame``'s dtypes).
+    Returns the frame with string column names and the predictor list (default: every
+    column other than the response, the row label and empty columns, by the rule of
+    :mod:`elicit.columns_kind`; text columns are categorical).
+
+    Parameters
+    ----------
+    numeric_only : bool
+        The predictors must be numbers (a streamed fit, which cannot learn the levels of a
+        text column before reading it all): a default text predictor is an error.
     """
     frame = string_columns(frame)
     columns = list(frame.columns)
@@ -161,9 +141,17 @@ def select_columns(
     if response not in columns:
         raise InputError(f"{source}: no column named '{response}' (columns: {', '.join(columns)})")
     if predictors is None:
-        predictors = [c for c in columns if c != response and _numeric_column(frame, c, source)]
+        kinds = column_kinds(frame, response)
+        for c in kinds.predictors:
+            _check_numbers(frame, c, source)
+        predictors = list(kinds.predictors)
+        if numeric_only and kinds.categorical:
+            raise InputError(
+                f"{source}: column '{kinds.categorical[0]}' is text (categorical): a streamed "
+                "fit takes numeric predictors only; name the predictors, or fit in memory"
+            )
         if not predictors:
-            raise InputError(f"{source}: no numeric predictor columns besides '{response}'")
+            raise InputError(f"{source}: no predictor columns besides '{response}'")
     predictors = [str(c) for c in predictors]
     for c in predictors:
         if c not in columns:
@@ -176,16 +164,13 @@ def select_columns(
     return frame, predictors
 
 
-def _numeric_column(frame: pd.DataFrame, column: str, source: str) -> bool:
-    """Whether ``column`` is numbers (a default predictor); an error when it is numbers but for
-    some cells (a typo, a thousands separator), which would otherwise drop it silently."""
+def _check_numbers(frame: pd.DataFrame, column: str, source: str) -> None:
+    """An error when default predictor ``column`` is numbers but for some cells (a typo, a
+    thousands separator): named here, before a block of rows is read (a text column is
+    categorical)."""
     s = frame[column]
-    if pd.api.types.is_bool_dtype(s) or pd.api.types.is_numeric_dtype(s):
-        return True
-    if s.dropna().empty or is_text(s):
-        return False
-    numeric_values(frame, column, source=source)  # raises, naming the first bad cell
-    return True
+    if not (pd.api.types.is_bool_dtype(s) or pd.api.types.is_numeric_dtype(s) or is_text(s)):
+        numeric_values(frame, column, source=source)  # raises, naming the first bad cell
 
 
 def checked_values(

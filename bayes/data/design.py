@@ -20,7 +20,6 @@ from bayes.data.columns import (
     checked_values,
     file_row,
     file_rows,
-    is_text,
     needed_columns,
     numeric_values,
     select_columns,
@@ -28,6 +27,7 @@ from bayes.data.columns import (
 )
 from bayes.data.formula import formula_intercept, split_formula
 from bayes.errors import InputError
+from elicit.columns_kind import column_kinds, is_text
 
 
 @dataclass(frozen=True, eq=False)
@@ -54,6 +54,14 @@ class Design:
         text columns); None when the design columns are the data columns.
     intercept : bool
         The model has an intercept (default); its coefficient is not a column of ``X``.
+    row_label : str or None
+        The data column that names the rows (an identifier, not a predictor; see
+        :mod:`elicit.columns_kind`).
+    labels : tuple of str
+        Its value at each row (empty without a row label).
+    notes : tuple of str
+        What became of the columns that are not predictors (the row label, the columns not
+        used), one line each, for the output.
     """
 
     response: str
@@ -64,6 +72,9 @@ class Design:
     dropped: int = 0
     terms: object | None = None
     intercept: bool = True
+    row_label: str | None = None
+    labels: tuple[str, ...] = ()
+    notes: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "X", read_only(self.X, float))
@@ -73,9 +84,16 @@ class Design:
     def n(self) -> int:
         return len(self.y)
 
+    @property
+    def output_notes(self) -> tuple[str, ...]:
+        """The notes a command shows with its results: the columns' and the reference levels'."""
+        return (*self.notes, *(self.terms.notes if self.terms is not None else ()))
+
     def frame(self) -> pd.DataFrame:
-        """The design as a data frame (response first)."""
+        """The design as a data frame (the row label, then the response, then the columns)."""
         data = {self.response: self.y, **{c: self.X[:, j] for j, c in enumerate(self.names)}}
+        if self.row_label is not None and self.labels and self.row_label not in data:
+            data = {self.row_label: list(self.labels), **data}
         return pd.DataFrame(data)
 
 
@@ -116,8 +134,11 @@ def build_design(
     Returns
     -------
     Design
-        Text predictors become categorical (treatment coding, see :mod:`bayes.data.terms`).
+        Text predictors become categorical (treatment coding, see :mod:`bayes.data.terms`);
+        without predictors or formula every text column is one, but an identifier (all values
+        distinct), which is the row label (:mod:`elicit.columns_kind`).
     """
+    named = predictors
     if formula is not None:
         response, formula, predictors = split_formula(
             formula, response=response, predictors=predictors,
@@ -130,6 +151,7 @@ def build_design(
             )
         intercept = formula_intercept(formula)
     frame, predictors = select_columns(frame, response, predictors, source=source)
+    kinds = column_kinds(frame, response, None if named is None and formula is None else predictors)
     sub = frame[[response, *predictors]]
     text = [c for c in predictors if is_text(sub[c])]
     if not intercept and formula is None and text:
@@ -152,7 +174,13 @@ def build_design(
     if X.base is not None:  # a view (one column): own the array before freezing it
         X = X.copy()
     X.flags.writeable = y.flags.writeable = False  # fresh arrays: Design keeps them uncopied
-    return Design(response, tuple(names), X, y, source, dropped, terms, intercept)
+    labels = ()
+    if kinds.row_label is not None:
+        kept = sub.notna().all(axis=1).to_numpy() if dropped else np.ones(len(sub), bool)
+        raw = frame[kinds.row_label].to_numpy()[kept]
+        labels = tuple("" if pd.isna(v) else str(v) for v in raw)
+    return Design(response, tuple(names), X, y, source, dropped, terms, intercept,
+                  kinds.row_label, labels, kinds.notes())  # fmt: skip
 
 
 def predictor_matrix(

@@ -178,7 +178,7 @@ def dask_factor(
             header = pd.read_csv(path, nrows=chunk_rows, **CSV_OPTIONS)
         except read_errors() as e:
             raise unreadable(given, e) from None
-    _, predictors = select_columns(header, response, predictors, source=source)
+    _, predictors = select_columns(header, response, predictors, source=source, numeric_only=True)
     args = (response, predictors, source, drop_missing)
     where = str(given)  # parse errors name the path as given, as in-memory reads do
 

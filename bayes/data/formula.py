@@ -19,7 +19,7 @@ from collections.abc import Mapping, Sequence
 import numpy as np
 import pandas as pd
 
-from bayes.data.grammar import check_formula, data_dependent
+from bayes.data.grammar import check_formula, data_dependent, quote_keywords
 from bayes.errors import InputError
 
 _TREATMENT = re.compile(r"\[T\.")  # formulaic writes a treatment-coded level as name[T.level]
@@ -58,7 +58,8 @@ def split_formula(
         Must be None: a formula replaces the predictor list.
     columns : sequence of str
         The data's columns: any of them named in the formula is a variable (formulaic
-        does not list the variables inside every transform).
+        does not list the variables inside every transform); one named as a Python
+        keyword (``yield``) needs no backquotes.
 
     Returns
     -------
@@ -71,6 +72,7 @@ def split_formula(
 
     if predictors is not None:
         raise InputError("give either formula or predictors, not both")
+    formula = quote_keywords(formula, columns)  # a column named yield or class
     text = check_formula(formula).strip()
     lhs_text, sep, rhs = text.partition("~")
     if not sep:

@@ -274,3 +274,21 @@ def formula_names(text: str) -> set[str]:
         elif kind == "name" and not called:
             out.add(tok)
     return out
+
+
+def quote_keywords(text: str, columns) -> str:
+    """``text`` with each bare name that is a Python keyword and one of the data's ``columns``
+    backquoted (``yield ~ nitrogen`` -> ```yield` ~ nitrogen``), so that a column may be named
+    ``yield`` or ``class`` without the user quoting it; anything else is left as written."""
+    if not isinstance(text, str):
+        return text
+    try:
+        toks = _tokens(text)
+    except _Refused:
+        return text  # check_formula names the problem
+    names, out, last = set(columns), [], 0
+    for kind, tok, pos in toks:
+        if kind == "name" and keyword.iskeyword(tok) and tok in names:
+            out += [text[last:pos], f"`{tok}`"]
+            last = pos + len(tok)
+    return "".join(out) + text[last:]

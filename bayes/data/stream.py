@@ -133,7 +133,7 @@ def fold(
     state, rows = None, 0
     for frame, done in chunks:
         if predictors is None:  # CSV without a predictor list: numeric columns of chunk 1
-            frame, predictors = select_columns(frame, response, source=source)
+            frame, predictors = select_columns(frame, response, source=source, numeric_only=True)
         block = block_moments(frame, response, predictors, source=source,
                               drop_missing=drop_missing)  # fmt: skip
         state = block if state is None else combine(state, block)

@@ -319,7 +319,10 @@ class Terms:
         for c in self.categorical:
             if c.name not in self.variables:
                 raise InputError(f"categorical '{c.name}' is not one of the variables")
-            if c.term.replace(" ", "") not in (c.name, f"C({c.name})", f"C(`{c.name}`)"):
+            if c.term != c.name and c.term.replace(" ", "") not in (
+                f"C({c.name})".replace(" ", ""),
+                f"C(`{c.name}`)".replace(" ", ""),
+            ):
                 raise InputError(f"term '{c.term}' is not '{c.name}' or C({c.name})")
             if len(c.levels) < 2 or len(set(c.levels)) != len(c.levels):
                 raise InputError(f"levels of '{c.name}' must be two or more distinct labels")
@@ -330,7 +333,8 @@ class Terms:
             for part in split_term(column):
                 found = self.level_of(part)
                 if found is None:
-                    check_formula(part, what="column")
+                    if part not in self.variables:  # a column named yield or soil type
+                        check_formula(part, what="column")
                 elif found[1] not in found[0].levels[1:]:
                     raise InputError(f"column '{column}': '{found[1]}' is not a level of "
                                      f"'{found[0].name}' other than its reference")  # fmt: skip

@@ -1,4 +1,5 @@
-"""The sentences of the report's findings, its first section (see `sections_findings`)."""
+"""The sentences of the report's findings, its first section (see `sections_findings`), and
+the caption of its table of the largest residuals (`residual_table`)."""
 
 from __future__ import annotations
 
@@ -45,3 +46,11 @@ NOT_SWEPT = (
 def conflict_finding(names: list[str]) -> str:
     return "Prior-data conflict: the data sit in the far tail of the prior of " + ", ".join(
         names) + " (see the sensitivity section)."  # fmt: skip
+
+
+def largest_residuals_caption(shown: int, of: int, row_label: str | None) -> str:
+    named = f"named by the row label {row_label}" if row_label else "numbered in the order fitted"
+    return (
+        f"The {shown} of the {of} rows with the largest residuals at the posterior mean ({named}); "
+        "a residual beyond about 3 noise sds deserves a look at that row's record."
+    )

@@ -10,6 +10,7 @@ from bayes.report.context import Context, coefficient_units
 from bayes.report.document import Block, Figure, Paragraph, Section
 from bayes.report.figures import DensityPanel, ForestRow, Interval
 from bayes.report.quantities import prior_dist, stated_ranges, x_sd, y_sd
+from bayes.report.residual_table import residual_table
 from bayes.report.smooth import DENSITY_DRAWS, rao_blackwell_density
 
 PREDICTIVE_ROWS = 2000  # the predictive check draws at most this many rows (seeded choice)
@@ -100,6 +101,7 @@ def _residual_blocks(ctx: Context) -> list[Block]:
     units = ctx.response_units
     blocks: list[Block] = [Figure("residuals", W.residuals_caption(sigma, units),
                                   F.residual_figure(fitted, y - fitted, sigma, units))]  # fmt: skip
+    blocks.append(residual_table(ctx, fitted, sigma))
     rows = np.arange(len(y))
     if len(rows) > PREDICTIVE_ROWS:
         rows = np.sort(np.random.default_rng(0).choice(rows, PREDICTIVE_ROWS, replace=False))

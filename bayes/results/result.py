@@ -185,6 +185,8 @@ class FitResult:
         out += wording.pool_misfit([(c.column, c.pool_error) for c in p.coefficients])
         dropped = self.data.dropped if self.data is not None else self.provenance.get("dropped", 0)
         out.append(wording.dropped_rows(int(dropped or 0)))
+        if self.data is not None:  # the row label and the columns not used
+            out.extend(self.data.notes)
         if self.terms is not None:
             out.extend(self.terms.notes)
         return tuple(n for n in out if n)
@@ -324,6 +326,8 @@ class FitResult:
             },
             "notes": list(self.notes),
             "provenance": jsonable(self.provenance),
+            "row_label": None if self.data is None else self.data.row_label,
+            "column_notes": [] if self.data is None else list(self.data.notes),
         }
 
     def text(self, digits: int = 6) -> str:

@@ -29,6 +29,8 @@ flat-prior limit: :mod:`bayes.sensitivity.priors`; the result:
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 
 from bayes.api import load_priors
@@ -227,4 +229,6 @@ def sweep_design(design, priors, **options) -> SweepResult:
         Passed to :func:`sweep`.
     """
     factor = factor_from_arrays(design.X, design.y, design.names, intercept=design.intercept)
-    return sweep(factor, priors, design.response, **options)
+    result = sweep(factor, priors, design.response, **options)
+    said = design.output_notes
+    return replace(result, notes=(*result.notes, *said)) if said else result

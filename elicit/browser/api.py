@@ -82,6 +82,8 @@ class Session:
                 key, entry = "noise", form.noise_entry(body)
             else:
                 key, entry = "coefficient", form.coefficient_entry(body, term.name)
+                if term.level is not None:  # a categorical level (elicit.questions)
+                    entry = {"name": term.name, "level": term.level, **entry}
         except form.FormError as exc:
             raise _Invalid(exc.fields) from None
         with warnings.catch_warnings(record=True) as caught:
