@@ -38,10 +38,13 @@ def plan_section(ctx: Context, plan, *, figures: bool = True) -> Section:
     gain = "nats" if plan.criterion == "D" else "fall in variance"
     blocks.append(Table("plan-runs", f"The planned runs in order of value (gain: {gain})",
                         headers, rows))  # fmt: skip
+    coefficient_names = {c["name"] for c in plan.coefficients if c["kind"] == "coefficient"}
     sds = tuple(
         (c["name"], c["kind"], fmt(c["sd_today"], 3), fmt(c["sd_after"], 3),
          f"{c['sd_after'] / c['sd_today']:.2f}" if c["sd_today"] else "-")
         for c in plan.coefficients
+        # a contrast that names one coefficient alone repeats that coefficient's row
+        if c["kind"] == "coefficient" or c["name"] not in coefficient_names
     )  # fmt: skip
     blocks.append(Paragraph(
         f"Expected information gain about the coefficients: {fmt(plan.gain_nats, 3)} nats. "
