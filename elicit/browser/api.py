@@ -182,7 +182,14 @@ class Session:
                 _, entry, candidate, notes = self._candidate(body)
             except _Invalid as bad:
                 return {"ok": False, "errors": bad.fields, "edges": _edges(body)}
-            self.doc = answers.save(candidate, self.study.out)
+            try:
+                self.doc = answers.save(candidate, self.study.out)
+            except OSError as exc:  # the file as it was (an atomic write), the answer not saved
+                raise ApiError(
+                    500,
+                    f"cannot write {self.study.out}: "
+                    f"{exc.strerror or exc}; the answer is not saved",
+                ) from None
             self.priors = candidate
             if entry.get("expert"):
                 self.expert = entry["expert"]

@@ -27,13 +27,14 @@ def check_host(host: str) -> str | None:
     if host in LOOPBACK:
         return None
     try:
-        if ipaddress.ip_address(host).is_unspecified:
-            raise InputError(
-                f"--host {host}: give the address the other machines will use, "
-                "not a wildcard (the server answers only to its own address)"
-            )
+        wildcard = ipaddress.ip_address(host).is_unspecified
     except ValueError:
-        pass  # a host name
+        wildcard = False  # a host name
+    if wildcard:
+        raise InputError(
+            f"--host {host}: give the address the other machines will use, "
+            "not a wildcard (the server answers only to its own address)"
+        )
     return (
         f"warning: serving on {host}: anyone on that network who has the printed address, "
         "token included, can change the prior file; use it only in the meeting room"
