@@ -108,7 +108,8 @@ class Session:
         what = f"change in {self.study.response} {wording.change(s.per, term.column, term.units)}"
         worst = views.worst_error(prior.dist(), s)
         return {
-            "column": term.column, "family": prior.family, "per": s.per, "marks": marks,
+            "column": term.column, "family": prior.family, "df": prior.df, "per": s.per,
+            "marks": marks,
             "xlabel": wording.axis(what, self._units()),
             "curve": curve, "worst": worst, "restated": again, "implied": rows,
             "words": {
