@@ -105,7 +105,7 @@
     showErrors({});
     showMethod();
     if (current.answered && current.view) renderView(current.view, []);
-    else schedule();
+    else { renderEmpty(); schedule(); }  // never another question's picture meanwhile
   }
 
   // The saved statement, back in the form's fields (shown, not editable, once answered).
