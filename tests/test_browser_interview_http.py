@@ -390,3 +390,18 @@ def test_the_command_refuses_a_wildcard_host_and_warns_for_another(tmp_path):
 
     assert check_host("127.0.0.1") is None and check_host("localhost") is None
     assert check_host("192.168.1.20").startswith("warning: serving on 192.168.1.20")
+
+
+def test_ctrl_c_stops_the_server_and_releases_the_lock(tmp_path):
+    out = tmp_path / "priors.toml"
+    proc, address = start(command(DEMO_CSV, out))
+    try:
+        assert Client(address).post("/api/accept", RANGE).json()["ok"] is True
+        proc.send_signal(signal.SIGINT)
+        printed, err = proc.communicate(timeout=60)
+    finally:
+        stop(proc)
+    assert proc.returncode == 0, err
+    assert b"stopped; accepted answers are in the prior file" in printed
+    assert not (tmp_path / "priors.toml.lock").exists()
+    assert read_prior_file(out).get("water_cement") is not None
