@@ -405,3 +405,14 @@ def test_ctrl_c_stops_the_server_and_releases_the_lock(tmp_path):
     assert b"stopped; accepted answers are in the prior file" in printed
     assert not (tmp_path / "priors.toml.lock").exists()
     assert read_prior_file(out).get("water_cement") is not None
+
+
+def test_a_predictor_named_like_the_noise_is_refused(tmp_path):
+    data = tmp_path / "d.csv"
+    data.write_text("noise,y\n0.1,2.0\n0.4,3.1\n0.9,4.2\n1.3,5.9\n")  # invented
+    env = dict(os.environ, PYTHONPATH=str(ROOT))
+    args = command(data, tmp_path / "p.toml", response="y")
+    run = subprocess.run(args, capture_output=True, text=True, timeout=300, cwd=ROOT, env=env)
+    assert run.returncode == 2
+    assert run.stderr.startswith("elicit: --browser: the data have a predictor named 'noise'")
+    assert not (tmp_path / "p.toml").exists() and not (tmp_path / "p.toml.lock").exists()

@@ -11,6 +11,7 @@ import ipaddress
 from collections.abc import Callable
 
 from elicit.browser.api import Session, Study
+from elicit.browser.form import NOISE
 from elicit.browser.server import LOOPBACK, InterviewServer
 from elicit.errors import InputError
 from elicit.outfile import OutputLock, check_writable
@@ -58,6 +59,9 @@ def serve(
         The prior file cannot be written or is locked by another interview, or the port is taken.
     """
     check_writable(study.out)
+    if any(t.column == NOISE for t in study.terms):
+        raise InputError(f"--browser: the data have a predictor named {NOISE!r}, the page's "
+                         "name for the noise sd; rename the column")  # fmt: skip
     with OutputLock(study.out):
         session = Session(study, expert=expert)  # the file as it is now that no one else writes
         try:
