@@ -416,3 +416,18 @@ def test_a_predictor_named_like_the_noise_is_refused(tmp_path):
     assert run.returncode == 2
     assert run.stderr.startswith("elicit: --browser: the data have a predictor named 'noise'")
     assert not (tmp_path / "p.toml").exists() and not (tmp_path / "p.toml.lock").exists()
+
+
+def test_the_terminal_interview_resumes_what_the_browser_saved(client, server):
+    out = server.session.study.out
+    bins = {**RANGE, "method": "bins", "bin_low": "-10", "bin_high": "-2", "bin_count": "4",
+            "chips": [2, 8, 7, 3]}  # fmt: skip
+    quantiles = {**RANGE, "column": "fly_ash", "method": "quantiles", "quantile_set": "wide",
+                 "q0": "-3", "q1": "-1", "q2": "2"}  # fmt: skip
+    for body in (bins, quantiles):
+        assert client.post("/api/accept", body).json()["ok"] is True
+    saved = out.read_bytes()
+    run = _terminal(out)  # no answers on stdin: it resumes, asks the next question, stops
+    assert "already answered: water_cement, fly_ash" in run.stdout, run.stdout
+    assert "curing_temp" in run.stdout and run.returncode == 2
+    assert out.read_bytes() == saved
