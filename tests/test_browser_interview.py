@@ -263,3 +263,49 @@ def test_the_other_experts_appear_only_after_answering(browser, tmp_path):
     finally:
         tab.close()
         stop(proc)
+
+
+# the layout at a projector's or a small laptop's width: nothing runs past the window, the
+# statement's column never reaches under the pictures, the chart's type is drawn at least 12 px,
+# the bins stand on one floor
+LAYOUT = """() => {
+  const form = document.querySelector("#statement").getBoundingClientRect();
+  const board = document.querySelector("#board").getBoundingClientRect();
+  const feedback = document.querySelector(".feedback").getBoundingClientRect();
+  const ticks = Array.from(document.querySelectorAll("#chart text"))
+    .map(t => t.getBoundingClientRect().height).filter(h => h > 0);
+  const floors = new Set(Array.from(document.querySelectorAll("#board .stack"))
+    .map(n => Math.round(n.getBoundingClientRect().bottom)));
+  return {floors: floors.size, page: document.documentElement.scrollWidth,
+          window: window.innerWidth,
+          form: form.right, board: board.right, feedback: feedback.left,
+          stacked: feedback.top >= form.bottom, type: Math.min(...ticks)};
+}"""
+
+
+@pytest.mark.parametrize("width", [1280, 800])
+def test_the_page_fits_the_window(browser, tmp_path, width):
+    proc, address = _server(tmp_path / "priors.toml")
+    tab = Page(browser, width=width)
+    try:
+        page = tab.open(address)
+        page.check("input[name=method][value=bins]")
+        page.fill("#bin_low", "-10")
+        page.fill("#bin_high", "-2")
+        page.fill("#bin_count", "12")
+        expect(page.locator("#board .bin")).to_have_count(12)
+        for i in range(12):
+            page.locator("#board .bin").nth(i).locator(".add").click()
+        page.locator("#board .bin").nth(5).locator(".add").click(click_count=8)
+        expect(page.locator("#chips-left")).to_have_text("Chips left to place: 0 of 20")
+        expect(page.locator("#chart path.fit")).to_have_count(1)
+        found = page.evaluate(LAYOUT)
+        assert found["page"] <= found["window"], found
+        assert found["board"] <= found["form"] + 0.5, found
+        assert found["stacked"] or found["form"] <= found["feedback"], found
+        assert found["type"] >= 12, found
+        assert found["floors"] == 1, found  # every bin's chips stand on one line
+        assert tab.errors == []
+    finally:
+        tab.close()
+        stop(proc)
