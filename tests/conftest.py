@@ -13,6 +13,7 @@ ROOT = Path(__file__).resolve().parents[1]
 NIST = ROOT / "tests" / "reference" / "nist-strd"  # copy of shared/reference/nist-strd
 DEMO = ROOT / "bayes" / "demo"
 GAUSSIAN_PRIORS = ROOT / "tests" / "data" / "priors_gaussian.toml"  # demo priors, all normal
+CHROMIUM = "/usr/bin/chromium"  # the Debian package chromium
 
 
 def lre(estimate: float, certified: float) -> float:
@@ -52,3 +53,15 @@ def _one_blas_thread():
 
     with threadpool_limits(limits=1, user_api="blas"):
         yield
+
+
+@pytest.fixture(scope="session")
+def chromium() -> str:
+    """Headless Chromium from Debian: installed with apt-get where missing (root, a CI
+    container), else the test is skipped with the reason; no browser comes by another route."""
+    from system_tools import install
+
+    reason = install(CHROMIUM, "chromium")
+    if reason:
+        pytest.skip(f"headless Chromium unavailable: {reason}")
+    return CHROMIUM

@@ -17,7 +17,6 @@ from system_tools import install
 
 pytestmark = pytest.mark.browser
 
-CHROMIUM = "/usr/bin/chromium"
 FLAGS = [
     "--headless",
     "--no-sandbox",
@@ -57,14 +56,6 @@ window.addEventListener("load", function () {
   document.body.appendChild(pre);
 });
 </script>"""
-
-
-@pytest.fixture(scope="session")
-def chromium() -> str:
-    reason = install(CHROMIUM, "chromium")
-    if reason:
-        pytest.skip(f"headless Chromium unavailable: {reason}")
-    return CHROMIUM
 
 
 @pytest.fixture(scope="module")

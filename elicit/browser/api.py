@@ -110,7 +110,8 @@ class Session:
         what = f"change in {self.study.response} {wording.change(s.per, term.column, term.units)}"
         worst = views.worst_error(prior.dist(), s)
         return {
-            "column": term.column, "family": prior.family, "per": s.per, "marks": marks,
+            "column": term.column, "family": prior.family, "df": prior.df, "per": s.per,
+            "marks": marks,
             "xlabel": wording.axis(what, self._units()),
             "curve": curve, "worst": worst, "restated": again, "implied": rows,
             "words": {
@@ -184,7 +185,14 @@ class Session:
                 _, entry, candidate, notes = self._candidate(body)
             except _Invalid as bad:
                 return {"ok": False, "errors": bad.fields, "edges": _edges(body)}
-            self.doc = answers.save(candidate, self.study.out)
+            try:
+                self.doc = answers.save(candidate, self.study.out)
+            except OSError as exc:  # the file as it was (an atomic write), the answer not saved
+                raise ApiError(
+                    500,
+                    f"cannot write {self.study.out}: "
+                    f"{exc.strerror or exc}; the answer is not saved",
+                ) from None
             self.priors = candidate
             if entry.get("expert"):
                 self.expert = entry["expert"]

@@ -11,6 +11,7 @@ import ipaddress
 from collections.abc import Callable
 
 from elicit.browser.api import Session, Study
+from elicit.browser.form import NOISE
 from elicit.browser.server import LOOPBACK, InterviewServer
 from elicit.errors import InputError
 from elicit.outfile import OutputLock, check_writable
@@ -27,13 +28,14 @@ def check_host(host: str) -> str | None:
     if host in LOOPBACK:
         return None
     try:
-        if ipaddress.ip_address(host).is_unspecified:
-            raise InputError(
-                f"--host {host}: give the address the other machines will use, "
-                "not a wildcard (the server answers only to its own address)"
-            )
+        wildcard = ipaddress.ip_address(host).is_unspecified
     except ValueError:
-        pass  # a host name
+        wildcard = False  # a host name
+    if wildcard:
+        raise InputError(
+            f"--host {host}: give the address the other machines will use, "
+            "not a wildcard (the server answers only to its own address)"
+        )
     return (
         f"warning: serving on {host}: anyone on that network who has the printed address, "
         "token included, can change the prior file; use it only in the meeting room"
@@ -57,6 +59,9 @@ def serve(
         The prior file cannot be written or is locked by another interview, or the port is taken.
     """
     check_writable(study.out)
+    if any(t.column == NOISE for t in study.terms):
+        raise InputError(f"--browser: the data have a predictor named {NOISE!r}, the page's "
+                         "name for the noise sd; rename the column")  # fmt: skip
     with OutputLock(study.out):
         session = Session(study, expert=expert)  # the file as it is now that no one else writes
         try:

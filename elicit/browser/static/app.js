@@ -105,12 +105,37 @@
     showErrors({});
     showMethod();
     if (current.answered && current.view) renderView(current.view, []);
-    else schedule();
+    else { renderEmpty(); schedule(); }  // never another question's picture meanwhile
+  }
+
+  // The saved statement, back in the form's fields (shown, not editable, once answered).
+  function savedForm(view) {
+    var mk = view.marks, form = {family: view.family, per: String(view.per), method: "range"};
+    if (view.df !== null && view.df !== undefined) form.df = String(view.df);
+    if (mk.kind === "range") {
+      form.low = String(mk.low); form.high = String(mk.high); form.mass = String(mk.mass);
+    } else if (mk.kind === "quantiles") {
+      form.method = "quantiles";
+      var probs = mk.points.map(function (p) { return p[0]; }).join(",");
+      Object.keys(state.quantile_sets).forEach(function (key) {
+        if (state.quantile_sets[key].join(",") !== probs) return;
+        form.quantile_set = key;
+        mk.points.forEach(function (p, i) { form["q" + i] = String(p[1]); });
+      });
+    } else if (mk.kind === "bins") {
+      form.method = "bins";
+      form.bin_low = String(mk.edges[0]);
+      form.bin_high = String(mk.edges[mk.edges.length - 1]);
+      form.bin_count = String(mk.edges.length - 1);
+      form.chips = mk.chips.slice();
+    }
+    return form;
   }
 
   function restoreForm(column) {
     var saved = {};
     try { saved = JSON.parse(localStorage.getItem(storeKey(column)) || "{}"); } catch (e) { saved = {}; }
+    if (current.answered && current.view) saved = savedForm(current.view);
     FIELDS.forEach(function (f) {
       var node = $(f);
       var fallback = {family: "normal", df: "5", per: "1", mass: "0.9", quantile_set: "quartiles",
@@ -121,6 +146,12 @@
     document.querySelectorAll('input[name="method"]').forEach(function (r) { r.checked = r.value === m; });
     chips = Array.isArray(saved.chips) ? saved.chips.slice() : [];
     edges = [];
+    if (current.answered && current.view && current.view.marks.kind === "bins") {
+      edges = current.view.marks.edges.slice();
+      drawBoard();
+    } else {
+      $("board").textContent = "";
+    }
   }
 
   function collect() {
@@ -248,13 +279,24 @@
             bars: bars, marks: marks, xlabel: view.xlabel};
   }
 
+  // The chart is drawn at the width it is shown (type stays readable in a narrow column) and
+  // drawn again when the window changes width.
+  var lastSpec = null;
+  function drawChart(spec) {
+    lastSpec = spec;
+    spec.width = Math.max(320, Math.round($("chart").parentNode.getBoundingClientRect().width));
+    spec.height = spec.width < 560 ? 280 : 300;
+    Draw.chart($("chart"), spec);
+  }
+  window.addEventListener("resize", function () { if (lastSpec) drawChart(lastSpec); });
+
   function renderEmpty() {
-    Draw.chart($("chart"), {x: [], empty: "Complete the statement to see the prior it gives."});
+    drawChart({x: [], empty: "Complete the statement to see the prior it gives."});
     $("words").textContent = "";
   }
 
   function renderView(view, notes) {
-    Draw.chart($("chart"), chartSpec(view));
+    drawChart(chartSpec(view));
     $("chart-caption").textContent = "The prior fitted to the statement (" + view.family + "), in the units of the statement: " + view.xlabel + ".";
     var w = $("words"), words = view.words;
     w.textContent = "";
@@ -282,7 +324,7 @@
       var curves = [{y: o.mine, cls: "fit", name: "this file's expert"}];
       o.experts.forEach(function (e) { curves.push({y: e.density, cls: "other", name: e.expert}); });
       if (o.pool) curves.push({y: o.pool.density, cls: "pool", name: "linear pool"});
-      Draw.chart($("chart"), {x: o.x, curves: curves, marks: [], xlabel: current.view.xlabel});
+      drawChart({x: o.x, curves: curves, marks: [], xlabel: current.view.xlabel});
       $("others-words").textContent = o.words;
     }).catch(fail);
   }
@@ -294,7 +336,7 @@
     api("/api/accept", collect()).then(function (r) {
       if (!r.ok) { showErrors(r.errors); status("Not saved: see the message beside the field."); return; }
       try { localStorage.removeItem(storeKey(current.column)); } catch (e) { /* nothing kept */ }
-      status("Saved to " + r.saved);
+      status("");  // the question's own note says it is saved
       return load(current.column);
     }).catch(fail);
   }
@@ -306,6 +348,7 @@
   }
 
   function summary() {
+    api("/api/state").then(function (s) { state = s; current = null; renderNav(); }).catch(fail);
     api("/api/summary").then(function (s) {
       showScreen("summary");
       $("summary-path").textContent = s.out;

@@ -37,7 +37,15 @@ var Draw = (function () {
     while (svg.firstChild) svg.removeChild(svg.firstChild);
     var W = spec.width || 640, H = spec.height || 300;
     svg.setAttribute("viewBox", "0 0 " + W + " " + H);
-    var m = {l: 46, r: 14, t: 38, b: 48};
+    // the legend in rows above the plot, clear of the marks' labels (text width estimated)
+    var legend = [], lx = 46, row = 0;
+    (spec.curves || []).filter(function (c) { return c.name; }).forEach(function (c) {
+      var w = 40 + 7.5 * c.name.length;
+      if (lx > 46 && lx + w > W - 14) { lx = 46; row += 1; }
+      legend.push({c: c, x: lx, y: 14 + 20 * row});
+      lx += w;
+    });
+    var m = {l: 46, r: 14, t: legend.length ? 62 + 20 * row : 38, b: 48};
     var xs = (spec.x || []).filter(function (v) { return v !== null; });
     if (spec.bars) xs = xs.concat(spec.bars.edges);
     (spec.marks || []).forEach(function (k) { xs.push(k.x); });
@@ -65,8 +73,11 @@ var Draw = (function () {
       svg.appendChild(el("line", {x1: px(0), x2: px(0), y1: m.t, y2: H - m.b, "class": "zero"}));
     }
     svg.appendChild(el("line", {x1: m.l, x2: W - m.r, y1: H - m.b, y2: H - m.b, "class": "axis"}));
-    svg.appendChild(el("text", {x: (m.l + W - m.r) / 2, y: H - 8, "text-anchor": "middle"},
-      spec.xlabel || ""));
+    var xlabel = spec.xlabel || "";  // smaller type where the label would run past the edge
+    var size = Math.min(15, (W - m.l - m.r) / (0.56 * Math.max(xlabel.length, 1)));
+    var xtext = el("text", {x: (m.l + W - m.r) / 2, y: H - 8, "text-anchor": "middle"}, xlabel);
+    xtext.style.fontSize = size.toFixed(1) + "px";  // through the CSSOM: the CSP allows it
+    svg.appendChild(xtext);
     svg.appendChild(el("text", {x: 12, y: (m.t + H - m.b) / 2, "text-anchor": "middle",
       transform: "rotate(-90 12 " + (m.t + H - m.b) / 2 + ")"}, "density"));
 
@@ -97,12 +108,10 @@ var Draw = (function () {
       svg.appendChild(el("text", {x: px(k.x), y: m.t - 6 - (i % 2) * 14, "text-anchor": "middle",
         "class": "legend"}, k.name));
     });
-    var legend = (spec.curves || []).filter(function (c) { return c.name; });
-    legend.forEach(function (c, i) {
-      var y = m.t + 14 + i * 16, x = W - m.r - 170;
-      svg.appendChild(el("line", {x1: x, x2: x + 22, y1: y - 4, y2: y - 4,
-        "class": c.cls === "fit" ? "fitline" : c.cls}));
-      svg.appendChild(el("text", {x: x + 28, y: y, "class": "legend"}, c.name));
+    legend.forEach(function (item) {
+      svg.appendChild(el("line", {x1: item.x, x2: item.x + 22, y1: item.y, y2: item.y,
+        "class": item.c.cls === "fit" ? "fitline" : item.c.cls}));
+      svg.appendChild(el("text", {x: item.x + 28, y: item.y + 5, "class": "legend"}, item.c.name));
     });
   }
 
