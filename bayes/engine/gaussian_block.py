@@ -18,22 +18,30 @@ so a draw costs the same at any n. Three ways to draw, chosen once per model:
   triangular solve; used when the data triangle is ill-conditioned or not square.
 * ``"bcm"``: fewer rows than predictors and a diagonal prior precision: the algorithm of
   Bhattacharya, Chakraborty and Mallick (2016) draws theta from an m x m system
-  ``Phi D Phi' + I`` (m data rows), formed by one symmetric rank-m product (``syrk``,
-  m^2 p flops) and factorised by Cholesky, instead of a p x p one.
+  ``Phi D Phi' + I`` (m data rows, m^2 p flops to form), instead of a p x p one. With an
+  unknown noise sd this route draws sigma and gamma together given the mixing rows
+  (:meth:`GaussianBlock.draw_with_noise`): sigma from its density with the coefficients
+  integrated out, then gamma given it. With more predictors than rows the data cannot pin
+  sigma down through the coefficients, and alternating the two (sigma given gamma) moves
+  sigma by tiny steps (Rajaratnam and Sparks, 2015: the Bayesian lasso's slow noise
+  chain when p > n).
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
 from scipy import linalg
-from scipy.linalg import blas, lapack
+from scipy.linalg import lapack
 
 from bayes.arrays import ReadOnlyArrays
 from bayes.engine.likelihood import data_rows
 from bayes.problem import DataFactor, ScaledPrior
 
+SLICE_WIDTH = 0.5  # first interval of the slice sampler in log sigma
+SLICE_STEPS = 200  # bound on each of its loops
 CHOLESKY_COND = 1e5  # largest 1-norm condition estimate of the scaled data triangle for "cholesky"
 
 _geqrf, _geqrf_lwork = linalg.get_lapack_funcs(("geqrf", "geqrf_lwork"), (np.empty((1, 1)),))
@@ -122,6 +130,83 @@ class GaussianBlock(ReadOnlyArrays):
         gamma[f.slopes] = c + bcm_step(f.R11 / sigma, target, 1.0 / full_prec[f.slopes], rng)
         return gamma
 
+    def draw_with_noise(self, rng, sigma: float, prec, loc, noise) -> tuple[np.ndarray, float]:
+        """``(gamma, sigma)`` given the mixing rows, bcm route, unknown noise.
+
+        With ``delta = theta - c ~ N(0, D)`` integrated out, the m data rows
+        ``z = r12 - R11 c`` are ``N(0, s I + K)``, ``s = sigma^2``, ``K = R11 D R11'``; the
+        intercept's row integrates to ``s^(1/2)`` (flat) or
+        ``s^(1/2) (s / n + v0)^(-1/2) exp(-l0^2 / (2 (s / n + v0)))`` (prior N(l0, v0)).
+        With ``K = V diag(lambda) V'`` (one ``eigh``, m^3 flops) the log density of
+        ``u = log sigma``,
+        ``-a log s - b / s + (m - n) / 2 log s - sum log(s + lambda) / 2
+        - sum w^2 / (s + lambda) / 2`` plus the intercept's term (``w = V'z``, noise prior
+        InvGamma(a, b), Jeffreys a = b = 0), costs O(m) per point: one slice-sampling step
+        (Neal, 2003) in u, started at the current sigma, leaves it invariant. Then gamma is
+        the BCM draw at the new sigma, its m x m solve through the same eigenvectors.
+        """
+        f = self.factor
+        full_prec, full_loc = np.diag(self.prior_gram).copy(), self.loc.copy()
+        full_prec[self.mix], full_loc[self.mix] = prec, loc
+        c, d = full_loc[f.slopes], 1.0 / full_prec[f.slopes]
+        z = f.r12 - f.R11 @ c
+        PD = f.R11 * d
+        lam, V = linalg.eigh(PD @ f.R11.T, driver="evd", check_finite=False)
+        lam = np.maximum(lam, 0.0)  # K is positive semi-definite; rounding can dip below 0
+        w2 = (V.T @ z) ** 2
+        m, n, a, b = len(z), f.n, noise.shape, noise.scale
+        p0, l0 = (full_prec[0], full_loc[0]) if f.intercept else (0.0, 0.0)
+
+        def log_density(u: float) -> float:
+            s = math.exp(2.0 * u)
+            value = (-a + (m - n) / 2) * 2.0 * u - b / s
+            value -= 0.5 * (np.sum(np.log(s + lam)) + np.sum(w2 / (s + lam)))
+            if f.intercept:
+                value += u
+                if p0 > 0:
+                    t = s / n + 1.0 / p0
+                    value -= 0.5 * math.log(t) + l0 * l0 / (2.0 * t)
+            return float(value)
+
+        sigma = math.exp(slice_step(log_density, math.log(sigma), rng, SLICE_WIDTH))
+        s = sigma * sigma
+        gamma = np.empty(self.k)
+        if f.intercept:
+            a_prec = n / s + p0
+            gamma[0] = p0 * l0 / a_prec + rng.standard_normal() / math.sqrt(a_prec)
+        u0 = np.sqrt(d) * rng.standard_normal(len(d))
+        v = (f.R11 @ u0) / sigma + rng.standard_normal(m)
+        # (Phi D Phi' + I)^-1 = s (K + s I)^-1 = s V diag(1 / (lambda + s)) V', Phi = R11 / sigma
+        w = s * (V @ ((V.T @ (z / sigma - v)) / (lam + s)))
+        gamma[f.slopes] = c + u0 + PD.T @ w / sigma
+        return gamma, sigma
+
+
+def slice_step(logf, x0: float, rng: np.random.Generator, width: float) -> float:
+    """One slice-sampling update of a scalar (Neal, 2003: stepping out, then shrinkage).
+
+    Leaves the density ``exp(logf)`` invariant; ``width`` sets the first interval's size,
+    not the answer. Bounded: at most :data:`SLICE_STEPS` steps out on each side and
+    :data:`SLICE_STEPS` shrinkages (the last keeps ``x0``, a valid if lazy move).
+    """
+    level = logf(x0) + math.log(rng.random())
+    lo = x0 - width * rng.random()
+    hi = lo + width
+    for _ in range(SLICE_STEPS):
+        if logf(lo) <= level:
+            break
+        lo -= width
+    for _ in range(SLICE_STEPS):
+        if logf(hi) <= level:
+            break
+        hi += width
+    for _ in range(SLICE_STEPS):
+        x = lo + (hi - lo) * rng.random()
+        if logf(x) > level:
+            return x
+        lo, hi = (x, hi) if x < x0 else (lo, x)
+    return x0
+
 
 def solve_stacked(S: np.ndarray, k: int, z: np.ndarray, lwork: int) -> np.ndarray:
     """``T^-1 (Q' t + z)`` for ``[M, t] = Q [T, Q't]``: the mean plus ``T^-1 z``.
@@ -145,19 +230,18 @@ def bcm_step(
     Bhattacharya, Chakraborty and Mallick (2016), with ``Phi = R11`` and
     ``z = target`` already divided by sigma and ``D = diag(variance)``. The m x m
     matrix ``Phi D Phi' + I`` is the algorithm's own system (no cross product of
-    the data is solved), formed as ``B B' + I`` with ``B = Phi D^(1/2)`` by ``syrk`` (its
-    upper triangle only: half the flops of a general product); its eigenvalues are at
-    least 1, so its Cholesky factorisation cannot break down.
+    the data is solved); its eigenvalues are at least 1, so its Cholesky factorisation
+    cannot break down. (OpenBLAS's ``syrk``, half the flops, measured slower than this
+    general product on one thread.)
     """
     m = R11.shape[0]
-    root = np.sqrt(variance)
-    u = root * rng.standard_normal(len(variance))
+    u = np.sqrt(variance) * rng.standard_normal(len(variance))
     v = R11 @ u + rng.standard_normal(m)
-    B = R11 * root
-    M = blas.dsyrk(1.0, B)  # upper triangle of B B'
+    PD = R11 * variance
+    M = PD @ R11.T
     M[np.diag_indices(m)] += 1.0
-    w = linalg.cho_solve(linalg.cho_factor(M, lower=False, check_finite=False), target - v)
-    return u + root * (B.T @ w)
+    w = linalg.cho_solve(linalg.cho_factor(M, lower=True, check_finite=False), target - v)
+    return u + PD.T @ w
 
 
 def gaussian_block(

@@ -172,6 +172,7 @@ def _run_chain(model: _Model, rng, draws: int, warmup: int, tick: Callable[[int]
         tick(warmup + draws)
         return gamma_out, sigma_out
     draw_gamma = model.block.draw
+    joint = model.route == "bcm" and not noise.known
     if noise.known:
         s2 = noise.sd**2
     else:  # dispersed around the variance of the response
@@ -179,9 +180,13 @@ def _run_chain(model: _Model, rng, draws: int, warmup: int, tick: Callable[[int]
     prec = _initial_mixing(model, rng)
     shape = noise.shape + f.n / 2
     for it in range(warmup + draws):  # bounded: sample() caps warmup + draws at MAX_SWEEPS
-        gamma = draw_gamma(rng, np.sqrt(s2), prec.prec, prec.loc)
-        if not noise.known:
-            s2 = (noise.scale + float(residual_ss(f, gamma)) / 2) / rng.gamma(shape)
+        if joint:  # sigma with gamma integrated out, then gamma (gaussian_block)
+            gamma, sigma = model.block.draw_with_noise(rng, np.sqrt(s2), prec.prec, prec.loc, noise)
+            s2 = sigma * sigma
+        else:
+            gamma = draw_gamma(rng, np.sqrt(s2), prec.prec, prec.loc)
+            if not noise.known:
+                s2 = (noise.scale + float(residual_ss(f, gamma)) / 2) / rng.gamma(shape)
         prec = _draw_mixing(model, rng, gamma)
         # one sum catches any inf or nan (finite draws summing past 1e308 are no better)
         if not math.isfinite(s2 + float(gamma.sum()) + float(prec.prec.sum())):
