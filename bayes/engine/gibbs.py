@@ -22,13 +22,13 @@ Casella (2008) the coefficients' scale mixture is independent of sigma:
   and are drawn in one block; given the coefficients
   ``sigma^2 ~ InvGamma(shape + n / 2, scale + RSS(gamma) / 2)``.
 
-The coefficient block is drawn from one QR factorisation per sweep of the
-stacked rows ``[A / sigma; P; diag(1 / tau)]`` (``A`` the data rows) and one
-triangular solve, so the cross-product matrix of the data is never formed. When
-there are fewer rows than predictors and the prior precision is diagonal, the
-algorithm of Bhattacharya, Chakraborty and Mallick (2016) draws theta with an
-m x m system instead of a p x p one. With Gaussian priors and a known noise sd
-nothing changes between sweeps: the draws are independent, from one factorisation.
+The coefficient block is drawn by :mod:`bayes.engine.gaussian_block` from the k x k data
+triangle and the prior rows (a Cholesky factorisation of the conditional precision when the
+triangle is well conditioned, else one QR of the stacked rows; the algorithm of Bhattacharya,
+Chakraborty and Mallick (2016) with an m x m system when there are fewer rows than predictors
+and the prior precision is diagonal), so the data's size n never enters a sweep. With
+Gaussian priors and a known noise sd nothing changes between sweeps: the draws are
+independent, from one factorisation.
 """
 
 from __future__ import annotations
@@ -38,21 +38,17 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import linalg
 
 from bayes.arrays import ReadOnlyArrays
+from bayes.engine.gaussian_block import GaussianBlock, gaussian_block, solve_stacked
 from bayes.engine.labels import PriorState, mixed_prior_draws, mixed_rows
-from bayes.engine.likelihood import check_prior, data_rows, residual_ss
+from bayes.engine.likelihood import check_prior, residual_ss
 from bayes.engine.mixture_prior import MixedCoordinate, proper_stand_in
 from bayes.errors import InputError
 from bayes.problem import DataFactor, ScaledPrior
 from bayes.settings import DEFAULT_SAMPLER, SamplerSettings
 
 MAX_SWEEPS = 10_000_000  # sweeps per chain (warm-up + kept draws): a run never loops longer
-
-_geqrf, _geqrf_lwork, _trtrs = linalg.get_lapack_funcs(
-    ("geqrf", "geqrf_lwork", "trtrs"), (np.empty((1, 1)),)
-)
 
 
 @dataclass(frozen=True, eq=False)
@@ -112,101 +108,20 @@ class _Model(ReadOnlyArrays):
     stu: np.ndarray  # indices of Student-t coordinates
     mixed: tuple[MixedCoordinate, ...]  # coordinates with a mixture prior (flat in ``prior``)
     mix: np.ndarray  # lap, stu, then the mixed coordinates: one diagonal row each
-    route: str  # "fixed", "stacked" or "bcm"
-    template: np.ndarray  # stacked rows [A, b; P, P mu; mixing rows], (rows, k + 1)
-    n_data: int  # number of data rows at the top of the template
-    prior_prec: np.ndarray  # (k,) diagonal prior precision of the Gaussian part (bcm route)
-    lwork: int  # LAPACK workspace for the QR of the template
+    route: str  # "fixed", or the block's: "cholesky", "stacked" or "bcm"
+    block: GaussianBlock
 
 
 def _model(factor: DataFactor, prior: ScaledPrior, mixed: tuple = ()) -> _Model:
     check_prior(factor, proper_stand_in(prior, mixed))
-    k = factor.k
     fam = np.array(prior.family)
     lap = np.flatnonzero(fam == "laplace")
     stu = np.flatnonzero(fam == "student_t")
     mix = np.concatenate([lap, stu, [m.index for m in mixed]]).astype(int)
-    A, b = data_rows(factor)
-    P = prior.root_precision
-    template = np.zeros((A.shape[0] + P.shape[0] + len(mix), k + 1))
-    template[: A.shape[0]] = np.column_stack([A, b])
-    template[A.shape[0] : A.shape[0] + P.shape[0]] = np.column_stack([P, P @ prior.mean])
-    # The prior's Gaussian part is diagonal when P'P is (P is a prior root, not data).
-    gram = P.T @ P
-    diagonal = not np.any(gram - np.diag(np.diag(gram)))
-    if len(mix) == 0 and prior.noise.known:
-        route = "fixed"
-    elif factor.n < factor.p and diagonal and "flat" not in prior.family[factor.slopes]:
-        route = "bcm"
-    else:
-        route = "stacked"
     loc = np.where(fam == "flat", 0.0, prior.mean)
-    lwork = int(_geqrf_lwork(*template.shape)[0])
-    return _Model(
-        factor, prior, k, loc, lap, stu, tuple(mixed), mix, route, template, A.shape[0],
-        np.diag(gram), lwork,
-    )  # fmt: skip
-
-
-def _solve_stacked(S: np.ndarray, k: int, z: np.ndarray, lwork: int) -> np.ndarray:
-    """``T^-1 (Q' t + z)`` for ``[M, t] = Q [T, Q't]``: the mean plus ``T^-1 z``.
-
-    ``S = [M, t]`` (Fortran order, overwritten) has k + 1 columns; z is (k,) or
-    (k, draws). LAPACK is called directly: this runs once per sweep.
-    """
-    qr = _geqrf(S, lwork=lwork, overwrite_a=True)[0]
-    rhs = qr[:k, k, None] + (z if z.ndim == 2 else z[:, None])
-    x, info = _trtrs(qr[:k, :k], rhs, overwrite_b=True)
-    if info != 0:
-        raise FloatingPointError("singular conditional precision: the posterior is improper")
-    return x if z.ndim == 2 else x[:, 0]
-
-
-def _draw_stacked(model: _Model, rng, sigma: float, state: PriorState) -> np.ndarray:
-    """gamma | sigma, mixing rows: QR of the stacked rows, one triangular solve."""
-    S = model.template.copy(order="F")
-    S[: model.n_data] /= sigma
-    root = np.sqrt(state.prec)
-    rows = S.shape[0] - len(model.mix) + np.arange(len(model.mix))
-    S[rows, model.mix] = root
-    S[rows, -1] = root * state.loc
-    return _solve_stacked(S, model.k, rng.standard_normal(model.k), model.lwork)
-
-
-def _draw_bcm(
-    R11: np.ndarray, target: np.ndarray, variance: np.ndarray, rng: np.random.Generator
-) -> np.ndarray:
-    """Draw delta ~ N(S Phi' z, S), S = (Phi'Phi + D^-1)^-1, for Phi (m x p) with m < p.
-
-    Bhattacharya, Chakraborty and Mallick (2016), with ``Phi = R11`` and
-    ``z = target`` already divided by sigma and ``D = diag(variance)``. The m x m
-    matrix ``Phi D Phi' + I`` is the algorithm's own system (no cross product of
-    the data is solved); its eigenvalues are at least 1, so its Cholesky
-    factorisation cannot break down.
-    """
-    m = R11.shape[0]
-    u = np.sqrt(variance) * rng.standard_normal(len(variance))
-    v = R11 @ u + rng.standard_normal(m)
-    PD = R11 * variance
-    M = PD @ R11.T
-    M[np.diag_indices(m)] += 1.0
-    w = linalg.cho_solve(linalg.cho_factor(M, lower=True, check_finite=False), target - v)
-    return u + PD.T @ w
-
-
-def _draw_gamma_bcm(model: _Model, rng, sigma: float, state: PriorState) -> np.ndarray:
-    """gamma | sigma, mixing rows when n < p and the prior precision is diagonal."""
-    f = model.factor
-    full_prec, full_loc = model.prior_prec.copy(), model.loc.copy()
-    full_prec[model.mix], full_loc[model.mix] = state.prec, state.loc
-    gamma = np.empty(model.k)
-    if f.intercept:  # separate: its data term n alpha^2 / sigma^2 is uncoupled
-        a_prec = f.n / sigma**2 + full_prec[0]
-        gamma[0] = full_prec[0] * full_loc[0] / a_prec + rng.standard_normal() / np.sqrt(a_prec)
-    loc = full_loc[f.slopes]
-    target = (f.r12 - f.R11 @ loc) / sigma
-    gamma[f.slopes] = loc + _draw_bcm(f.R11 / sigma, target, 1.0 / full_prec[f.slopes], rng)
-    return gamma
+    block = gaussian_block(factor, prior, mix, loc)
+    route = "fixed" if len(mix) == 0 and prior.noise.known else block.route
+    return _Model(factor, prior, factor.k, loc, lap, stu, tuple(mixed), mix, route, block)
 
 
 def _laplace_precision(rng, b: np.ndarray, d: np.ndarray) -> np.ndarray:
@@ -248,14 +163,16 @@ def _run_chain(model: _Model, rng, draws: int, warmup: int, tick: Callable[[int]
     gamma_out = np.empty((draws, model.k))
     sigma_out = np.empty(draws)
     if model.route == "fixed":
-        S = model.template.copy(order="F")
-        S[: model.n_data] /= noise.sd
+        block = model.block
+        S = block.template.copy(order="F")
+        S[: block.n_data] /= noise.sd
         z = rng.standard_normal((model.k, draws))
-        gamma_out[:] = _solve_stacked(S, model.k, z, model.lwork).T
+        gamma_out[:] = solve_stacked(S, model.k, z, block.lwork).T
         sigma_out[:] = noise.sd
         tick(warmup + draws)
         return gamma_out, sigma_out
-    draw_gamma = _draw_gamma_bcm if model.route == "bcm" else _draw_stacked
+    draw_gamma = model.block.draw
+    joint = model.route == "bcm" and not noise.known
     if noise.known:
         s2 = noise.sd**2
     else:  # dispersed around the variance of the response
@@ -263,9 +180,13 @@ def _run_chain(model: _Model, rng, draws: int, warmup: int, tick: Callable[[int]
     prec = _initial_mixing(model, rng)
     shape = noise.shape + f.n / 2
     for it in range(warmup + draws):  # bounded: sample() caps warmup + draws at MAX_SWEEPS
-        gamma = draw_gamma(model, rng, np.sqrt(s2), prec)
-        if not noise.known:
-            s2 = (noise.scale + float(residual_ss(f, gamma)) / 2) / rng.gamma(shape)
+        if joint:  # sigma with gamma integrated out, then gamma (gaussian_block)
+            gamma, sigma = model.block.draw_with_noise(rng, np.sqrt(s2), prec.prec, prec.loc, noise)
+            s2 = sigma * sigma
+        else:
+            gamma = draw_gamma(rng, np.sqrt(s2), prec.prec, prec.loc)
+            if not noise.known:
+                s2 = (noise.scale + float(residual_ss(f, gamma)) / 2) / rng.gamma(shape)
         prec = _draw_mixing(model, rng, gamma)
         # one sum catches any inf or nan (finite draws summing past 1e308 are no better)
         if not math.isfinite(s2 + float(gamma.sum()) + float(prec.prec.sum())):

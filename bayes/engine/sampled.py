@@ -1,6 +1,8 @@
 """Sampled fits: Gibbs draws and the posterior mode, gathered into a Posterior.
 
-Used when a Laplace or Student-t prior is present (or on request).
+Used when a Laplace or Student-t prior is present (or on request). With Gaussian priors
+and an unknown noise sd, "sampled" means independent draws from the exact posterior
+(:mod:`bayes.engine.exact_draws`): the same outputs, no chain.
 """
 
 from __future__ import annotations
@@ -32,6 +34,7 @@ def sampled_posterior(
         Posterior and prior draws, coordinates named after the columns.
     """
     from bayes.engine.diagnostics import to_inference_data
+    from bayes.engine.exact_draws import IID_DETAIL, exact_iid_applies, exact_sample
     from bayes.engine.gibbs import sample
     from bayes.engine.modes import MODE_KIND, posterior_mode
     from bayes.engine.quadrature import check_proper
@@ -41,13 +44,16 @@ def sampled_posterior(
     # Thousands of small factorisations per chain: bayes.api.fit_factor, the one caller, runs
     # this on one BLAS thread unless the problem is wide (bayes.threads).
     mode = posterior_mode(factor, prior)  # first: cheap, and its errors say more
-    d = sample(factor, prior, sampler, progress=progress)
+    iid = exact_iid_applies(prior)  # Gaussian priors, noise unknown: no chain at all
+    d = (exact_sample if iid else sample)(factor, prior, sampler, progress=progress)
     nat = to_natural(factor, d.gamma)
     known = prior.noise.known
     post = DrawsPosterior(
         names=names,
         method="sampled",
-        detail=f"Gibbs sampling, {sampler.describe()}",
+        detail=IID_DETAIL.format(sampler=sampler)
+        if iid
+        else f"Gibbs sampling, {sampler.describe()}",
         mode=to_natural(factor, mode.gamma),
         mode_kind="posterior mode" if known else MODE_KIND.replace("gamma", "beta"),
         sigma_mode=float(mode.sigma),
