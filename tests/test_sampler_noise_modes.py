@@ -13,6 +13,7 @@ import json
 import numpy as np
 import pandas as pd
 import pytest
+from test_noise_modes import _balanced, _data
 
 from bayes.api import fit
 from bayes.data.factor import factor_from_arrays
@@ -20,7 +21,6 @@ from bayes.engine.crossings import NoiseModes, basin_visits, gaussian_stand_in
 from bayes.engine.scaled import scaled_prior
 from bayes.settings import SamplerSettings
 from elicit.validate import parse_priors
-from test_noise_modes import _balanced, _data
 
 SAMPLER = SamplerSettings(chains=4, draws=1000, warmup=300, seed=3)
 

@@ -15,8 +15,8 @@ the modes' basins (:func:`basin_visits`) and judged.
 Likewise with a mixture prior of well-separated components the chains may not switch a
 coefficient's component label. Given the coefficient the label is categorical
 (:mod:`bayes.engine.labels`), so its conditional probabilities are computed from the
-coefficient draws (:func:`label_switching`): their between-chain R-hat and how often the most
-probable component changes between successive draws.
+coefficient draws (:func:`label_switching`): the R-hat of the indicators of the most
+probable component and how often that component changes between successive draws.
 """
 
 from __future__ import annotations
@@ -183,8 +183,8 @@ class LabelSwitching:
     switch_rate : ndarray
         Fraction of successive draws whose most probable component changes.
     r_hat : ndarray
-        Split R-hat (arviz) of the component probabilities given the coefficient, the
-        worst over the components (nan when they never vary).
+        Split R-hat (arviz) of the label indicators (the most probable component given the
+        coefficient is component k), the worst over the components (nan when constant).
     stuck : ndarray of bool
         The chains disagree (R-hat above :data:`bayes.engine.diagnostics.R_HAT_MAX`), or
         the component probabilities vary across draws (several components in play) while
@@ -211,7 +211,8 @@ def label_switching(gamma: np.ndarray, mixed: tuple) -> LabelSwitching:
         rates.append(switches / max(best[:, 1:].size, 1))
         in_play = np.mean(prob, axis=(0, 1))
         varied = int(np.sum(in_play > NOISE_MODE_MASS)) > 1
-        r = max((chains_r_hat(prob[..., k]) for k in range(prob.shape[-1])), default=math.nan)
+        hat = [chains_r_hat(best == k) for k in range(prob.shape[-1])]
+        r = max((h for h in hat if not math.isnan(h)), default=math.nan)
         hats.append(r)
         stuck.append(bool(r > R_HAT_MAX) or (varied and switches < MIN_CROSSINGS))
     return LabelSwitching(
@@ -267,7 +268,8 @@ def crossing_arrays(post) -> dict:
         out["noise_cuts"] = np.array(post.noise_cuts, dtype=float)
         out["noise_modes_exact"] = np.array(float(post.noise_modes_exact))
     if post.label_switching:
-        out["label_columns"] = np.array([r[0] for r in post.label_switching], dtype=str)
+        index = [post.names.index(r[0]) for r in post.label_switching]  # numbers only in npz
+        out["label_index"] = np.array(index, dtype=np.int64)
         out["label_switching"] = np.array([r[1:] for r in post.label_switching], dtype=float)
     return out
 
@@ -284,10 +286,12 @@ def crossing_fields_of(z) -> dict:
             out["noise_modes_exact"] = (
                 bool(z["noise_modes_exact"]) if "noise_modes_exact" in z else False
             )
-    if "label_columns" in z and "label_switching" in z:
+    if "label_index" in z and "label_switching" in z:
         rows = np.asarray(z["label_switching"], dtype=float).reshape(-1, 3)
-        columns = [str(c) for c in np.asarray(z["label_columns"]).reshape(-1)]
-        if len(columns) == len(rows):
+        index = np.asarray(z["label_index"]).reshape(-1).astype(int)
+        names = [str(c) for c in z["names"]]
+        if len(index) == len(rows) and np.all((index >= 0) & (index < len(names))):
+            columns = [names[i] for i in index]
             out["label_switching"] = tuple(
                 (c, float(r), float(h), bool(s)) for c, (r, h, s) in zip(columns, rows, strict=True)
             )

@@ -267,8 +267,12 @@ def indicator_mcse(indicator: np.ndarray) -> float:
 
 
 def chains_r_hat(values: np.ndarray) -> float:
-    """Rank-normalised split R-hat (arviz) of chains of values (chains, draws); nan if constant."""
+    """Split R-hat (arviz, without rank normalisation: meant for indicators, whose ties the
+    rank transform cannot split) of chains of values (chains, draws); nan if constant."""
     v = np.asarray(values, dtype=float)
     if np.ptp(v) == 0.0 or v.shape[0] * v.shape[1] < 8:
         return math.nan
-    return float(_arviz().rhat(v))
+    half = v.shape[1] // 2
+    if all(np.ptp(part) == 0.0 for c in v for part in (c[:half], c[half:])):
+        return math.inf  # every half-chain constant, not all alike: they disagree completely
+    return float(_arviz().rhat(v, method="split"))

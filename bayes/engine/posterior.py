@@ -261,7 +261,7 @@ class DrawsPosterior(Posterior):
         The masses are this posterior's own (Gaussian priors), not a stand-in's.
     label_switching : tuple of (str, float, float, bool)
         Per coefficient with a mixture prior: its label switching rate, the R-hat of its
-        component probabilities and whether the chains look stuck
+        label indicators and whether the chains look stuck
         (:func:`bayes.engine.crossings.label_switching`).
     """
 

@@ -171,7 +171,7 @@ def noise_modes_not_crossed(check: Mapping) -> str:
 def labels_not_switched(rows: Sequence[tuple[str, float, float, bool]]) -> str | None:
     """The warning when the chains do not switch a mixture prior's component labels.
 
-    ``rows`` holds ``(column, switching rate, R-hat of the component probabilities, stuck)``
+    ``rows`` holds ``(column, switching rate, R-hat of the label indicators, stuck)``
     per mixed coefficient (:attr:`bayes.engine.posterior.DrawsPosterior.label_switching`);
     the stuck ones are named.
     """
@@ -179,8 +179,8 @@ def labels_not_switched(rows: Sequence[tuple[str, float, float, bool]]) -> str |
     if not rows:
         return None
     each = "; ".join(
-        f"{c}: label switching rate {fmt(r, 2)} per draw, R-hat of the component "
-        f"probabilities {'n/a' if h != h else fmt(h, 4)}"
+        f"{c}: label switching rate {fmt(r, 2)} per draw, R-hat of the label "
+        f"indicators {'n/a' if h != h else fmt(h, 4)}"
         for c, r, h in rows
     )
     return (
