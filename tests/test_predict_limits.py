@@ -25,8 +25,9 @@ def fit_dir(tmp_path_factory):
     x, z = rng.uniform(1, 2, 20), rng.uniform(1, 2, 20)
     y = 1 + x + x**2 + x * z + 0.1 * rng.standard_normal(20)
     pd.DataFrame({"x": x, "z": z, "y": y}).to_csv(folder / "data.csv", index=False)
-    res = CliRunner().invoke(main, ["fit", str(folder / "data.csv"), "--formula",
-                                    "y ~ x + I(x**2) + x:z", "--save", str(folder / "fit")])  # fmt: skip
+    args = ["fit", folder / "data.csv", "--formula", "y ~ x + I(x**2) + x:z", "--save",
+            folder / "fit"]  # fmt: skip
+    res = CliRunner().invoke(main, [str(a) for a in args])
     assert res.exit_code == 0, res.output
     return folder / "fit"
 
