@@ -111,7 +111,7 @@ def reference_noise_modes(
         return None
     try:
         quad = noise_quadrature(factor, stand_in)
-    except InputError:
+    except (InputError, ValueError, np.linalg.LinAlgError):  # no reference: nothing to judge by
         return None
     modes = quad.modes if quad.modes is not None else np.zeros((0, 2))
     big = [(float(u), float(m)) for u, m in modes if m > NOISE_MODE_MASS]
