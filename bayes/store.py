@@ -25,6 +25,7 @@ from pathlib import Path
 
 import numpy as np
 
+from bayes.engine.crossings import crossing_arrays, crossing_fields_of
 from bayes.engine.posterior import DrawsPosterior, MixturePosterior, Posterior
 from bayes.errors import InputError
 from bayes.problem import DataFactor
@@ -180,6 +181,7 @@ def _posterior_arrays(post: Posterior, *, draws_in_nc: bool) -> dict[str, np.nda
                 "draws_shape": np.array(post.draws.shape[:2], dtype=np.int64),
                 "draws_digest": draws_digest(post.draws, post.sigma_draws),
             }
+        extra.update(crossing_arrays(post))  # what the chains are judged against
     else:
         mixture = {"weights": post.weights, "sigma": post.sigma, "means": post.means,
                    "covs": post.covs}  # fmt: skip
@@ -207,9 +209,11 @@ def _posterior_from_arrays(z, labels: dict, draws=None) -> Posterior:
         sigma_mode=float(sigma_mode), noise_known=bool(known),
     )  # fmt: skip
     if draws is not None:
-        return DrawsPosterior(**common, draws=draws[0], sigma_draws=draws[1])
+        return DrawsPosterior(**common, draws=draws[0], sigma_draws=draws[1],
+                              **crossing_fields_of(z))  # fmt: skip
     if "draws" in z:
-        return DrawsPosterior(**common, draws=z["draws"], sigma_draws=z["sigma_draws"])
+        return DrawsPosterior(**common, draws=z["draws"], sigma_draws=z["sigma_draws"],
+                              **crossing_fields_of(z))  # fmt: skip
     return MixturePosterior(
         **common, weights=z["weights"], sigma=z["sigma"], means=z["means"], covs=z["covs"],
         df=float(df), sigma_cdf=z["sigma_cdf"] if "sigma_cdf" in z else None,

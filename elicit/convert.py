@@ -210,10 +210,16 @@ def fit_quantiles(
     warning = None
     if len(pairs) >= 3:
         mid = len(pairs) // 2
-        lower = (values[mid] - values[0]) / (z[mid] - z[0])
-        upper = (values[-1] - values[mid]) / (z[-1] - z[mid])
-        asymmetry = float(upper / lower)
-        if not 1 / ASYMMETRY_TOLERANCE <= asymmetry <= ASYMMETRY_TOLERANCE:
+        dz = np.array([z[mid] - z[0], z[-1] - z[mid]])
+        # A probability so close to 0 or 1 that the family's quantile saturates (or a side's
+        # value step that underflows over it) leaves that side's scale undefined: no ratio.
+        sides = np.diff(values[[0, mid, -1]]) / dz if np.all(np.isfinite(dz) & (dz > 0)) else None
+        if sides is not None and sides[0] > 0 and np.isfinite(sides[1]):
+            asymmetry = float(sides[1] / sides[0])
+        if (
+            asymmetry is not None
+            and not 1 / ASYMMETRY_TOLERANCE <= asymmetry <= ASYMMETRY_TOLERANCE
+        ):
             implied = ", ".join(
                 f"{100 * p:g}% = {center + scale * zi:.4g}" for p, zi in zip(probs, z, strict=True)
             )

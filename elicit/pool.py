@@ -29,6 +29,7 @@ Examples
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Protocol
@@ -42,6 +43,8 @@ from elicit.errors import InputError
 METHODS = ("linear", "log")
 DEFAULT_METHOD = "linear"
 MATCH_PROBS = (0.05, 0.25, 0.5, 0.75, 0.95)
+PPF_RTOL = 1e-15  # mixture_ppf's root is within PPF_XTOL + PPF_RTOL * |root| of the true one
+PPF_XTOL = 1e-300
 
 
 class Opinion(Protocol):
@@ -94,13 +97,66 @@ def mixture_cdf(opinions: Sequence[Opinion], x: np.ndarray) -> np.ndarray:
     return sum(wi * _distribution(o).cdf(x) for wi, o in zip(w, opinions, strict=True))
 
 
+def mixture_sf(opinions: Sequence[Opinion], x: np.ndarray) -> np.ndarray:
+    """Survival probability ``1 - F(x)`` of the linear pool, accurate where it is tiny."""
+    w = _weights(opinions)
+    return sum(wi * _distribution(o).sf(x) for wi, o in zip(w, opinions, strict=True))
+
+
+def _widen(gap, x: float, side: float, step: float) -> tuple[float, float]:
+    """Step ``x`` outward (``side`` -1: down, 1: up), doubling the step, until ``gap`` takes
+    the sign of that side (or 0), at most to the float range's end; returns x and gap(x)."""
+    g = gap(x)
+    for _ in range(4200):  # from a step of 1e-100 to beyond 1e308: about 1400 doublings
+        if side * g >= 0.0 or not math.isfinite(x):
+            break
+        x, step = x + side * step, 2.0 * step
+        g = gap(x)
+    return x, g
+
+
 def mixture_ppf(opinions: Sequence[Opinion], p: float) -> float:
-    """Quantile of the linear pool at probability ``p`` (root of the mixture cdf)."""
-    each = [float(_distribution(o).ppf(p)) for o in opinions]
-    lo, hi = min(each), max(each)
-    if lo == hi:
+    """Quantile of the linear pool at probability ``p`` (root of the mixture cdf); never raises.
+
+    ``p`` at or below 0 gives -inf and at or above 1 gives inf (the limits of the unbounded
+    families pooled), nan gives nan. Below 1/2 the root of ``F(x) = p`` is solved, above it
+    that of ``1 - F(x) = 1 - p`` on the survival functions, so that a probability near 1 keeps
+    its digits. The root lies between the smallest and largest component quantile (the pool's
+    cdf is a weighted mean of the components'); where rounding of the weighted sum puts it at
+    an end of that bracket, the end is returned. The tolerance is relative to the root
+    (:data:`PPF_RTOL`, a few float steps), so components of wildly different scales are
+    solved alike.
+    """
+    p = float(p)
+    if not 0.0 < p < 1.0:
+        return math.nan if math.isnan(p) else (-math.inf if p <= 0.0 else math.inf)
+    upper = p > 0.5
+    target = 1.0 - p if upper else p  # exact for p > 1/2 (Sterbenz)
+    dists = [_distribution(o) for o in opinions]
+    each = [float(d.isf(target) if upper else d.ppf(target)) for d in dists]
+    finite = [q for q in each if math.isfinite(q)]  # scipy's t.ppf(1e-300) is inf, not -inf
+    lo, hi = (
+        (min(finite), max(finite))
+        if finite
+        else (min(o.center for o in opinions), max(o.center for o in opinions))
+    )
+    if lo == hi and len(finite) == len(each):
         return lo
-    return optimize.brentq(lambda x: float(mixture_cdf(opinions, x)) - p, lo, hi, xtol=1e-12)
+    tail = mixture_sf if upper else mixture_cdf
+    sign = -1.0 if upper else 1.0  # the function below increases with x
+
+    def gap(x: float) -> float:
+        return sign * (float(tail(opinions, x)) - target)
+
+    lo, g_lo = _widen(gap, lo, -1.0, max(o.scale for o in opinions))
+    if g_lo >= 0.0:
+        return lo
+    hi, g_hi = _widen(gap, hi, 1.0, max(o.scale for o in opinions))
+    if g_hi <= 0.0:
+        return hi
+    root, _ = optimize.brentq(gap, lo, hi, xtol=PPF_XTOL, rtol=PPF_RTOL, maxiter=2000,
+                              full_output=True, disp=False)  # fmt: skip
+    return float(root)
 
 
 def _match(family: str, df: float | None, grid: np.ndarray, cdf: np.ndarray, quantiles):

@@ -12,7 +12,6 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import stats
 
 from elicit.spec import INTERCEPT, NoisePrior, PriorSet
 
@@ -180,4 +179,24 @@ def _noise_draws(noise: NoisePrior | None, noise_sd: float | None, rng, draws: i
         return None
     if noise.known:
         return np.full(draws, noise.sd)
-    return np.sqrt(stats.invgamma(noise.shape, scale=noise.scale).rvs(size=draws, random_state=rng))
+    return noise_sd_draws(noise.shape, noise.scale, rng, draws)
+
+
+LOG_SIGMA_CAP = 700.0  # noise sd draws are capped at exp(700) ~ 1e304: far beyond any limit
+
+
+def noise_sd_draws(shape: float, scale: float, rng, draws: int) -> np.ndarray:
+    """Draws of the noise sd under ``sigma^2 ~ InvGamma(shape, scale)``, without overflow.
+
+    ``sigma^2 = scale / G`` with ``G ~ Gamma(shape)``, drawn in logs: for ``shape < 1``,
+    ``G = G' U^(1/shape)`` with ``G' ~ Gamma(shape + 1)`` and ``U`` uniform (common practice,
+    no source), so that a small shape, whose ``G`` underflows to 0 and ``scipy.stats.invgamma``
+    draws to inf, gives finite draws. A draw beyond ``exp(LOG_SIGMA_CAP)`` is capped there:
+    beyond every limit on the numbers of a prior file (1e100), so no interval end it reaches
+    can be mistaken for an ordinary one, and its products with normal draws stay finite.
+    """
+    if shape < 1:
+        log_g = np.log(rng.gamma(shape + 1.0, size=draws)) + np.log1p(-rng.random(draws)) / shape
+    else:
+        log_g = np.log(rng.gamma(shape, size=draws))
+    return np.exp(np.minimum(0.5 * (np.log(scale) - log_g), LOG_SIGMA_CAP))

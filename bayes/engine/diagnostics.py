@@ -251,3 +251,28 @@ def noise_tail_df(factor, prior) -> float:
     if prior.noise.known:
         return math.inf
     return float(factor.n + 2 * prior.noise.shape - sum(f == "flat" for f in prior.family))
+
+
+def indicator_mcse(indicator: np.ndarray) -> float:
+    """Monte Carlo standard error of the mean of chains of values (chains, draws), from arviz.
+
+    0 when every value is the same: then the draws show no uncertainty, which a caller
+    comparing against a known mass must read as a miss, not as precision.
+    """
+    v = np.asarray(indicator, dtype=float)
+    if np.ptp(v) == 0.0:
+        return 0.0
+    value = float(_arviz().mcse(v, method="mean"))
+    return value if math.isfinite(value) else math.inf
+
+
+def chains_r_hat(values: np.ndarray) -> float:
+    """Split R-hat (arviz, without rank normalisation: meant for indicators, whose ties the
+    rank transform cannot split) of chains of values (chains, draws); nan if constant."""
+    v = np.asarray(values, dtype=float)
+    if np.ptp(v) == 0.0 or v.shape[0] * v.shape[1] < 8:
+        return math.nan
+    half = v.shape[1] // 2
+    if all(np.ptp(part) == 0.0 for c in v for part in (c[:half], c[half:])):
+        return math.inf  # every half-chain constant, not all alike: they disagree completely
+    return float(_arviz().rhat(v, method="split"))

@@ -38,6 +38,7 @@ def sampled_mixture_posterior(
     posterior : DrawsPosterior
     inference : arviz.InferenceData
     """
+    from bayes.engine.crossings import crossing_fields
     from bayes.engine.diagnostics import to_inference_data
     from bayes.engine.gibbs import sample
 
@@ -60,6 +61,7 @@ def sampled_mixture_posterior(
         mode=to_natural(factor, mode),
         mode_kind="posterior mode" if known else MODE_KIND.replace("gamma", "beta"),
         sigma_mode=sigma_mode, noise_known=known, draws=nat, sigma_draws=d.sigma,
+        **crossing_fields(factor, base, d.gamma, coordinates),
     )  # fmt: skip
     inference = to_inference_data(
         nat, d.sigma, names, to_natural(factor, d.prior_gamma), d.prior_sigma

@@ -251,10 +251,26 @@ class DrawsPosterior(Posterior):
         Natural units.
     sigma_draws : ndarray, shape (chains, draws)
         Noise sd draws (constant when the noise sd is known).
+    noise_modes : tuple of (float, float)
+        ``(sigma, mass)`` of each noticeable mode of the noise sd's posterior found by the
+        exact mode search on the priors, or on a Gaussian stand-in of them
+        (:func:`bayes.engine.crossings.reference_noise_modes`); empty when there is one.
+    noise_cuts : tuple of float
+        The noise sd at which neighbouring modes' basins meet.
+    noise_modes_exact : bool
+        The masses are this posterior's own (Gaussian priors), not a stand-in's.
+    label_switching : tuple of (str, float, float, bool)
+        Per coefficient with a mixture prior: its label switching rate, the R-hat of its
+        label indicators and whether the chains look stuck
+        (:func:`bayes.engine.crossings.label_switching`).
     """
 
     draws: np.ndarray
     sigma_draws: np.ndarray
+    noise_modes: tuple[tuple[float, float], ...] = ()
+    noise_cuts: tuple[float, ...] = ()
+    noise_modes_exact: bool = False
+    label_switching: tuple[tuple[str, float, float, bool], ...] = ()
 
     @property
     def flat_draws(self) -> np.ndarray:

@@ -24,7 +24,9 @@ def sampled_posterior(
     """Sample the posterior and compute its mode.
 
     The convergence diagnostics (R-hat, bulk and tail ESS) and the notes about them are
-    derived from the draws by :class:`bayes.results.result.FitResult`.
+    derived from the draws by :class:`bayes.results.result.FitResult`, as is whether the
+    chains visit the noise sd's modes in proportion (:mod:`bayes.engine.crossings`: the
+    exact mode search on the priors or on a Gaussian stand-in of them).
 
     Returns
     -------
@@ -33,6 +35,7 @@ def sampled_posterior(
     inference : arviz.InferenceData
         Posterior and prior draws, coordinates named after the columns.
     """
+    from bayes.engine.crossings import crossing_fields
     from bayes.engine.diagnostics import to_inference_data
     from bayes.engine.exact_draws import IID_DETAIL, exact_iid_applies, exact_sample
     from bayes.engine.gibbs import sample
@@ -60,6 +63,7 @@ def sampled_posterior(
         noise_known=known,
         draws=nat,
         sigma_draws=d.sigma,
+        **crossing_fields(factor, prior, d.gamma),  # what the chains are judged against
     )
     inference = to_inference_data(
         nat, d.sigma, names, to_natural(factor, d.prior_gamma), d.prior_sigma

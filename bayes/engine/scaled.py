@@ -104,5 +104,7 @@ def scaled_prior(factor: DataFactor, priors) -> ScaledPrior:
     T = natural_transform(factor)
     Wn = np.array(rows).reshape(len(rows), k)
     # gamma0 = T^-1 (center - y_mean e0): the scaled point matching the natural centres.
-    gamma0 = linalg.solve(T, center - natural_shift(factor))
+    # T is upper triangular (natural_transform): back substitution, exact to rounding however
+    # different the column scales (a general solve warns of their ratio as ill-conditioning).
+    gamma0 = linalg.solve_triangular(T, center - natural_shift(factor), lower=False)
     return ScaledPrior(tuple(family), gamma0, Wn @ T, scale, df, noise_spec(priors.noise))

@@ -8,7 +8,7 @@ test and the numbers they print are the same.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 
 from bayes.engine.diagnostics import ESS_MIN, R_HAT_MAX
 from bayes.results.format import fmt
@@ -133,6 +133,61 @@ def noise_modes(modes: Sequence[tuple[float, float]]) -> str | None:
         f"prior-data conflict: the noise sd's posterior has {len(big)} modes, at {levels}; "
         "at the smaller noise level the data win, at the larger the priors do. The exact "
         "posterior mixes both: its means and intervals may sit where neither mode does."
+    )
+
+
+def noise_modes_not_crossed(check: Mapping) -> str:
+    """The warning of a sampled fit whose chains do not visit the noise sd's modes in
+    proportion: ``check`` is its ``noise_mode_check`` diagnostics field
+    (:func:`bayes.engine.crossings.crossing_diagnostics`): each noticeable mode's ``sigma``
+    and ``mass`` (exact when ``exact_masses``, else of a Gaussian stand-in of the priors),
+    the draws' ``share_of_draws`` in each mode's basin and their ``crossings``.
+    """
+    modes = list(zip(check["sigma"], check["mass"], strict=True))
+    share, crossings, exact = check["share_of_draws"], check["crossings"], check["exact_masses"]
+    levels = " and ".join(
+        f"sigma = {fmt(s, 4)} ({fmt(100 * m, 3)}% of the mass, {fmt(100 * d, 3)}% of the draws)"
+        for (s, m), d in zip(modes, share, strict=True)
+    )
+    source = (
+        "the noise sd's posterior (exact, Gaussian priors)"
+        if exact
+        else "the noise sd's posterior under a Gaussian stand-in of the priors (same centres "
+        "and variances; its masses are indicative)"
+    )
+    advice = (
+        "use the exact engine (--method exact) for these priors"
+        if exact
+        else "run more chains from dispersed starts and compare, or check with Gaussian priors"
+    )
+    return (
+        f"noise modes not crossed: {source} has {len(modes)} modes, at {levels}; the chains "
+        f"moved between them {crossings} time{'s' * (crossings != 1)}. The Gibbs chains may "
+        "not cross between the two noise levels (a prior-data conflict), so the sampled means "
+        f"and intervals may describe one mode only, however good R-hat looks: {advice}."
+    )
+
+
+def labels_not_switched(rows: Sequence[tuple[str, float, float, bool]]) -> str | None:
+    """The warning when the chains do not switch a mixture prior's component labels.
+
+    ``rows`` holds ``(column, switching rate, R-hat of the label indicators, stuck)``
+    per mixed coefficient (:attr:`bayes.engine.posterior.DrawsPosterior.label_switching`);
+    the stuck ones are named.
+    """
+    rows = [(c, r, h) for c, r, h, stuck in rows if stuck]
+    if not rows:
+        return None
+    each = "; ".join(
+        f"{c}: label switching rate {fmt(r, 2)} per draw, R-hat of the label "
+        f"indicators {'n/a' if h != h else fmt(h, 4)}"
+        for c, r, h in rows
+    )
+    return (
+        f"mixture labels not switched ({each}): the chains rarely move between the mixture "
+        "prior's components, or disagree on how often each is used, so the weight each "
+        "expert's component gets (and the intervals) rests on where the chains started; "
+        "run more draws (--draws) and more chains before trusting these numbers."
     )
 
 

@@ -22,6 +22,7 @@ from bayes.engine.posterior import PREDICTIVE_SEED, DrawsPosterior, MixturePoste
 from bayes.errors import InputError
 from bayes.problem import model_rows
 from bayes.results.result import FitResult
+from elicit.limits import LARGEST, UNITS
 
 COLUMNS = ("mean", "lower", "upper", "pred_lower", "pred_upper")  # the prediction columns
 FLAG = "extrapolated"  # True where a row lies outside the fitted data's range
@@ -39,6 +40,19 @@ def check_level(level: float) -> None:
     """``level`` lies strictly between 0 and 1 (an InputError naming it otherwise)."""
     if not 0.0 < level < 1.0:
         raise InputError(f"level must lie strictly between 0 and 1, got {level!r}")
+
+
+def check_magnitudes(X: np.ndarray, names, frame: pd.DataFrame, source: str) -> None:
+    """Every design value of the new rows, derived terms included (``I(x**2)``, ``x:z``),
+    is within :data:`elicit.limits.LARGEST` in magnitude, as the fitted data were: a derived
+    term can pass it though the columns it is made from do (an InputError naming the first
+    such row and term)."""
+    big = np.abs(X) > LARGEST
+    if big.any():
+        i, j = (int(v[0]) for v in np.nonzero(big))
+        raise InputError(f"{source}: row {file_row(frame, i)}: term '{names[j]}' is "
+                         f"{X[i, j]:.6g}, beyond {LARGEST:g} in magnitude, the limit of the "
+                         f"arithmetic; {UNITS}")  # fmt: skip
 
 
 def predict(
@@ -149,6 +163,7 @@ class Predictor:
             i, j = (int(v[0]) for v in np.nonzero(bad))
             raise InputError(f"{self.source}: non-finite value ({X[i, j]}) at row "
                              f"{file_row(frame, i)} column '{names[j]}'")  # fmt: skip
+        check_magnitudes(X, names, frame, self.source)
         return X
 
     def frame(self, frame: pd.DataFrame) -> pd.DataFrame:

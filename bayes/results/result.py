@@ -140,7 +140,17 @@ class FitResult:
     @cached_property
     def diagnostics(self) -> Mapping:
         """n, p, rss and residual sd at the posterior mean, R^2, condition number, noise sd."""
-        return _frozen(diagnostics(self.factor, self.posterior))
+        return _frozen({**diagnostics(self.factor, self.posterior), **self._crossings})
+
+    @cached_property
+    def _crossings(self) -> dict:
+        """A sampled fit's checks that its chains cross between the noise sd's modes and the
+        mixture components, as diagnostics fields (:mod:`bayes.engine.crossings`)."""
+        if not self.sampled:
+            return {}
+        from bayes.engine.crossings import crossing_diagnostics
+
+        return crossing_diagnostics(self.posterior)
 
     @cached_property
     def noise_basis(self) -> tuple[float, str]:
@@ -181,7 +191,11 @@ class FitResult:
             out.append(wording.least_squares_columns(self._jeffreys_df()))
         out.append(wording.infinite_variance(*self._infinite_sd()))
         out.append(wording.ill_conditioned(self.diagnostics["condition_number"]))
-        out.append(wording.noise_modes(getattr(self.posterior, "noise_modes", ())))
+        if not self.sampled or self.posterior.noise_modes_exact:
+            out.append(wording.noise_modes(getattr(self.posterior, "noise_modes", ())))
+        if self.diagnostics.get("noise_modes_not_crossed"):
+            out.append(wording.noise_modes_not_crossed(self.diagnostics["noise_mode_check"]))
+        out.append(wording.labels_not_switched(getattr(self.posterior, "label_switching", ())))
         out += wording.pool_misfit([(c.column, c.pool_error) for c in p.coefficients])
         dropped = self.data.dropped if self.data is not None else self.provenance.get("dropped", 0)
         out.append(wording.dropped_rows(int(dropped or 0)))

@@ -215,6 +215,23 @@ def _rows(names, prior: np.ndarray, likelihood: np.ndarray, method: str) -> dict
     }
 
 
+def flat_prior_rows(power: dict, informative: set[str]) -> dict:
+    """``power`` with each coefficient whose prior is flat (not in ``informative``) marked
+    ``flat_prior`` and told in words that its own prior decides nothing: power-scaling a flat
+    prior leaves it flat, so what its prior sensitivity measures is the other coefficients'
+    priors acting through correlation. The numbers and the diagnosis are unchanged."""
+    if not power:
+        return power
+    rows = []
+    for row in power["coefficients"]:
+        flat = row["name"] not in informative
+        sentence = (wording.power_scaling_flat(row["name"], row["prior"], row["likelihood"],
+                                               row["prior"] >= SENSITIVITY_CUTOFF)
+                    if flat else row["sentence"])  # fmt: skip
+        rows.append({**row, "flat_prior": flat, "sentence": sentence})
+    return {**power, "coefficients": rows}
+
+
 def power_scaling_exact(path: WidthPath) -> dict:
     """Power-scaling sensitivity of every coefficient, from exact power-scaled posteriors.
 

@@ -41,11 +41,12 @@ from bayes.errors import InputError
 from bayes.problem import DataFactor
 from bayes.results.result import FitResult
 from bayes.sensitivity.conclusions import follow_conclusions
+from bayes.sensitivity.conflict import flat_prior_rows
 from bayes.sensitivity.family_swap import family_swap as read_as_families
 from bayes.sensitivity.gaussian import GaussianEngine
 from bayes.sensitivity.grid import Threshold, default_factors, factor_grid, thresholds_for
 from bayes.sensitivity.mixture import mixture_engine
-from bayes.sensitivity.priors import block_names, prior_interval, widened
+from bayes.sensitivity.priors import block_names, informative, prior_interval, widened
 from bayes.sensitivity.result import MCSE_STATISTICS, CoefficientSweep, SweepResult
 from bayes.sensitivity.sampled import MIN_ESS, SampledEngine, mcse_of
 from bayes.sensitivity.wording import DEFAULT_RESPONSE, prior_label
@@ -179,6 +180,7 @@ def sweep(
             for j, name in enumerate(names)
         ]  # fmt: skip
         conflict, power = engine.checks(priors)
+        power = flat_prior_rows(power, informative(priors))  # a flat prior decides nothing
         swap = (
             read_as_families(factor, priors, level=level, sampler=sampler) if family_swap else None
         )

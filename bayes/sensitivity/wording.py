@@ -287,6 +287,17 @@ def power_scaling(name: str, prior: float, likelihood: float, diagnosis: str | N
     return f"{name}: not sensitive to the prior ({p:.3f}); likelihood {lik:.3f}."
 
 
+def power_scaling_flat(name: str, prior: float, likelihood: float, sensitive: bool) -> str:
+    """Power-scaling sensitivity of a coefficient with a flat prior (which decides nothing);
+    ``sensitive``: its prior sensitivity, the other priors' doing, passes the cut-off."""
+    if sensitive:
+        return (f"{name}: flat prior, which decides nothing (raised to any power it stays "
+                f"flat); scaling the other coefficients' priors moves it ({prior:.3f}) through "
+                f"its correlation with them; likelihood {likelihood:.3f}.")  # fmt: skip
+    return (f"{name}: flat prior, which decides nothing; not moved by scaling the other "
+            f"priors ({prior:.3f}); likelihood {likelihood:.3f}.")  # fmt: skip
+
+
 # --------------------------------------------------------------------------- the summary
 
 
