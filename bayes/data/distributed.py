@@ -173,7 +173,9 @@ def dask_factor(
         chunk_rows = default_chunk_rows(
             len(header.columns) if predictors is None else 1 + len(predictors)
         )
-    if predictors is None and not parquet:  # numeric columns of the first chunk, as streamed
+    if predictors is None and parquet:  # the columns' kinds from the first batch, as streamed
+        header = next(iter(parquet_batches(path, None, chunk_rows)), (header, 1.0))[0]
+    elif predictors is None:  # numeric columns of the first chunk, as streamed
         try:
             header = pd.read_csv(path, nrows=chunk_rows, **CSV_OPTIONS)
         except read_errors() as e:
