@@ -17,7 +17,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import linalg, stats
+from scipy import linalg
 
 from bayes.arrays import ReadOnlyArrays
 from bayes.engine.likelihood import check_identified, data_rows
@@ -193,6 +193,8 @@ def log_noise_prior(prior: ScaledPrior, s2):
     """log density of the noise prior at sigma^2 = s2 (float or ndarray); Jeffreys: -log s2."""
     if prior.noise.jeffreys:
         return -np.log(s2)
+    from scipy import stats  # lazily: scipy.stats costs 0.6 s of start-up
+
     return stats.invgamma.logpdf(s2, prior.noise.shape, scale=prior.noise.scale)
 
 
