@@ -9,7 +9,9 @@ prior file of the tests:
   ``bayes fit`` pays), against a fresh interpreter that imports numpy and pandas, reads the
   same CSV and solves the same least-squares problem with ``numpy.linalg.lstsq``; the
   imports are timed apart (``-X importtime`` shows which modules they are);
-- warm: in this process, on one BLAS thread on both sides, ``bayes.fit`` against lstsq.
+- warm: in this process, on one BLAS thread on both sides, ``bayes.fit`` against lstsq;
+- the command line: wall time of ``bayes fit`` on the demo's Gaussian prior file
+  (``priors_optimistic.toml``) and of ``bayes --help``, start-up included (goals 1.5 s, 0.3 s).
 
 Not a test: it prints times and ratios.
 """
@@ -32,6 +34,8 @@ from run import paired  # noqa: E402
 ROOT = Path(__file__).resolve().parents[1]
 DATA = ROOT / "bayes" / "demo" / "trial_mix.csv"
 PRIORS = ROOT / "tests" / "data" / "priors_gaussian.toml"
+OPTIMISTIC = ROOT / "bayes" / "demo" / "priors_optimistic.toml"
+CLI = "import sys; from bayes.cli.app import main; sys.argv[0] = 'bayes'; main()"
 PREDICTORS = ["water_cement", "fly_ash", "curing_temp", "superplasticizer"]
 
 OURS = f"""
@@ -68,6 +72,18 @@ def cold(code: str, repeats: int) -> tuple[float, float, float]:
     return statistics.median(walls), statistics.median(imports), statistics.median(works)
 
 
+def command(args: list[str], repeats: int) -> float:
+    """Median wall seconds of the ``bayes`` command with ``args`` in a fresh interpreter."""
+    env = {**os.environ, "PYTHONPATH": str(ROOT)}
+    walls = []
+    for _ in range(repeats):
+        start = time.perf_counter()
+        subprocess.run([sys.executable, "-c", CLI, *args], env=env, check=True,
+                       capture_output=True)  # fmt: skip
+        walls.append(time.perf_counter() - start)
+    return statistics.median(walls)
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--repeats", type=int, default=5)
@@ -83,6 +99,10 @@ def main() -> None:
     print(f"{'ours (import bayes + fit)':28s} {ours[0]:8.3f} {ours[1]:10.3f} {ours[2]:8.3f}")
     print(f"{'numpy + pandas + lstsq':28s} {ref[0]:8.3f} {ref[1]:10.3f} {ref[2]:8.3f}")
     print(f"{'ratio':28s} {ours[0] / ref[0]:8.1f} {ours[1] / ref[1]:10.1f} {ours[2] / ref[2]:8.1f}")
+    t_fit = command(["fit", str(DATA), "--priors", str(OPTIMISTIC)], args.repeats)
+    t_help = command(["--help"], args.repeats)
+    print(f"\nbayes fit (demo, priors_optimistic.toml): {t_fit:.3f} s wall (goal 1.5 s)")
+    print(f"bayes --help: {t_help:.3f} s wall (goal 0.3 s)")
     data = pd.read_csv(DATA)
     A = np.column_stack([np.ones(len(data)), data[PREDICTORS].to_numpy()])
     y = data["strength"].to_numpy()

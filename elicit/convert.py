@@ -35,7 +35,6 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize, stats
 
 from elicit.errors import InputError
 
@@ -49,6 +48,8 @@ ASYMMETRY_TOLERANCE = 1.1
 
 def standard(family: str, *, df: float | None = None):
     """The unit-scale, zero-centred member of ``family`` as a frozen scipy distribution."""
+    from scipy import stats  # lazily: scipy.stats costs 0.6 s of start-up
+
     if family == "normal":
         return stats.norm()
     if family == "laplace":
@@ -71,6 +72,8 @@ def distribution(family: str, center: float, scale: float, *, df: float | None =
     df : float, optional
         Student-t degrees of freedom (default 5); ignored for the other families.
     """
+    from scipy import stats  # lazily: scipy.stats costs 0.6 s of start-up
+
     if family == "normal":
         return stats.norm(center, scale)
     if family == "laplace":
@@ -258,6 +261,8 @@ def noise_from_range(low: float, high: float, mass: float) -> tuple[float, float
     shape, scale : float
         ``scale`` is in response units squared.
     """
+    from scipy import optimize, stats  # lazily: scipy.stats costs 0.6 s of start-up
+
     if not 0 < low < high:
         raise InputError(f"need 0 < low < high for the noise sd, got low={low}, high={high}")
     p_low, p_high = _noise_tails(mass)
@@ -280,6 +285,8 @@ def noise_from_range(low: float, high: float, mass: float) -> tuple[float, float
 
 def noise_range(shape: float, scale: float, mass: float) -> tuple[float, float]:
     """Central ``mass`` interval of the noise sd under ``sigma^2 ~ invgamma(shape, scale)``."""
+    from scipy import stats  # lazily: scipy.stats costs 0.6 s of start-up
+
     p_low, p_high = _noise_tails(mass)
     variance = stats.invgamma(shape, scale=scale)
     return math.sqrt(variance.ppf(p_low)), math.sqrt(variance.ppf(p_high))
@@ -287,4 +294,6 @@ def noise_range(shape: float, scale: float, mass: float) -> tuple[float, float]:
 
 def noise_median(shape: float, scale: float) -> float:
     """Median of the noise sd (response units) under ``sigma^2 ~ invgamma(shape, scale)``."""
+    from scipy import stats  # lazily: scipy.stats costs 0.6 s of start-up
+
     return math.sqrt(stats.invgamma(shape, scale=scale).median())

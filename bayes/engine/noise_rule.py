@@ -29,7 +29,6 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize
 
 from bayes.arrays import ReadOnlyArrays
 from bayes.errors import InputError
@@ -166,6 +165,8 @@ def stationary_span(
 
 def _maximise(f, u0: float) -> float:
     """Maximise a smooth unimodal function of one variable starting near u0."""
+    from scipy import optimize  # lazily: 0.2 s of start-up for one call per fit
+
     step = 0.5
     a, b = u0 - step, u0 + step
     while f(a) > f(u0):
@@ -201,6 +202,8 @@ def _many(logf: Callable, vectorised: bool) -> Callable:
 
 def _scan(f, fs, u_star: float, span) -> tuple[list[float], np.ndarray, np.ndarray]:
     """Every local maximum of ``f`` on the scan (refined), with the scan grid and values."""
+    from scipy import optimize
+
     lo = min(span[0], u_star) - SCAN_MARGIN
     hi = max(span[1], u_star) + SCAN_MARGIN
     grid = np.arange(lo, hi + SCAN_STEP / 2, SCAN_STEP)

@@ -40,6 +40,7 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy import linalg, special, stats
+from scipy.linalg import lapack
 
 from bayes.arrays import ReadOnlyArrays
 from bayes.distributions import mixture_quantile
@@ -80,6 +81,9 @@ class WidthPath(ReadOnlyArrays):
     K : ndarray, shape (r, k)
         ``diag(G diag(lam / h) K)`` is each coefficient's prior share of its
         posterior precision.
+    prior_condition : float
+        Estimated 1-norm condition number of ``L``, the prior's root precision on the
+        informed directions: how much the route through ``L^-1`` can lose beside one QR.
     """
 
     names: tuple[str, ...]
@@ -95,6 +99,7 @@ class WidthPath(ReadOnlyArrays):
     offset: np.ndarray
     H: np.ndarray
     K: np.ndarray
+    prior_condition: float = 1.0
 
     @property
     def known(self) -> bool:
@@ -117,7 +122,11 @@ class WidthPath(ReadOnlyArrays):
         ValueError
             When a prior is neither flat nor normal, or none is normal.
         """
-        rows = StackedRows.checked(factor, prior, caller="WidthPath")
+        return cls.from_rows(factor, prior, StackedRows.checked(factor, prior, caller="WidthPath"))
+
+    @classmethod
+    def from_rows(cls, factor: DataFactor, prior: ScaledPrior, rows: StackedRows) -> WidthPath:
+        """:meth:`build` from rows already checked (:meth:`StackedRows.checked`)."""
         D, d, W = rows.D, rows.d, rows.W
         k, r = D.shape[1], W.shape[0]
         if r == 0:
@@ -162,7 +171,7 @@ class WidthPath(ReadOnlyArrays):
         u0 = np.log(np.sqrt(max(factor.R[-1, -1] ** 2, 1e-300 + factor.tss * 1e-12) / factor.n))
         return cls(
             coefficient_names(factor), prior, float(factor.n), float(u0), s, z, t, resid2, kf,
-            T @ G_g, offset, T @ H_g, K,
+            T @ G_g, offset, T @ H_g, K, 1.0 / lapack.dtrcon(R1, norm="1")[0],
         )  # fmt: skip
 
     # ------------------------------------------------------------------ given sigma
