@@ -12,7 +12,6 @@ from dataclasses import dataclass, field
 from typing import Any
 
 
-
 @dataclass(frozen=True)
 class ModelSpec:
     """The model a prior file was stated for.
@@ -41,7 +40,8 @@ class ModelSpec:
 
 
 def model_doc(model: ModelSpec) -> dict[str, Any]:
-    """The ``[model]`` table of ``model`` (the inverse of :func:`elicit.model_table.parse_model`)."""
+    """The ``[model]`` table of ``model`` (inverse of
+    :func:`elicit.model_table.parse_model`)."""
     doc: dict[str, Any] = {}
     if model.formula is not None:
         doc["formula"] = model.formula

@@ -88,5 +88,3 @@ def parse_model(source: str, table: Any, response: str | None) -> ModelSpec:
     if not isinstance(intercept, bool):
         raise r.error("intercept", f"must be true or false, got {shown(intercept)}")
     return ModelSpec(formula, dict(reference), intercept)
-
-

@@ -24,7 +24,6 @@ from elicit.pool_table import POOL_KEYS, pool_choice
 from elicit.spec import CoefficientPrior, PriorSet, Statement
 from elicit.validate import parse_priors
 
-
 _MODEL_DEFAULTS = {"intercept": True}  # [model] intercept = true is the same as none
 
 

@@ -1,4 +1,4 @@
-"""The [model] table of a prior file: read, checked at the door, written back (elicit.model_table)."""
+"""The [model] table of a prior file: read, checked at the door, written back."""
 
 import pytest
 
@@ -65,8 +65,12 @@ def test_bad_model_is_one_line_naming_file_and_field(table, field):
 
 def test_pooled_files_must_share_the_model():
     a = {"study": STUDY, "model": {"formula": "yield ~ nitrogen + soil", "intercept": True}}
-    check_same_study([("a.toml", a), ("b.toml", {"study": STUDY,
-                                                 "model": {"formula": "yield ~ nitrogen + soil"}})])
+    check_same_study(
+        [
+            ("a.toml", a),
+            ("b.toml", {"study": STUDY, "model": {"formula": "yield ~ nitrogen + soil"}}),
+        ]
+    )
     b = {"study": STUDY, "model": {"formula": "yield ~ nitrogen + soil",
                                    "reference": {"soil": "sand"}}}  # fmt: skip
     with pytest.raises(Exception, match=r"^b\.toml: \[model\]: field 'reference'"):
