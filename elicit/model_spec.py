@@ -39,6 +39,12 @@ class ModelSpec:
     intercept: bool = True
 
 
+def formula_lhs(formula: str) -> str | None:
+    """The response a formula names on its left (backquotes removed), or None."""
+    lhs, tilde, _ = formula.partition("~")
+    return lhs.strip().strip("`").strip() or None if tilde else None
+
+
 def model_doc(model: ModelSpec) -> dict[str, Any]:
     """The ``[model]`` table of ``model`` (inverse of
     :func:`elicit.model_table.parse_model`)."""

@@ -14,7 +14,7 @@ from typing import Any
 
 from elicit.errors import shown
 from elicit.fields import FieldReader
-from elicit.model_spec import ModelSpec
+from elicit.model_spec import ModelSpec, formula_lhs
 
 MODEL_KEYS = frozenset({"formula", "reference", "intercept"})
 CALLS = ("I", "C", "log", "exp", "sqrt", "abs")  # the calls a formula may hold
@@ -57,12 +57,6 @@ def check_formula_words(r: FieldReader, key: str, text: str) -> None:
         raise r.error(key, "more than one '~'")
     if not any(kind in ("name", "bq") for kind, _ in tokens):
         raise r.error(key, f"names no column: {shown(text)}")
-
-
-def formula_lhs(formula: str) -> str | None:
-    """The response a formula names on its left (backquotes removed), or None."""
-    lhs, tilde, _ = formula.partition("~")
-    return lhs.strip().strip("`").strip() or None if tilde else None
 
 
 def parse_model(source: str, table: Any, response: str | None) -> ModelSpec:
