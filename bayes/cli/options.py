@@ -164,8 +164,9 @@ def streamed_fit_from_options(data, response, predictors, priors, formula, refer
     prior_set = load_priors(priors)
     choice = choose_model(prior_set, intercept=intercept, predictors=split_columns(predictors))
     if choice.formula or choice.reference:
-        raise InputError(f"{choice.source}: [model]: field 'formula': a formula and reference "
-                         "levels are not available for streamed fits (use --no-stream)")  # fmt: skip
+        raise InputError(f"{choice.source}: [model]: field 'formula': a formula and "
+                         "reference levels are not available for streamed fits "
+                         "(use --no-stream)")  # fmt: skip
     for line in choice.notes():
         click.echo(f"note: {line}", err=True)
     intercept = choice.intercept
