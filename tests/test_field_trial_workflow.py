@@ -202,3 +202,22 @@ def test_files_whose_model_differ_are_refused(study, tmp_path):
         assert f"{other}: [model]: field 'reference'" in out.stderr
         assert len(out.stderr.strip().splitlines()) == 1
     assert not (tmp_path / "p.toml").exists()
+
+
+def test_show_builds_the_terms_of_the_fit(study, tmp_path):
+    pooled = study / "pooled.toml"
+    out = run(elicit_main, "show", pooled, "--data", DATA, "--format", "json")
+    assert out.exit_code == 0, out.output
+    shown = json.dumps(json.loads(out.stdout))
+    assert "soil[clay]" in shown and "soil[sand]" in shown
+    out = run(elicit_main, "show", pooled, "--data", DATA, "--reference", "soil=peat")
+    assert out.exit_code == 2 and "no level 'peat' in the data" in out.stderr
+    assert "note: --reference overrides the prior file's [model] reference" in out.stderr
+    bad = tmp_path / "bad.toml"
+    bad.write_text(pooled.read_text().replace('soil = "loam"', 'soil = "peat"'))
+    out = run(elicit_main, "show", bad, "--data", DATA)
+    assert out.exit_code == 2 and f"{bad}: [model]: field 'reference'" in out.stderr
+    # the reference level itself has no coefficient: a prior on it is refused, naming it
+    out = run(elicit_main, "show", pooled, "--data", DATA, "--reference", "soil=clay")
+    assert out.exit_code == 2 and "soil[clay]" in out.stderr
+    assert len(out.stderr.strip().splitlines()) == 2  # the note and the error
