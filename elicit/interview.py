@@ -15,6 +15,7 @@ interview skips what the file answers, replays the draft and carries on.
 from __future__ import annotations
 
 from collections.abc import Callable, Mapping, Sequence
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -214,8 +215,23 @@ class Interview:
                 self.say(f"saved {saved} to {self.out}")
                 return
 
+    def run_units(self, term: Term) -> Term:
+        """Ask the units of ``term``'s predictor once (not when the file has them), save them
+        at once, and return the term with its units."""
+        if term.units is None and term.name in self.priors.units:
+            return replace(term, units=self.priors.units[term.name])
+        prompt = answers.units_prompt(term, self.priors, self.frame)
+        if prompt is None:
+            return term
+        unit = _blank_to_none(str(self._typed(prompt, type=str, default=term.units or "")))
+        if unit is None:
+            return term
+        self._save(answers.with_units(self.doc, term.name, unit, str(self.out)))
+        return replace(term, units=unit)
+
     def run_term(self, term: Term, index: int, total: int) -> None:
         """Ask about one term until an answer is valid and accepted; then save."""
+        term = self.run_units(term)
         head = f"\n[{index}/{total}] {term.column}"
         self.say(head + (f" ({term.units})" if term.units else "") + (f"; {term.describe}"
                  if term.describe else ""))  # fmt: skip
