@@ -314,11 +314,11 @@ def interview(
     if formula or reference:  # levels and derived terms (bayes.data.questions)
         from bayes.data.coding import reference_levels
         from bayes.data.design import build_design
-        from bayes.data.formula import formula_response
         from bayes.data.questions import interview_terms
         from bayes.errors import InputError
+        from elicit.model_spec import formula_lhs
 
-        if formula_response(formula) not in (None, response):
+        if formula and formula_lhs(formula) not in (None, response):
             raise BadInput(f"--formula: its response differs from --response {response!r}")
         try:
             design = build_design(frame, response, source=Path(data).name, formula=formula,
@@ -329,6 +329,8 @@ def interview(
     session = Interview(Path(out), response, ask, click.echo, frame=frame,
                         response_units=response_units, expert=expert)  # fmt: skip
     if design is not None:
+        used = {c.name: c.reference for c in design.terms.categorical} if design.terms else {}
+        session.model = (formula, used)
         terms = interview_terms(design, units=session.priors.units)
     else:
         terms = terms_from_data(frame, response, units=session.priors.units)

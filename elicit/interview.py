@@ -77,6 +77,7 @@ class Interview:
         self.response = response
         self._response_units = response_units
         self._draft: Draft | None = None
+        self.model: tuple[str | None, dict[str, str]] | None = None  # written as [model]
         self._load()
 
     def _load(self) -> None:
@@ -110,6 +111,9 @@ class Interview:
         return answers.with_answer(self.doc, key, value, str(self.out))
 
     def _save(self, priors: PriorSet) -> None:
+        if self.model is not None:  # the formula given and the reference levels used
+            doc = answers.prior_doc(priors)
+            priors = answers.with_model(doc, *self.model, str(self.out))
         self.doc = answers.save(priors, self.out)
         self.priors = priors
 

@@ -262,7 +262,8 @@ def test_a_second_interview_on_the_same_file_is_refused(tmp_path):
         first.kill()
         first.wait()
     # the lock of the killed process is stale: the next interview takes it over
-    run = subprocess.run(command(tmp_path), input=lines(U1 + X1 + U2 + X2 + NOISE), cwd=ROOT, env=env,
+    typed = lines(U1 + X1 + U2 + X2 + NOISE)
+    run = subprocess.run(command(tmp_path), input=typed, cwd=ROOT, env=env,
                          text=True, capture_output=True, timeout=120)  # fmt: skip
     assert run.returncode == 0, run.stderr
     assert not lock.exists()
