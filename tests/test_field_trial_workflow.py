@@ -221,3 +221,39 @@ def test_show_builds_the_terms_of_the_fit(study, tmp_path):
     out = run(elicit_main, "show", pooled, "--data", DATA, "--reference", "soil=clay")
     assert out.exit_code == 2 and "soil[clay]" in out.stderr
     assert len(out.stderr.strip().splitlines()) == 2  # the note and the error
+
+
+def interview_answers(expert: str, nitrogen: tuple[str, str], clay: tuple[str, str]) -> str:
+    """Scripted stdin of one agronomist's interview: units before each predictor's questions,
+    then family, per, low, high, mass, expert, rationale, accept; the noise last."""
+    each = [
+        ["kg/ha", "normal", "50", *nitrogen, "0.9", expert, "regional trials", "a"],
+        ["mm", "normal", "1", "0", "0.01", "0.9", expert, "", "a"],
+        ["days after 1 October", "normal", "1", "-0.06", "0", "0.9", expert, "", "a"],
+        ["normal", *clay, "0.9", expert, "", "a"],  # soil[clay]: a level has no units
+        ["normal", "-1", "0", "0.9", expert, "", "a"],  # soil[sand]
+        ["0.2", "0.6", "0.9", expert, "repeat plots", "a"],  # the noise
+    ]
+    return "".join(f"{a}\n" for answers in each for a in answers)
+
+
+def test_two_interviews_pooled_then_fitted_with_the_file_alone(tmp_path):
+    for name, nitrogen, clay in (("agronomist A", ("0.3", "0.9"), ("-0.5", "0.5")),
+                                 ("agronomist B", ("0.1", "1.1"), ("-0.3", "0.7"))):  # fmt: skip
+        out = CliRunner().invoke(elicit_main, [
+            "interview", "--data", str(DATA), "--response", "yield", "--response-units", "t/ha",
+            "--out", str(tmp_path / f"{name[-1].lower()}.toml"), "--formula", FORMULA,
+        ], input=interview_answers(name, nitrogen, clay))  # fmt: skip
+        assert out.exit_code == 0, out.output
+        assert "Units of nitrogen (data: 41 to 198)" in out.output
+    out = run(elicit_main, "pool", tmp_path / "a.toml", tmp_path / "b.toml",
+              "--out", tmp_path / "pooled.toml")  # fmt: skip
+    assert out.exit_code == 0, out.output
+    from elicit.read import read_prior_file
+
+    pooled = read_prior_file(tmp_path / "pooled.toml")
+    assert pooled.units["nitrogen"] == "kg/ha" and pooled.model.formula == FORMULA
+    assert dict(pooled.model.reference) == {"soil": "loam"}  # the level the interview used
+    out = run(bayes_main, "fit", DATA, "--priors", tmp_path / "pooled.toml", "--format", "json")
+    assert out.exit_code == 0, out.output
+    assert {"soil[clay]", "soil[sand]"} <= set(coefficients(json.loads(out.stdout)))
