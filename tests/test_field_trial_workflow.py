@@ -257,3 +257,20 @@ def test_two_interviews_pooled_then_fitted_with_the_file_alone(tmp_path):
     out = run(bayes_main, "fit", DATA, "--priors", tmp_path / "pooled.toml", "--format", "json")
     assert out.exit_code == 0, out.output
     assert {"soil[clay]", "soil[sand]"} <= set(coefficients(json.loads(out.stdout)))
+
+
+def test_the_python_face_uses_the_file_model_too(study):
+    import pandas as pd
+
+    import bayes
+
+    frame = pd.read_csv(DATA)
+    pooled = study / "pooled.toml"
+    alone = bayes.fit(frame, priors=pooled).summary()
+    given = bayes.fit(frame, priors=pooled, formula=FORMULA, reference={"soil": "loam"}).summary()
+    assert {"soil[clay]", "soil[sand]"} <= set(alone.index)
+    assert alone.equals(given)  # the same exact computation: the same numbers
+    # the predictor list replaces the file's formula (and its soil reference level goes with
+    # it): the pooled priors on the soil levels are then refused, naming them
+    with pytest.raises(bayes.InputError, match=r"soil\[clay\]"):
+        bayes.fit(frame, priors=pooled, predictors=["nitrogen", "irrigation", "sowing_day"])

@@ -10,6 +10,7 @@ a reference level that came from the file.
 from __future__ import annotations
 
 import contextlib
+import re
 from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 
@@ -90,11 +91,15 @@ def choose_model(
         else:
             chosen = model.formula
             taken.append("formula")
-    if any(model.reference.get(k, v) != v for k, v in reference.items()):
+    filed = dict(model.reference)
+    if "formula" not in taken and model.formula is not None:  # another model: the file's
+        words = set(re.findall(r"\w+", formula or "")) | set(predictors or ())  # levels of
+        filed = {k: v for k, v in filed.items() if k in words}  # its columns only
+    if any(filed.get(k, v) != v for k, v in reference.items()):
         overrides.append(("--reference", "reference"))
-    if set(model.reference) - set(reference):
+    if set(filed) - set(reference):
         taken.append("reference")
-    merged = {**model.reference, **reference}
+    merged = {**filed, **reference}
     if intercept is None:
         intercept = model.intercept
         taken.append("intercept")
