@@ -75,3 +75,21 @@ def test_pooled_files_must_share_the_model():
                                    "reference": {"soil": "sand"}}}  # fmt: skip
     with pytest.raises(Exception, match=r"^b\.toml: \[model\]: field 'reference'"):
         check_same_study([("a.toml", a), ("b.toml", b)])
+
+
+def test_intercept_false_in_the_file_fits_without_one(tmp_path):
+    import pandas as pd
+
+    import bayes
+
+    frame = pd.DataFrame({"x": [1.0, 2.0, 3.0, 4.0], "y": [2.1, 3.9, 6.2, 7.8]})
+    priors = parse_priors({"study": {"response": "y"}, "model": {"intercept": False}})
+    result = bayes.fit(frame, priors=priors)
+    assert list(result.summary().index) == ["x"]
+    # through the origin: the least-squares slope is Sxy / Sxx (common practice, no source)
+    slope = (frame.x * frame.y).sum() / (frame.x**2).sum()
+    assert abs(float(result.summary().loc["x", "mean"]) - slope) < 1e-12 * slope
+    with pytest.raises(bayes.InputError, match=r"^p\.toml: \[model\]: field 'formula'"):
+        bayes.fit(frame, priors=parse_priors(
+            {"study": {"response": "y"}, "model": {"formula": "y ~ x", "intercept": False}},
+            source="p.toml"))  # fmt: skip
