@@ -88,8 +88,11 @@ def implied_response(
 def units_prompt(term: Term, priors: PriorSet, frame) -> str | None:
     """The question for ``term``'s predictor's units, with the data's range shown
     (``"Units of nitrogen (data: 41 to 198)"``), or None when there is nothing to ask: the file
-    already has them (resume), or the term is a categorical level or not a data column."""
+    already has them (resume), or the term is a categorical level, a derived term (an
+    interaction, I(...)) or not a data column."""
     if term.level is not None or term.name in priors.units:
+        return None
+    if any(mark in term.name for mark in ":()*"):  # a derived term: its units follow
         return None
     if frame is None or term.name not in frame or frame[term.name].dtype.kind not in "fiu":
         return None
