@@ -12,6 +12,7 @@ import pandas as pd
 from bayes.data.design import Design, build_design
 from bayes.data.factor import factor_from_arrays
 from bayes.data.formula import formula_response
+from bayes.data.model_choice import choose_model, file_errors
 from bayes.engine.exact import exact_posterior
 from bayes.engine.mixture_fit import mixture_posterior
 from bayes.engine.mixture_prior import has_mixture
@@ -41,7 +42,7 @@ def fit(
     provenance: dict | None = None,
     formula: str | None = None,
     reference: Mapping[str, str] | None = None,
-    intercept: bool = True,
+    intercept: bool | None = None,
 ) -> FitResult:
     """Fit the Bayesian linear model of ``response`` on ``predictors``.
 
@@ -77,9 +78,13 @@ def fit(
         (see :mod:`bayes.data.formula`). Text predictors are categorical either way.
     reference : mapping of column -> level, optional
         Reference level of each categorical predictor (default: the most frequent).
-    intercept : bool
+    intercept : bool, optional
         False fits a model without an intercept (the line through the origin). A formula
-        says it itself (``"y ~ x - 1"`` or ``"y ~ 0 + x"``).
+        says it itself (``"y ~ x - 1"`` or ``"y ~ 0 + x"``). Default: the prior file's, or True.
+
+    The prior file's ``[model]`` (formula, reference levels, intercept) is used for each of
+    ``formula``, ``reference`` and ``intercept`` not given (``predictors``, or a ``response``
+    other than its formula's, replaces its formula): see :mod:`bayes.data.model_choice`.
 
     Returns
     -------
@@ -98,19 +103,24 @@ def fit(
     prior_set = load_priors(priors)
     if isinstance(data, Design):
         design = data
-        if not intercept and design.intercept:
+        if intercept is False and design.intercept:
             raise InputError("intercept=False, but the design given has an intercept "
                              "(build it with intercept=False)")  # fmt: skip
     else:
-        if formula_response(formula) is None:
+        choice = choose_model(prior_set, formula=formula, reference=reference,
+                              intercept=intercept, response=response,
+                              predictors=predictors)  # fmt: skip
+        if formula_response(choice.formula) is None:
             response = response or prior_set.response
-        if not response and formula is None:
+        if not response and choice.formula is None:
             raise InputError(
                 "no response given (response=..., or [study] response in the prior file)"
             )
-        design = build_design(data, response, predictors, drop_missing=drop_missing, source=source,
-                              formula=formula, reference=reference,
-                              intercept=intercept)  # fmt: skip
+        with file_errors(choice):
+            design = build_design(data, response, predictors, drop_missing=drop_missing,
+                                  source=source, formula=choice.formula,
+                                  reference=choice.reference,
+                                  intercept=choice.intercept)  # fmt: skip
     if design.terms is not None:
         design.terms.check_priors(prior_set)
     factor = factor_from_arrays(design.X, design.y, design.names, intercept=design.intercept)

@@ -83,3 +83,36 @@ def implied_response(
     y_mean = float(frame[response].mean())
     rows = [(label, {term.column: value}) for label, value in term.reference]
     return prior_predictive(priors, rows, means=means, y_mean=y_mean)
+
+
+def units_prompt(term: Term, priors: PriorSet, frame) -> str | None:
+    """The question for ``term``'s predictor's units, with the data's range shown
+    (``"Units of nitrogen (data: 41 to 198)"``), or None when there is nothing to ask: the file
+    already has them (resume), or the term is a categorical level, a derived term (an
+    interaction, I(...)) or not a data column."""
+    if term.level is not None or term.name in priors.units:
+        return None
+    if any(mark in term.name for mark in ":()*"):  # a derived term: its units follow
+        return None
+    if frame is None or term.name not in frame or frame[term.name].dtype.kind not in "fiu":
+        return None
+    low, high = float(frame[term.name].min()), float(frame[term.name].max())
+    return f"Units of {term.name} (data: {low:g} to {high:g})"
+
+
+def with_units(doc: dict[str, Any], name: str, unit: str, source: str) -> PriorSet:
+    """The document with ``[units] name = unit``, validated."""
+    return parse_priors({**doc, "units": {**doc.get("units", {}), name: unit}}, source=source)
+
+
+def with_model(
+    doc: dict[str, Any], formula: str | None, reference: dict[str, str], source: str
+) -> PriorSet:
+    """The document with the ``[model]`` the interview asked about (the formula given, the
+    reference levels used), validated; the file's own [model] is kept when nothing is given."""
+    model = dict(doc.get("model", {}))
+    if formula is not None:
+        model["formula"] = formula
+    if reference:
+        model["reference"] = {**model.get("reference", {}), **reference}
+    return parse_priors({**doc, "model": model} if model else doc, source=source)

@@ -73,10 +73,17 @@ def main() -> None:
 @click.option("--noise-sd", type=float, help="Residual sd for the penalties (default: prior).")
 @click.option("--data", type=click.Path(dir_okay=False), help="CSV: reference rows and checks.")
 @click.option("--response", help="Response column of --data (default: [study] response).")
+@click.option("--formula", help="Model formula, as for bayes fit (default: the file's [model]).")
+@click.option("--reference", multiple=True, metavar="COLUMN=LEVEL",
+              help="Reference level of a categorical predictor (repeatable; default: the "
+              "file's [model], else the most frequent level).")  # fmt: skip
 @click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text")
-def show(priors: str, noise_sd: float | None, data: str | None, response: str | None, fmt: str):
+def show(priors: str, noise_sd: float | None, data: str | None, response: str | None,
+         formula: str | None, reference: tuple[str, ...], fmt: str):  # fmt: skip
     """Show each prior's parameters and what it implies.
 
+    With --data, the model's terms are built as bayes fit builds them (formula and reference
+    levels from the options or the file's [model]), categorical levels included.
     The prior file's tables and keys, with examples: docs/prior-file.md.
     """
     from elicit.feedback import feedback
@@ -87,16 +94,44 @@ def show(priors: str, noise_sd: float | None, data: str | None, response: str | 
         raise BadInput(f"--noise-sd: must be positive, got {noise_sd:g}")
     prior_set = read_prior_file(priors)
     frame = _read_data(data)
+    if frame is None and (formula or reference):
+        raise BadInput("--formula and --reference go with --data")
     if frame is not None:
-        prior_set.check_columns(_data_columns(frame))
         response = response or prior_set.response
         if response is not None and response not in frame:
             raise BadInput(f"{data}: no response column {response!r}")
+        frame = _model_frame(prior_set, frame, Path(data).name, response, formula, reference)
     fb = feedback(prior_set, noise_sd=noise_sd, frame=frame, response=response)
     if fmt == "json":
         click.echo(json.dumps(to_json(fb), allow_nan=False))
     else:
         click.echo(format_text(fb), nl=False)
+
+
+def _model_frame(prior_set, frame, source, response, formula, reference):
+    """The data as the model's design columns (levels as indicator columns), built as bayes fit
+    builds them; the priors are checked against those columns. Without a formula, reference
+    levels or text columns, the data as they are."""
+    from bayes.data.coding import reference_levels
+    from bayes.data.model_choice import choose_model, file_errors
+
+    choice = choose_model(prior_set, formula=formula, reference=reference_levels(reference),
+                          response=response)  # fmt: skip
+    for line in choice.notes():
+        click.echo(f"note: {line}", err=True)
+    text = any(frame[c].dtype == object or str(frame[c].dtype) == "category" for c in frame)
+    if choice.formula is None and not choice.reference and not text:
+        prior_set.check_columns(_data_columns(frame))
+        return frame
+    from bayes.data.design import build_design
+
+    with file_errors(choice):
+        design = build_design(frame, response, source=source, formula=choice.formula,
+                              reference=choice.reference, intercept=choice.intercept)  # fmt: skip
+    if design.terms is not None:
+        design.terms.check_priors(prior_set)
+    prior_set.check_columns(design.names)
+    return design.frame()
 
 
 def _pairs(option: str, values: tuple[str, ...]) -> dict[str, str]:
@@ -279,11 +314,11 @@ def interview(
     if formula or reference:  # levels and derived terms (bayes.data.questions)
         from bayes.data.coding import reference_levels
         from bayes.data.design import build_design
-        from bayes.data.formula import formula_response
         from bayes.data.questions import interview_terms
         from bayes.errors import InputError
+        from elicit.model_spec import formula_lhs
 
-        if formula_response(formula) not in (None, response):
+        if formula and formula_lhs(formula) not in (None, response):
             raise BadInput(f"--formula: its response differs from --response {response!r}")
         try:
             design = build_design(frame, response, source=Path(data).name, formula=formula,
@@ -294,6 +329,8 @@ def interview(
     session = Interview(Path(out), response, ask, click.echo, frame=frame,
                         response_units=response_units, expert=expert)  # fmt: skip
     if design is not None:
+        used = {c.name: c.reference for c in design.terms.categorical} if design.terms else {}
+        session.model = (formula, used)
         terms = interview_terms(design, units=session.priors.units)
     else:
         terms = terms_from_data(frame, response, units=session.priors.units)

@@ -15,6 +15,7 @@ interview skips what the file answers, replays the draft and carries on.
 from __future__ import annotations
 
 from collections.abc import Callable, Mapping, Sequence
+from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
@@ -77,6 +78,7 @@ class Interview:
         self.response = response
         self._response_units = response_units
         self._draft: Draft | None = None
+        self.model: tuple[str | None, dict[str, str]] | None = None  # written as [model]
         self._load()
 
     def _load(self) -> None:
@@ -110,6 +112,9 @@ class Interview:
         return answers.with_answer(self.doc, key, value, str(self.out))
 
     def _save(self, priors: PriorSet) -> None:
+        if self.model is not None:  # the formula given and the reference levels used
+            doc = answers.prior_doc(priors)
+            priors = answers.with_model(doc, *self.model, str(self.out))
         self.doc = answers.save(priors, self.out)
         self.priors = priors
 
@@ -215,8 +220,23 @@ class Interview:
                 self.say(f"saved {saved} to {self.out}")
                 return
 
+    def run_units(self, term: Term) -> Term:
+        """Ask the units of ``term``'s predictor once (not when the file has them), save them
+        at once, and return the term with its units."""
+        if term.units is None and term.name in self.priors.units:
+            return replace(term, units=self.priors.units[term.name])
+        prompt = answers.units_prompt(term, self.priors, self.frame)
+        if prompt is None:
+            return term
+        unit = _blank_to_none(str(self._typed(prompt, type=str, default=term.units or "")))
+        if unit is None:
+            return term
+        self._save(answers.with_units(self.doc, term.name, unit, str(self.out)))
+        return replace(term, units=unit)
+
     def run_term(self, term: Term, index: int, total: int) -> None:
         """Ask about one term until an answer is valid and accepted; then save."""
+        term = self.run_units(term)
         head = f"\n[{index}/{total}] {term.column}"
         self.say(head + (f" ({term.units})" if term.units else "") + (f"; {term.describe}"
                  if term.describe else ""))  # fmt: skip

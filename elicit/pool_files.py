@@ -24,6 +24,8 @@ from elicit.pool_table import POOL_KEYS, pool_choice
 from elicit.spec import CoefficientPrior, PriorSet, Statement
 from elicit.validate import parse_priors
 
+_MODEL_DEFAULTS = {"intercept": True}  # [model] intercept = true is the same as none
+
 
 def _differ(path: str, where: str, key: str, value: Any, first: str, expected: Any) -> InputError:
     return InputError(
@@ -42,8 +44,9 @@ def check_same_study(docs: Sequence[tuple[str, Mapping[str, Any]]]) -> None:
                 raise _differ(path, "[study]", key, b, first, a)
         for table in ("units", "model"):
             a, b = head.get(table, {}), doc.get(table, {})
+            default = _MODEL_DEFAULTS if table == "model" else {}
             for key in sorted(set(a) | set(b)):
-                if a.get(key) != b.get(key):
+                if a.get(key, default.get(key)) != b.get(key, default.get(key)):
                     raise _differ(path, f"[{table}]", key, b.get(key), first, a.get(key))
 
 

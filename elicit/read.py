@@ -11,6 +11,9 @@ any other key is an error.
     ``title``, ``response`` (column of the data), ``response_units``.
 ``[units]``
     ``predictor = "unit"`` for each predictor (used in feedback and reports).
+``[model]`` (the model the priors were stated for, see :mod:`elicit.model_spec`)
+    ``formula`` (as ``bayes fit --formula`` takes it), ``reference = {column = "level"}``,
+    ``intercept`` (default true). ``bayes`` commands use it when no option says otherwise.
 ``[noise]`` (the residual sd of the response; absent: Jeffreys prior)
     Either ``sd`` (known), or ``low``, ``high``, ``mass`` (a stated range of the sd, read as
     an inverse-gamma prior on the variance, see :mod:`elicit.convert`), or ``shape``, ``scale``

@@ -16,6 +16,7 @@ from dataclasses import dataclass, field, replace
 from elicit import convert
 from elicit.conditional import CorrelatedBlock
 from elicit.errors import InputError, PriorFileError
+from elicit.model_spec import ModelSpec
 from elicit.noise_prior import NoisePrior  # noqa: F401 (its home; re-exported for callers)
 from elicit.pool import DEFAULT_METHOD, linear_misfit, pool
 from elicit.pool_mixture import MIXTURE, Component, MixtureDistribution, from_opinions, moments
@@ -229,6 +230,8 @@ class PriorSet:
         Pooled: one per column; columns without an entry are flat.
     block : CorrelatedBlock or None
     reference_rows : tuple of ReferenceRow
+    model : ModelSpec or None
+        The file's ``[model]`` table (formula, reference levels, intercept); None when absent.
 
     Examples
     --------
@@ -251,6 +254,7 @@ class PriorSet:
     coefficients: tuple[CoefficientPrior, ...]
     block: CorrelatedBlock | None
     reference_rows: tuple[ReferenceRow, ...] = field(default=())
+    model: ModelSpec | None = None
 
     _source = property(lambda self: self.path or "<priors>")
 

@@ -19,6 +19,7 @@ from elicit.conditional import CorrelatedBlock, RowStatement, from_stated_rows
 from elicit.errors import PriorFileError, shown
 from elicit.fields import FieldReader
 from elicit.limits import LARGEST, SMALLEST, UNITS
+from elicit.model_table import parse_model
 from elicit.noise_record import NOISE_RECORD_KEYS, noise_record
 from elicit.pool import METHODS
 from elicit.pool_table import POOL_KEYS, pool_choice
@@ -34,7 +35,7 @@ from elicit.validate_mixture import is_mixture, mixture_record
 
 _ENTRY_KEYS = STATEMENT_KEYS | {"name", "level", "pool", "pool_misfit", "statement", "component"}
 _TOP_KEYS = frozenset(
-    {"study", "units", "noise", "pool", "coefficient", "correlation", "reference_row"}
+    {"study", "units", "model", "noise", "pool", "coefficient", "correlation", "reference_row"}
 )
 _STUDY_KEYS = frozenset({"title", "response", "response_units"})
 _NOISE_KEYS = frozenset({"sd", "low", "high", "mass", "shape", "scale"}) | NOISE_RECORD_KEYS
@@ -328,14 +329,17 @@ def parse_priors(doc: Mapping[str, Any], *, source: str = "<priors>") -> PriorSe
     if top.has("correlation"):
         block = _parse_block(source, doc["correlation"], {c.column for c in coefficients})
     reference_rows = _parse_reference_rows(source, doc.get("reference_row", []))
+    response = study.text("response")
+    model = parse_model(source, doc["model"], response) if top.has("model") else None
     return PriorSet(
         path=source if source != "<priors>" else None,
         title=study.text("title"),
-        response=study.text("response"),
+        response=response,
         response_units=study.text("response_units"),
         units=units,
         noise=noise,
         coefficients=coefficients,
         block=block,
         reference_rows=reference_rows,
+        model=model,
     )

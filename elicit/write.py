@@ -17,6 +17,7 @@ from pathlib import Path
 from typing import Any
 
 from elicit.io import atomic_write_text
+from elicit.model_spec import model_doc
 from elicit.noise_record import noise_record_doc
 from elicit.spec import CoefficientPrior, NoisePrior, PriorSet, Statement
 
@@ -158,6 +159,8 @@ def prior_doc(priors: PriorSet) -> dict[str, Any]:
         doc["study"] = study
     if priors.units:
         doc["units"] = dict(priors.units)
+    if priors.model is not None:
+        doc["model"] = model_doc(priors.model)
     if priors.noise is not None:
         doc["noise"] = noise_record_doc(priors.noise, _noise_doc)
     if priors.coefficients:

@@ -17,6 +17,8 @@ ROOT = Path(__file__).resolve().parents[1]
 # Invented data for the test.
 DATA = "x1,x2,y\n0.1,1,2.0\n0.4,2,3.1\n0.9,1,4.2\n1.3,3,5.9\n1.8,2,6.1\n2.2,4,8.3\n"
 
+# the units of x1 and x2, asked once before each predictor's questions (saved at once)
+U1, U2 = ["kg"], ["h"]
 # family, per, low, high, mass, expert, rationale, accept
 X1 = ["normal", "1", "1", "4", "0.9", "analyst A", "steady rise in the invented pilot runs", "a"]
 # an invalid answer (the highest below the lowest) refused the moment it is typed and retyped,
@@ -40,6 +42,7 @@ def lines(answers):
 def expected_doc():
     return {
         "study": {"response": "y"},
+        "units": {"x1": "kg", "x2": "h"},
         "noise": {"low": 0.3, "high": 1.5, "mass": 0.9, "expert": "analyst C",
                   "rationale": "repeat runs of the invented pilot scatter"},
         "coefficient": [
@@ -75,11 +78,11 @@ def test_kill_midway_then_resume(tmp_path):
     with open(tmp_path / "log1.txt", "w") as log:
         proc = subprocess.Popen(command(tmp_path), stdin=subprocess.PIPE, stdout=log,
                                 stderr=subprocess.STDOUT, cwd=ROOT, env=env, text=True)  # fmt: skip
-        proc.stdin.write(lines(X1))
+        proc.stdin.write(lines(U1 + X1))
         proc.stdin.flush()
         wait_for(lambda: answered(out, "x1"), "x1 to be saved")
         # half of x2's answers, then the process is killed at the next prompt
-        proc.stdin.write(lines(X2[:3]))
+        proc.stdin.write(lines(U2 + X2[:3]))
         proc.stdin.flush()
         time.sleep(0.5)
         proc.send_signal(signal.SIGKILL)
@@ -98,9 +101,11 @@ def test_kill_midway_then_resume(tmp_path):
                              env=env, text=True, capture_output=True)  # fmt: skip
     assert resumed.returncode == 0, resumed.stderr
     assert "resuming the draft: 3 typed answers" in resumed.stdout
-    assert "Lowest plausible change in y per 2 of x2: -1.0 (from the draft)" in resumed.stdout
+    assert "Lowest plausible change in y per 2 h of x2: -1.0 (from the draft)" in resumed.stdout
     assert sorted(os.listdir(tmp_path)) == ["d.csv", "log1.txt", "p.toml"]
     assert "already answered: x1" in resumed.stdout
+    assert "Units of x2" not in resumed.stdout  # the file has them: not asked again
+    assert "Units of x1 (data: 0.1 to 2.2)" in (tmp_path / "log1.txt").read_text()
     assert "not accepted: must be above the lowest (2), got -2" in resumed.stdout
     assert "P(positive)" in resumed.stdout and "implied response" in resumed.stdout
     # the noise feedback of the interview: median and 90% interval of the sd, and the shape
@@ -124,7 +129,7 @@ def test_kill_midway_then_resume(tmp_path):
 def test_input_ending_early_keeps_accepted_answers(tmp_path):
     (tmp_path / "d.csv").write_text(DATA)
     env = dict(os.environ, PYTHONPATH=str(ROOT))
-    run = subprocess.run(command(tmp_path), input=lines(X1 + X2[:4]), cwd=ROOT, env=env,
+    run = subprocess.run(command(tmp_path), input=lines(U1 + X1 + U2 + X2[:4]), cwd=ROOT, env=env,
                          text=True, capture_output=True)  # fmt: skip
     assert run.returncode == 2
     assert "run the same command to resume" in run.stderr
@@ -257,7 +262,8 @@ def test_a_second_interview_on_the_same_file_is_refused(tmp_path):
         first.kill()
         first.wait()
     # the lock of the killed process is stale: the next interview takes it over
-    run = subprocess.run(command(tmp_path), input=lines(X1 + X2 + NOISE), cwd=ROOT, env=env,
+    typed = lines(U1 + X1 + U2 + X2 + NOISE)
+    run = subprocess.run(command(tmp_path), input=typed, cwd=ROOT, env=env,
                          text=True, capture_output=True, timeout=120)  # fmt: skip
     assert run.returncode == 0, run.stderr
     assert not lock.exists()

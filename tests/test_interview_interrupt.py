@@ -13,6 +13,8 @@ ROOT = Path(__file__).resolve().parents[1]
 # Invented data for the test.
 DATA = "x1,y\n0.1,2.0\n0.4,3.1\n0.9,4.2\n1.3,5.9\n"
 # family, per, low, high, mass, expert, rationale, accept
+# the units of x1 (the first question, saved at once); a blank answer saves nothing
+U1, NO_UNITS = ["kg"], [""]
 X1 = ["normal", "1", "1", "4", "0.9", "analyst A", "", "a"]
 
 
@@ -53,7 +55,7 @@ def interrupt_at(tmp_path, typed, prompt, count=1):
 
 
 def test_ctrl_c_at_the_first_prompt(tmp_path):
-    code, err = interrupt_at(tmp_path, [], "Family for x1")
+    code, err = interrupt_at(tmp_path, [], "Units of x1")
     assert code == 2 and "Traceback" not in err
     assert "nothing accepted yet" in err and "nothing written" in err
     assert not (tmp_path / "p.toml").exists()
@@ -61,7 +63,7 @@ def test_ctrl_c_at_the_first_prompt(tmp_path):
 
 
 def test_ctrl_c_mid_question_keeps_the_draft(tmp_path):
-    code, err = interrupt_at(tmp_path, X1[:3], "Highest plausible")
+    code, err = interrupt_at(tmp_path, NO_UNITS + X1[:3], "Highest plausible")
     assert code == 2 and "Traceback" not in err
     draft = tmp_path / "p.toml.draft"
     assert (
@@ -72,7 +74,7 @@ def test_ctrl_c_mid_question_keeps_the_draft(tmp_path):
 
 
 def test_ctrl_c_after_an_accepted_answer_names_the_file(tmp_path):
-    code, err = interrupt_at(tmp_path, X1, "Lowest plausible residual")
+    code, err = interrupt_at(tmp_path, U1 + X1, "Lowest plausible residual")
     out = tmp_path / "p.toml"
     assert code == 2 and f"accepted answers are in {out}" in err
     assert out.exists()

@@ -62,13 +62,13 @@ def fit_command(data, response, predictors, priors, formula, reference, drop_mis
         result = streamed_fit_from_options(data, response, predictors, priors, formula, reference,
                                            drop_missing, level, fmt, method, sampler,
                                            chunk_rows, engine, scheduler,
-                                           not no_intercept)  # fmt: skip
+                                           False if no_intercept else None)  # fmt: skip
     else:
         with progress_bar(fmt, "sampling") as progress:
             result = fit_from_options(data, response, predictors, priors, drop_missing, level,
                                       method, sampler, progress, formula=formula,
                                       reference=reference,
-                                      intercept=not no_intercept)  # fmt: skip
+                                      intercept=False if no_intercept else None)  # fmt: skip
     if save_dir:
         from bayes.store import save_fit
 

@@ -109,26 +109,36 @@ def split_columns(text: str | None) -> list[str] | None:
 
 
 def design_from_options(data, response, predictors, prior_set, drop_missing, formula=None,
-                        reference=(), intercept=True):  # fmt: skip
-    """Read DATA and build the design the command line asks for (used by several commands)."""
+                        reference=(), intercept=None):  # fmt: skip
+    """Read DATA and build the design the command line asks for (used by several commands):
+    the prior file's [model] where no option says otherwise, one note per option that
+    overrides it."""
     from bayes.data.coding import reference_levels
     from bayes.data.design import build_design
     from bayes.data.formula import formula_response
+    from bayes.data.model_choice import choose_model, file_errors
     from elicit.io import read_table
 
-    if formula_response(formula) is None:
+    choice = choose_model(prior_set, formula=formula, reference=reference_levels(reference),
+                          intercept=intercept, response=response,
+                          predictors=split_columns(predictors))  # fmt: skip
+    for line in choice.notes():
+        click.echo(f"note: {line}", err=True)
+    if formula_response(choice.formula) is None:
         response = response or prior_set.response
         if not response:
             raise click.UsageError("give --response (or [study] response in the prior file)")
-    return build_design(
-        read_table(data), response, split_columns(predictors), drop_missing=drop_missing,
-        source=Path(data).name, formula=formula, reference=reference_levels(reference),
-        intercept=intercept,
-    )  # fmt: skip
+    frame = read_table(data)
+    with file_errors(choice):
+        return build_design(
+            frame, response, split_columns(predictors), drop_missing=drop_missing,
+            source=Path(data).name, formula=choice.formula, reference=choice.reference,
+            intercept=choice.intercept,
+        )  # fmt: skip
 
 
 def fit_from_options(data, response, predictors, priors, drop_missing, level, method, sampler,
-                     progress=None, formula=None, reference=(), intercept=True):  # fmt: skip
+                     progress=None, formula=None, reference=(), intercept=None):  # fmt: skip
     """Read the files named on the command line and fit (used by several commands)."""
     from bayes.api import fit, load_priors
 
@@ -143,14 +153,23 @@ def fit_from_options(data, response, predictors, priors, drop_missing, level, me
 
 def streamed_fit_from_options(data, response, predictors, priors, formula, reference,
                               drop_missing, level, fmt, method, sampler, chunk_rows, engine,
-                              scheduler, intercept=True):  # fmt: skip
+                              scheduler, intercept=None):  # fmt: skip
     """Fit from a data factor read in chunks (bayes.data.stream) or by dask (.distributed)."""
     from bayes.api import fit_factor, load_priors
+    from bayes.data.model_choice import choose_model
     from bayes.errors import InputError
 
     if formula or reference:
         raise InputError("--formula and --reference are not available for streamed fits")
     prior_set = load_priors(priors)
+    choice = choose_model(prior_set, intercept=intercept, predictors=split_columns(predictors))
+    if choice.formula or choice.reference:
+        raise InputError(f"{choice.source}: [model]: field 'formula': a formula and "
+                         "reference levels are not available for streamed fits "
+                         "(use --no-stream)")  # fmt: skip
+    for line in choice.notes():
+        click.echo(f"note: {line}", err=True)
+    intercept = choice.intercept
     response = response or prior_set.response
     if not response:
         raise click.UsageError("give --response (or [study] response in the prior file)")

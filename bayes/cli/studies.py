@@ -92,7 +92,12 @@ def compare_command(data, priors, response, predictors, formula, reference, drop
             f"the prior files name different responses ({', '.join(sorted(stated))}): "
             "give --response"
         )
-    design = design_from_options(data, response, predictors, prior_sets[0], drop_missing, formula,
+    from bayes.data.coding import reference_levels
+    from bayes.data.model_choice import check_same_model
+
+    check_same_model(prior_sets, formula=formula, reference=reference_levels(reference))
+    first = next((ps for ps in prior_sets if ps.model is not None), prior_sets[0])
+    design = design_from_options(data, response, predictors, first, drop_missing, formula,
                                  reference)  # fmt: skip
     sampled = method == "sample" or any(c.family in ("laplace", "student_t")
                                         for ps in prior_sets for c in ps.coefficients)  # fmt: skip
