@@ -2,8 +2,10 @@
 
 The two-mode designs are those of tests/test_noise_modes.py (invented data: precise data
 meeting confident normal priors that contradict them, both modes carrying mass by the test's
-own dense-grid integration there). The Gibbs chains stay in the mode they reach first, so
-their draws do not reflect the exact masses; the fit must say so in a note and a JSON flag.
+own dense-grid integration there). The Gibbs chains (run for Laplace priors) stay in the mode
+they reach first, so their draws do not reflect the masses; the fit must say so in a note and a
+JSON flag. With Gaussian priors the draws are iid from the exact posterior and must not be
+flagged.
 """
 
 from __future__ import annotations
@@ -39,46 +41,57 @@ def _crossing_notes(result):
     return [n for n in result.notes if n.startswith("noise modes not crossed")]
 
 
-def test_a_sampled_fit_on_a_two_mode_design_says_the_chains_do_not_cross(two_modes):
+def _laplace_priors(priors):
+    """The normal prior replaced by a Laplace prior of the same centre and variance
+    (b = sd / sqrt 2), so that the fit runs the Gibbs chains."""
+    (c,) = priors.coefficients
+    doc = {"coefficient": [{"name": c.column, "family": "laplace", "center": float(c.center),
+                            "scale": float(c.scale / np.sqrt(2))}]}  # fmt: skip
+    return parse_priors(doc)
+
+
+def test_exact_iid_draws_visit_both_modes_in_proportion(two_modes):
+    # Gaussian priors: --method sample draws iid from the exact posterior (no chain), so the
+    # draws share themselves between the modes as the exact masses say, and nothing is flagged.
     frame, priors, ref = two_modes
     result = fit(frame, "y", priors=priors, method="sample", sampler=SAMPLER)
     d = result.to_dict()["diagnostics"]
-    assert d["noise_modes_not_crossed"] is True
     check = d["noise_mode_check"]
     assert check["exact_masses"] is True  # Gaussian priors: the exact engine's masses
     np.testing.assert_allclose(check["sigma"], np.exp(ref.peaks), rtol=1e-3)  # grid step
     # The exact masses are the dense grid's (tests/test_noise_modes.py checks them to 1e-3).
     assert abs(check["mass"][1] - ref.upper_mass()) < 1e-3
+    n = SAMPLER.chains * SAMPLER.draws  # iid draws: a share's sd is sqrt(m (1 - m) / n)
+    m = ref.upper_mass()
+    assert abs(check["share_of_draws"][1] - m) < 4 * np.sqrt(m * (1 - m) / n)
+    assert d["noise_modes_not_crossed"] is False
+    assert _crossing_notes(result) == []
+    json.dumps(result.to_dict())  # the new fields are JSON
+
+
+def test_gibbs_chains_on_a_two_mode_design_say_they_do_not_cross(two_modes):
+    frame, priors, _ = two_modes
+    result = fit(frame, "y", priors=_laplace_priors(priors), method="sample", sampler=SAMPLER)
+    d = result.to_dict()["diagnostics"]
+    assert d["noise_mode_check"]["exact_masses"] is False
+    assert d["noise_modes_not_crossed"] is True
     (note,) = _crossing_notes(result)
-    for sigma in check["sigma"]:
+    for sigma in d["noise_mode_check"]["sigma"]:
         assert f"{sigma:.4g}" in note
     assert "may not cross" in note
-    json.dumps(result.to_dict())  # the new fields are JSON
+    assert "Gaussian stand-in" in note
+    json.dumps(result.to_dict())
 
 
 def test_the_flag_and_note_survive_a_saved_fit(two_modes, tmp_path):
     from bayes.store import load_fit, save_fit
 
     frame, priors, _ = two_modes
-    result = fit(frame, "y", priors=priors, method="sample", sampler=SAMPLER)
+    result = fit(frame, "y", priors=_laplace_priors(priors), method="sample", sampler=SAMPLER)
     save_fit(result, tmp_path / "fit")
     again = load_fit(tmp_path / "fit")
     assert again.diagnostics["noise_modes_not_crossed"] is True
     assert _crossing_notes(again) == _crossing_notes(result)
-
-
-def test_laplace_priors_are_judged_by_their_gaussian_stand_in(two_modes):
-    frame, priors, _ = two_modes
-    (c,) = priors.coefficients
-    sd = c.scale  # the normal prior's sd: a Laplace prior of the same variance, b = sd / sqrt 2
-    doc = {"coefficient": [{"name": c.column, "family": "laplace", "center": float(c.center),
-                            "scale": float(sd / np.sqrt(2))}]}  # fmt: skip
-    result = fit(frame, "y", priors=parse_priors(doc), method="sample", sampler=SAMPLER)
-    d = result.diagnostics
-    assert d["noise_mode_check"]["exact_masses"] is False
-    assert d["noise_modes_not_crossed"] is True
-    (note,) = _crossing_notes(result)
-    assert "Gaussian stand-in" in note
 
 
 def test_the_stand_in_keeps_each_prior_s_centre_and_variance():
