@@ -244,45 +244,27 @@ def pool(priors: tuple[str, ...], out: str, method: str | None, families: tuple[
 @click.option("--response-units", help="Units of the response, e.g. MPa.")
 @click.option("--expert", help="Default expert name.")
 @click.option("--no-noise", is_flag=True, help="Do not ask about the noise.")
-@click.option(
-    "--conditional",
-    is_flag=True,
-    help="Ask the expected response at reference rows instead (conditional means).",
-)
-@click.option(
-    "--formula",
-    help="Model formula (as for bayes fit): ask about each categorical level and derived term.",
-)
+@click.option("--conditional", is_flag=True,
+              help="Ask the expected response at reference rows instead "
+              "(conditional means).")  # fmt: skip
+@click.option("--formula",
+              help="Model formula (as for bayes fit): ask about each categorical level and "
+              "derived term.")  # fmt: skip
 @click.option("--reference", multiple=True, metavar="COLUMN=LEVEL",
               help="Reference level of a categorical predictor (repeatable).")  # fmt: skip
 @click.option("--browser", is_flag=True, help="Interview in the browser (a local server).")
-@click.option(
-    "--others",
-    multiple=True,
-    type=click.Path(dir_okay=False),
-    help="--browser: another expert's prior file, shown after answering (repeatable).",
-)
+@click.option("--others", multiple=True, type=click.Path(dir_okay=False),
+              help="--browser: another expert's prior file, shown after answering "
+              "(repeatable).")  # fmt: skip
 @click.option("--no-open", is_flag=True, help="--browser: print the address, do not open it.")
 @click.option("--host", default="127.0.0.1", show_default=True,
               help="--browser: address to serve on (another than 127.0.0.1 warns).")  # fmt: skip
 @click.option("--port", type=click.IntRange(0, 65535), default=0,
               help="--browser: port (default: a free one).")  # fmt: skip
-def interview(
-    data: str,
-    response: str | None,
-    out: str,
-    response_units: str | None,
-    expert: str | None,
-    no_noise: bool,
-    conditional: bool,
-    formula: str | None = None,
-    reference: tuple[str, ...] = (),
-    browser: bool = False,
-    others: tuple[str, ...] = (),
-    no_open: bool = False,
-    host: str = "127.0.0.1",
-    port: int = 0,
-):
+def interview(data: str, response: str | None, out: str, response_units: str | None,
+              expert: str | None, no_noise: bool, conditional: bool, formula: str | None = None,
+              reference: tuple[str, ...] = (), browser: bool = False, others: tuple[str, ...] = (),
+              no_open: bool = False, host: str = "127.0.0.1", port: int = 0):  # fmt: skip
     """Ask an expert about each predictor, with feedback; save after every answer; resume."""
     from elicit.interview import Interview, terms_from_data
 
@@ -292,15 +274,21 @@ def interview(
     if response not in frame:
         raise BadInput(f"{data}: no response column {response!r}")
     _out_path(out)
-    if browser:
-        if conditional or formula or reference:
-            raise BadInput("--browser: asks about numeric predictors only (no --conditional, "
-                           "--formula or --reference yet)")  # fmt: skip
-        _browser(frame, response, Path(out), response_units, expert, no_noise, others,
-                 no_open=no_open, host=host, port=port)  # fmt: skip
-        return
-    if others or no_open or host != "127.0.0.1" or port:
+    if browser and conditional:
+        raise BadInput("--browser: no --conditional yet (the terminal interview asks those)")
+    if not browser and (others or no_open or host != "127.0.0.1" or port):
         raise BadInput("--others, --no-open, --host and --port go with --browser")
+    from elicit.columns_kind import column_kinds
+
+    notes = column_kinds(frame, response).notes()  # the row label, the columns not used
+    design = _design(frame, response, data, formula, reference)
+    if design is not None:
+        frame = design.frame()
+    if browser:
+        _browser(frame, response, Path(out), response_units, expert, no_noise, others, design,
+                 (formula, _levels(design)), notes, no_open=no_open, host=host,
+                 port=port)  # fmt: skip
+        return
 
     echo = not sys.stdin.isatty()
 
@@ -310,27 +298,14 @@ def interview(
             click.echo(answer)
         return answer
 
-    design = None
-    if formula or reference:  # levels and derived terms (bayes.data.questions)
-        from bayes.data.coding import reference_levels
-        from bayes.data.design import build_design
-        from bayes.data.questions import interview_terms
-        from bayes.errors import InputError
-        from elicit.model_spec import formula_lhs
-
-        if formula and formula_lhs(formula) not in (None, response):
-            raise BadInput(f"--formula: its response differs from --response {response!r}")
-        try:
-            design = build_design(frame, response, source=Path(data).name, formula=formula,
-                                  reference=reference_levels(reference))  # fmt: skip
-        except InputError as exc:
-            raise BadInput(str(exc)) from None
-        frame = design.frame()
+    for line in notes:
+        click.echo(line)
     session = Interview(Path(out), response, ask, click.echo, frame=frame,
                         response_units=response_units, expert=expert)  # fmt: skip
     if design is not None:
-        used = {c.name: c.reference for c in design.terms.categorical} if design.terms else {}
-        session.model = (formula, used)
+        from bayes.data.questions import interview_terms
+
+        session.model = (formula, _levels(design))
         terms = interview_terms(design, units=session.priors.units)
     else:
         terms = terms_from_data(frame, response, units=session.priors.units)
@@ -341,6 +316,33 @@ def interview(
         sys.exit(2)  # an interrupted interview is bad input: status 2, nothing lost
 
 
+def _design(frame, response: str, data: str, formula, reference):
+    """The design of ``--formula`` / ``--reference`` (levels and derived terms,
+    bayes.data.questions), or None without them; both faces ask about its terms."""
+    if not (formula or reference):
+        return None
+    from bayes.data.coding import reference_levels
+    from bayes.data.design import build_design
+    from bayes.errors import InputError
+    from elicit.model_spec import formula_lhs
+
+    if formula and formula_lhs(formula) not in (None, response):
+        raise BadInput(f"--formula: its response differs from --response {response!r}")
+    try:
+        return build_design(frame, response, source=Path(data).name, formula=formula,
+                            reference=reference_levels(reference))  # fmt: skip
+    except InputError as exc:
+        raise BadInput(str(exc)) from None
+
+
+def _levels(design) -> dict[str, str]:
+    """The reference level used for each categorical predictor of ``design`` (written as
+    ``[model] reference``)."""
+    if design is None or not design.terms:
+        return {}
+    return {c.name: c.reference for c in design.terms.categorical}
+
+
 def _resumed_response(out: str) -> str:
     from elicit.read import read_prior_file
 
@@ -349,8 +351,8 @@ def _resumed_response(out: str) -> str:
     raise BadInput("--response: missing (and no prior file to resume names one)")
 
 
-def _browser(frame, response, out: Path, response_units, expert, no_noise, others, *,
-             no_open: bool, host: str, port: int) -> None:  # fmt: skip
+def _browser(frame, response, out: Path, response_units, expert, no_noise, others, design,
+             model, notes, *, no_open: bool, host: str, port: int) -> None:  # fmt: skip
     import webbrowser
 
     from elicit.browser.api import Study
@@ -361,9 +363,15 @@ def _browser(frame, response, out: Path, response_units, expert, no_noise, other
     if warning := check_host(host):
         click.echo(f"elicit: {warning}", err=True)
     units = read_prior_file(out).units if out.exists() else {}
-    terms = tuple(terms_from_data(frame, response, units=units))
+    if design is not None:
+        from bayes.data.questions import interview_terms
+
+        terms = tuple(interview_terms(design, units=units))
+    else:
+        terms = tuple(terms_from_data(frame, response, units=units))
     study = Study(out, frame, response, terms, response_units,
-                  tuple((p, read_prior_file(p)) for p in others), noise=not no_noise)  # fmt: skip
+                  tuple((p, read_prior_file(p)) for p in others), noise=not no_noise,
+                  model=model if design is not None else None, notes=notes)  # fmt: skip
     serve(study, expert=expert, host=host, port=port, say=click.echo,
           ready=None if no_open else webbrowser.open)  # fmt: skip
 

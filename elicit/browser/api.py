@@ -2,10 +2,13 @@
 
 Requests (all JSON; the server checks the token and the Host first, :mod:`.server`):
 
-- ``GET /api/state``: the study, the terms with what the file already holds, the expert.
-- ``POST /api/preview``: a statement -> the fitted prior's picture and words, or the validator's
-  messages by field. Nothing is written.
-- ``POST /api/accept``: the same, then, when valid, written at once to the prior file.
+- ``GET /api/state``: the study, the data's row-label and not-used lines, the terms with what
+  the file already holds (and, for a predictor whose units it lacks, the units question), the
+  expert.
+- ``POST /api/preview``: a statement (with the predictor's units where asked) -> the fitted
+  prior's picture and words, or the validator's messages by field. Nothing is written.
+- ``POST /api/accept``: the same, then, when valid, written at once to the prior file, units,
+  answer and ``[model]`` in one atomic write.
 - ``POST /api/others``: for a term already answered, the other experts' statements (the prior
   files given with ``--others``) and the linear pool of all of them.
 - ``GET /api/summary``: every prior with its picture, the file's path and ``elicit show`` text.
@@ -19,7 +22,7 @@ from __future__ import annotations
 import threading
 import warnings
 from collections.abc import Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -51,6 +54,8 @@ class Study:
     response_units: str | None = None
     others: tuple[tuple[str, PriorSet], ...] = ()
     noise: bool = True
+    model: tuple[str | None, dict[str, str]] | None = None  # the formula given, levels used
+    notes: tuple[str, ...] = ()  # the data's row-label and not-used lines
 
 
 class Session:
@@ -75,8 +80,30 @@ class Session:
     def _units(self) -> str | None:
         return self.priors.response_units
 
+    def _with_units(self, priors: PriorSet, term: Term) -> Term:
+        """``term`` with its predictor's units as ``priors`` hold them."""
+        unit = priors.units.get(term.name) if term.level is None else None
+        return replace(term, units=unit) if unit is not None else term
+
+    def _doc_with_units(self, body: Mapping[str, Any], term: Term | None) -> dict[str, Any]:
+        """The document with the predictor's units typed beside the statement (where the file
+        lacks them: :func:`elicit.answers.units_prompt`), validated; blank: none given."""
+        if term is None or answers.units_prompt(term, self.priors, self.study.frame) is None:
+            return self.doc
+        unit = body.get("units")
+        if isinstance(unit, str):
+            unit = unit.strip()
+        if unit is None or unit == "":
+            return self.doc
+        try:
+            priors = answers.with_units(self.doc, term.name, unit, str(self.study.out))
+        except PriorFileError as exc:
+            raise _Invalid({"units": form.field_of(str(exc))[1]}) from None
+        return answers.prior_doc(priors)
+
     def _candidate(self, body: Mapping[str, Any]) -> tuple[str, dict, PriorSet, list[str]]:
         term = self._term(body.get("column"))
+        doc = self._doc_with_units(body, term)
         try:
             if term is None:
                 key, entry = "noise", form.noise_entry(body)
@@ -89,7 +116,10 @@ class Session:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always", ElicitationWarning)
             try:
-                candidate = answers.with_answer(self.doc, key, entry, str(self.study.out))
+                candidate = answers.with_answer(doc, key, entry, str(self.study.out))
+                if self.study.model is not None:  # as the terminal interview writes it
+                    done = answers.prior_doc(candidate)
+                    candidate = answers.with_model(done, *self.study.model, str(self.study.out))
             except PriorFileError as exc:
                 where, problem = form.field_of(str(exc))
                 raise _Invalid({where: problem}) from None
@@ -98,6 +128,7 @@ class Session:
 
     # ------------------------------------------------------------------ views
     def coefficient_view(self, priors: PriorSet, term: Term) -> dict[str, Any]:
+        term = self._with_units(priors, term)
         prior = priors.get(term.column)
         s = prior.statements[-1]
         marks = views.stated_marks(s)
@@ -146,8 +177,9 @@ class Session:
     def state(self) -> dict[str, Any]:
         with self._mutex:
             done = answers.answered(self.priors)
-            items = [{"column": t.column, "units": t.units, "describe": t.describe,
-                      "answered": t.column in done,
+            items = [{"column": t.column, "units": self._with_units(self.priors, t).units,
+                      "units_prompt": answers.units_prompt(t, self.priors, self.study.frame),
+                      "describe": t.describe, "answered": t.column in done,
                       "view": self.view(self.priors, t.column) if self.priors.get(t.column)
                       else None} for t in self.study.terms]  # fmt: skip
             if self.study.noise:
@@ -159,6 +191,7 @@ class Session:
             return {"response": self.study.response, "response_units": self._units(),
                     "title": self.priors.title, "out": str(self.study.out.resolve()),
                     "expert": self.expert, "items": items, "chips": form.DEFAULT_CHIPS,
+                    "notes": list(self.study.notes),
                     "others": len(self.study.others),
                     "quantile_sets": {k: list(v) for k, v in form.QUANTILE_SETS.items()},
                     }  # fmt: skip

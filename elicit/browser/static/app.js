@@ -5,7 +5,7 @@
 (function () {
   var TOKEN = document.querySelector('meta[name="elicit-token"]').content;
   var FIELDS = ["family", "df", "per", "low", "high", "mass", "quantile_set", "q0", "q1", "q2",
-                "bin_low", "bin_high", "bin_count", "rationale"];
+                "bin_low", "bin_high", "bin_count", "rationale", "units"];
   var state = null, current = null, chips = [], edges = [], timer = null, seq = 0;
 
   function $(id) { return document.getElementById(id); }
@@ -44,6 +44,9 @@
       state = s;
       $("study-title").textContent = s.title || ("Prior interview: " + s.response);
       $("out-path").textContent = s.out;
+      var notes = $("data-notes");
+      notes.textContent = "";
+      (s.notes || []).forEach(function (t) { var li = document.createElement("li"); li.textContent = t; notes.appendChild(li); });
       if (!$("expert").value) $("expert").value = s.expert || "";
       var next = column || (s.items.find(function (i) { return !i.answered; }) || s.items[0]).column;
       select(next);
@@ -91,6 +94,8 @@
     $("q-describe").textContent = current.describe || "";
     $("method-set").hidden = noise;
     $("shape-set").hidden = noise;
+    $("units-row").hidden = !current.units_prompt;  // asked once, where the file lacks them
+    $("units-label").textContent = current.units_prompt || "Units";
     $("per-label").textContent = "Stated for a change in " + column + " of" + (current.units ? " (" + current.units + ")" : "");
     $("range-legend").textContent = noise ? "The range of the residual sd" + (state.response_units ? " (" + state.response_units + ")" : "")
       : "The range of the change in " + state.response;
