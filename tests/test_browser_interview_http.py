@@ -431,3 +431,95 @@ def test_the_terminal_interview_resumes_what_the_browser_saved(client, server):
     assert "already answered: water_cement, fly_ash" in run.stdout, run.stdout
     assert "curing_temp" in run.stdout and run.returncode == 2
     assert out.read_bytes() == saved
+
+
+# --------------------------------------------------------------------------- units and [model]
+
+
+def test_the_units_are_asked_once_and_saved_with_the_answer(client, server, monkeypatch):
+    out = server.session.study.out
+    (item, *_) = client.get("/api/state").json()["items"]
+    # the terminal interview's question (elicit.answers.units_prompt), the data's range shown
+    assert item["units_prompt"].startswith("Units of water_cement (data: ")
+    preview = client.post("/api/preview", {**RANGE, "units": "ratio"}).json()
+    assert "per 0.1 ratio of water_cement" in preview["view"]["xlabel"]
+    assert not out.exists()  # a preview writes nothing, the units included
+    replaced = []
+    real = os.replace
+    monkeypatch.setattr(eio.os, "replace", lambda a, b: (replaced.append(b), real(a, b)))
+    assert client.post("/api/accept", {**RANGE, "units": " ratio "}).json()["ok"] is True
+    assert replaced == [out]  # units and answer in one atomic write
+    priors = read_prior_file(out)
+    assert priors.units == {"water_cement": "ratio"} and priors.get("water_cement") is not None
+    state = client.get("/api/state").json()
+    first = state["items"][0]
+    assert first["units"] == "ratio" and first["units_prompt"] is None
+    assert first["view"]["xlabel"] == "change in strength per 0.1 ratio of water_cement (MPa)"
+    assert "MPa per 0.05 ratio of water_cement." in first["view"]["words"]["restated"][0]
+    # another predictor is asked its own; a blank answer gives none (as in the terminal)
+    fly = {**RANGE, "column": "fly_ash", "low": "-2", "high": "1", "units": "  "}
+    assert state["items"][1]["units_prompt"].startswith("Units of fly_ash (data: ")
+    assert client.post("/api/accept", fly).json()["ok"] is True
+    assert read_prior_file(out).units == {"water_cement": "ratio"}
+
+
+def test_a_resumed_file_with_units_is_not_asked_again(tmp_path):
+    out = tmp_path / "priors.toml"
+    with served(study(out)) as s:
+        c = Client(s.address)
+        assert c.post("/api/accept", {**RANGE, "units": "ratio"}).json()["ok"] is True
+    with served(study(out)) as s:  # the server restarted on the same file
+        c = Client(s.address)
+        item = c.get("/api/state").json()["items"][0]
+        assert item["units"] == "ratio" and item["units_prompt"] is None
+        assert "ratio of water_cement" in item["view"]["xlabel"]
+        # the predictors whose units the file lacks are still asked, with their first answer
+        curing = {**RANGE, "column": "curing_temp", "per": "5", "low": "0", "high": "4",
+                  "units": "degC"}  # fmt: skip
+        assert c.post("/api/accept", curing).json()["ok"] is True
+        assert c.post("/api/accept", {**RANGE, "column": "fly_ash", "units": "share"}).json()["ok"]
+    assert read_prior_file(out).units == {"water_cement": "ratio", "curing_temp": "degC",
+                                          "fly_ash": "share"}  # fmt: skip
+
+
+def test_bad_units_get_the_validators_message_beside_the_field(client, server):
+    out = server.session.study.out
+    doc = {"study": {"response": "strength"}, "units": {"water_cement": 42}}
+    with pytest.raises(PriorFileError) as caught:
+        parse_priors(doc, source="check")
+    expected = str(caught.value)
+    assert "field 'water_cement'" in expected
+    for path in ("/api/preview", "/api/accept"):
+        answer = client.post(path, {**RANGE, "units": 42}).json()
+        assert answer["ok"] is False and list(answer["errors"]) == ["units"], answer
+        assert expected.endswith(": " + answer["errors"]["units"])
+    assert not out.exists() and _leftovers(out.parent) == []
+
+
+def test_the_page_shows_the_datas_row_label(tmp_path):
+    from elicit.columns_kind import column_kinds
+
+    frame = __import__("pandas").read_csv(DEMO_CSV)
+    notes = column_kinds(frame, "strength").notes()
+    assert notes and notes[0].startswith("row label: batch")
+    proc, address = start(command(DEMO_CSV, tmp_path / "p.toml"))
+    try:
+        assert Client(address).get("/api/state").json()["notes"] == list(notes)
+    finally:
+        stop(proc)
+
+
+def test_the_browser_writes_the_model_it_was_given(tmp_path):
+    out = tmp_path / "priors.toml"
+    formula = "strength ~ water_cement + fly_ash"
+    proc, address = start(command(DEMO_CSV, out, "--formula", formula))
+    try:
+        c = Client(address)
+        assert [i["column"] for i in c.get("/api/state").json()["items"]] == [
+            "water_cement", "fly_ash", "noise"]  # fmt: skip
+        assert c.post("/api/accept", {**RANGE, "units": "ratio"}).json()["ok"] is True
+    finally:
+        stop(proc)
+    priors = read_prior_file(out)
+    assert priors.model is not None and priors.model.formula == formula
+    assert priors.units == {"water_cement": "ratio"}
