@@ -308,3 +308,18 @@ def test_each_answer_is_checked_the_moment_it_is_typed(tmp_path):
         "not accepted: must be above the lowest (1), got -1",
         "not accepted: a probability must lie strictly between 0 and 1, got 1.5",
     ]
+
+
+def test_the_row_label_and_unused_columns_are_said_before_the_questions(tmp_path):
+    # invented data: an identifier column (all values distinct) and an empty one
+    data = "plot,x1,notes,y\nP1,0.1,,2.0\nP2,0.4,,3.1\nP3,0.9,,4.2\nP4,1.3,,5.9\n"
+    (tmp_path / "d.csv").write_text(data)
+    env = dict(os.environ, PYTHONPATH=str(ROOT))
+    run = subprocess.run(command(tmp_path), input="", cwd=ROOT, env=env, text=True,
+                         capture_output=True, timeout=120)  # fmt: skip
+    assert run.returncode == 2 and "Traceback" not in run.stderr
+    said = run.stdout.splitlines()
+    label = "row label: plot (all values distinct; not a predictor)"
+    unused = "not used: notes (no values)"
+    assert said[:2] == [label, unused], said
+    assert any(line.startswith("Units of x1 (data: 0.1 to 1.3)") for line in said[2:]), said
