@@ -93,11 +93,14 @@ def test_three_methods_with_the_server_killed_between_answers(browser, tmp_path)
         expect(page.locator("#q-title")).to_have_text("water_cement")
         # 1. a range and its probability: 90% sure that 0.1 more water/cement changes the
         #    strength by -9 to -3 MPa (invented)
+        # its units first, asked once with the data's range (the terminal interview's question)
+        expect(page.locator("#units-label")).to_contain_text("Units of water_cement (data: ")
+        page.fill("#units", "ratio")
         page.fill("#per", "0.1")
         page.fill("#low", "-9")
         page.fill("#high", "-3")
         page.fill("#rationale", "more water, weaker paste")
-        expect(page.locator("#words")).to_contain_text("Median change in strength")
+        expect(page.locator("#words")).to_contain_text("Median change in strength per 0.1 ratio")
         shown = page.locator("#words pre").inner_text()
         _accept(page)
         assert read_prior_file(out).get("water_cement") is not None  # saved at once
@@ -144,8 +147,14 @@ def test_three_methods_with_the_server_killed_between_answers(browser, tmp_path)
         expect(page.locator("#chips-left")).to_have_text("Chips left to place: 0 of 20")
         expect(page.locator("#board .bin").nth(1).locator(".count")).to_have_text("8")
         expect(page.locator("#words")).to_contain_text("misses your stated cumulative")
+        # nothing typed yet in the units: none in the labels
+        expect(page.locator("#chart-caption")).to_contain_text("per 5 of curing_temp")
+        page.locator("#units").press_sequentially("°C")
+        expect(page.locator("#chart-caption")).to_contain_text("per 5 °C of curing_temp (MPa)")
         _accept(page)
         _state(page, "curing_temp", "saved")
+        expect(page.locator("#units-row")).to_be_hidden()  # saved: not asked again
+        expect(page.locator("#per-label")).to_contain_text("(°C)")
         # the summary lists the three priors with their pictures and the file's show text
         page.click("#to-summary")
         expect(page.locator("#summary-cards .card")).to_have_count(3)
@@ -156,6 +165,7 @@ def test_three_methods_with_the_server_killed_between_answers(browser, tmp_path)
         stop(proc)
 
     priors = read_prior_file(out)
+    assert priors.units == {"water_cement": "ratio", "curing_temp": "°C"}
     wc, fa, ct = (priors.get(c) for c in ("water_cement", "fly_ash", "curing_temp"))
     (s,) = wc.statements
     assert (s.low, s.high, s.mass, s.per, s.family) == (-9.0, -3.0, 0.9, 0.1, "normal")
