@@ -280,8 +280,9 @@ def interview(data: str, response: str | None, out: str, response_units: str | N
         raise BadInput("--others, --no-open, --host and --port go with --browser")
     from elicit.columns_kind import column_kinds
 
-    notes = column_kinds(frame, response).notes()  # the row label, the columns not used
     design = _design(frame, response, data, formula, reference)
+    # the row label and the columns not used (those the formula does not name, with one)
+    notes = column_kinds(frame, response).notes() if design is None else design.notes
     if design is not None:
         frame = design.frame()
     if browser:

@@ -510,16 +510,36 @@ def test_the_page_shows_the_datas_row_label(tmp_path):
 
 
 def test_the_browser_writes_the_model_it_was_given(tmp_path):
+    # invented data: a row label, a categorical predictor and a column the formula leaves out
+    data = tmp_path / "d.csv"
+    data.write_text("plot,soil,x1,x2,y\nP1,clay,0.1,1,2.0\nP2,sand,0.4,2,3.1\nP3,clay,0.9,1,4.2\n"
+                    "P4,loam,1.3,3,5.9\nP5,clay,1.8,2,6.1\nP6,sand,2.2,4,8.3\n")  # fmt: skip
     out = tmp_path / "priors.toml"
-    formula = "strength ~ water_cement + fly_ash"
-    proc, address = start(command(DEMO_CSV, out, "--formula", formula))
+    formula = "y ~ x1 + soil"
+    proc, address = start(command(data, out, "--formula", formula, "--reference", "soil=sand",
+                                  response="y"))  # fmt: skip
     try:
         c = Client(address)
-        assert [i["column"] for i in c.get("/api/state").json()["items"]] == [
-            "water_cement", "fly_ash", "noise"]  # fmt: skip
-        assert c.post("/api/accept", {**RANGE, "units": "ratio"}).json()["ok"] is True
+        state = c.get("/api/state").json()
+        assert state["notes"] == ["row label: plot (all values distinct; not a predictor)",
+                                  "not used: x2"]  # fmt: skip
+        asked = {i["column"]: i["units_prompt"] for i in state["items"]}
+        assert asked == {"x1": "Units of x1 (data: 0.1 to 2.2)", "soil[clay]": None,
+                         "soil[loam]": None, "noise": None}  # fmt: skip
+        level = {"column": "soil[clay]", "method": "range", "family": "normal", "low": "-1",
+                 "high": "1", "mass": "0.9", "units": "ignored: a level has none"}  # fmt: skip
+        answer = c.post("/api/accept", level).json()
+        assert answer["ok"] is True
+        said = "difference in y for soil[clay] against the reference level"
+        assert answer["view"]["xlabel"] == said
+        assert answer["view"]["restated"] == []  # no other change of an indicator
+        x1 = {**RANGE, "column": "x1", "units": "kg", "low": "1", "high": "4"}
+        assert c.post("/api/accept", x1).json()["ok"] is True
     finally:
         stop(proc)
     priors = read_prior_file(out)
     assert priors.model is not None and priors.model.formula == formula
-    assert priors.units == {"water_cement": "ratio"}
+    assert dict(priors.model.reference) == {"soil": "sand"}
+    assert priors.units == {"x1": "kg"}
+    (c,) = [c for c in priors.coefficients if c.column == "soil[clay]"]
+    assert (c.statements[0].low, c.statements[0].high) == (-1.0, 1.0)

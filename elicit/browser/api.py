@@ -137,8 +137,11 @@ class Session:
         rows = views.predictive_rows(
             answers.implied_response(priors, term, self.study.frame, self.study.response)
         )
-        again = views.restated(prior, s)
-        what = f"change in {self.study.response} {wording.change(s.per, term.column, term.units)}"
+        level = term.level is not None  # a difference from the reference level: no other change
+        again = [] if level else views.restated(prior, s)
+        what = (wording.difference(self.study.response, term.column) if level else
+                f"change in {self.study.response} "
+                f"{wording.change(s.per, term.column, term.units)}")  # fmt: skip
         worst = views.worst_error(prior.dist(), s)
         return {
             "column": term.column, "family": prior.family, "df": prior.df, "per": s.per,
@@ -184,7 +187,7 @@ class Session:
                       else None} for t in self.study.terms]  # fmt: skip
             if self.study.noise:
                 have = self.priors.noise is not None
-                items.append({"column": form.NOISE, "units": self._units(),
+                items.append({"column": form.NOISE, "units": self._units(), "units_prompt": None,
                               "describe": f"the scatter of {self.study.response} around its "
                               "expected value", "answered": have,
                               "view": self.noise_view(self.priors) if have else None})  # fmt: skip

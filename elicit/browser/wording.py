@@ -18,6 +18,11 @@ def change(per: float, column: str, units: str | None) -> str:
     return f"per {per:g}{f' {units}' if units else ''} of {column}"
 
 
+def difference(response: str, column: str) -> str:
+    """'difference in strength for cement_type[B] against the reference level'."""
+    return f"difference in {response} for {column} against the reference level"
+
+
 def axis(what: str, response_units: str | None) -> str:
     """The label under a picture: 'change in strength per 0.1 of water_cement (MPa)'."""
     return f"{what} ({response_units})" if response_units else what
