@@ -137,7 +137,8 @@ def test_the_interview_asks_about_each_level_and_skips_the_row_label(data, tmp_p
     terms = terms_from_data(trial(), "yield")
     assert [t.column for t in terms] == ["nitrogen", "soil[clay]", "soil[sand]"]
     assert "reference level loam" in terms[1].describe and "8 of 24 rows" in terms[1].describe
-    answers = ["normal", "1", "0", "0.02", "0.9", "A", "why", "a"]
+    # nitrogen's units are asked once, before its questions; the levels of soil have none
+    answers = ["kg/ha", "normal", "1", "0", "0.02", "0.9", "A", "why", "a"]
     answers += ["normal", "-1", "1", "0.9", "A", "why", "a"] * 2
     out_file = tmp_path / "p.toml"
     out = CliRunner().invoke(elicit_main, ["interview", "--data", str(data), "--response", "yield",
@@ -145,6 +146,7 @@ def test_the_interview_asks_about_each_level_and_skips_the_row_label(data, tmp_p
                              input="\n".join(answers) + "\n")  # fmt: skip
     assert out.exit_code == 0, out.output
     assert "[2/3] soil[clay]" in out.output and "[3/3] soil[sand]" in out.output
+    assert out.output.count("Units of ") == 1
     assert "plot" not in out.output.split("[1/3]")[1].split("\n")[0]
     # the file it wrote fits with no other option: the response and levels come from it
     doc = fit_json(data, "--priors", out_file)

@@ -167,7 +167,9 @@ class WidthPath(ReadOnlyArrays):
         T = natural_transform(factor)
         offset = T @ off_g
         offset[0] += factor.y_mean
-        K = linalg.solve(T.T, (Vt @ W).T).T
+        # K = (V' W) T^-1; T is upper triangular (natural_transform): substitution, exact to
+        # rounding however different the column scales (a general solve warns of their ratio)
+        K = linalg.solve_triangular(T, (Vt @ W).T, trans="T", lower=False).T
         u0 = np.log(np.sqrt(max(factor.R[-1, -1] ** 2, 1e-300 + factor.tss * 1e-12) / factor.n))
         return cls(
             coefficient_names(factor), prior, float(factor.n), float(u0), s, z, t, resid2, kf,
