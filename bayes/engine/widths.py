@@ -167,8 +167,7 @@ class WidthPath(ReadOnlyArrays):
         T = natural_transform(factor)
         offset = T @ off_g
         offset[0] += factor.y_mean
-        # K = (V' W) T^-1; T is upper triangular (natural_transform): substitution, exact to
-        # rounding however different the column scales (a general solve warns of their ratio)
+        # K = (V' W) T^-1 by substitution: T is upper triangular (natural_transform)
         K = linalg.solve_triangular(T, (Vt @ W).T, trans="T", lower=False).T
         u0 = np.log(np.sqrt(max(factor.R[-1, -1] ** 2, 1e-300 + factor.tss * 1e-12) / factor.n))
         return cls(
