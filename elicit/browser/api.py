@@ -190,7 +190,8 @@ class Session:
         return {"column": form.CONDITIONAL, "names": list(block.names),
                 "mean": [float(v) for v in block.mean],
                 "sd": [float(v) for v in block.cov.diagonal() ** 0.5],
-                "words": {"show": show.format_block(block_feedback(block))}}  # fmt: skip
+                "words": {"show": show.format_block(block_feedback(block)),
+                          "heading": wording.SHOW_HEADING}}  # fmt: skip
 
     def conditional_item(self) -> dict[str, Any]:
         """The conditional-means screen: its reference rows (with the ranges saved, if any)."""
@@ -200,12 +201,14 @@ class Session:
             block is not None and len(block.rows) == len(rows)) else [{} for _ in rows]  # fmt: skip
         units = self._units()
         shown = [{**wording.reference_row(i, label, values), "at": values, "saved": saved[i],
-                  "what": wording.row_quantity(self.study.response, units, i)}
+                  "prompts": wording.row_prompts(self.study.response, units, i)}
                  for i, (label, values) in enumerate(rows)]  # fmt: skip
         return {"column": form.CONDITIONAL, "units": units, "units_prompt": None,
                 "describe": wording.conditional_intro(self.study.response, units, len(rows),
                                                       names),
                 "answered": block is not None, "names": names, "rows": shown,
+                "title": wording.CONDITIONAL_TITLE,
+                "rationale": block.rows[0].rationale if block is not None and block.rows else None,
                 "view": self.block_view(self.priors) if block is not None else None}  # fmt: skip
 
     def view(self, priors: PriorSet, column: str) -> dict[str, Any]:

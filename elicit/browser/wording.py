@@ -8,6 +8,9 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from typing import Any
 
+CONDITIONAL_TITLE = "Conditional means: the expected response at reference rows"
+SHOW_HEADING = "The correlated prior the rows give, as elicit show puts it"
+
 
 def _g(x: float | None) -> str:
     return "-" if x is None else f"{x:.4g}"
@@ -104,6 +107,9 @@ def conditional_intro(response: str, units: str | None, k: int, names: Sequence[
             "range.")  # fmt: skip
 
 
-def row_quantity(response: str, units: str | None, index: int) -> str:
-    """'expected strength (in MPa) at row 2', as the terminal interview asks it."""
-    return f"expected {response}{f' (in {units})' if units else ''} at row {index + 1}"
+def row_prompts(response: str, units: str | None, index: int) -> dict[str, str]:
+    """The three questions at conditional-means row ``index`` (from 0), as the terminal
+    interview asks them: 'Lowest plausible expected strength (in MPa) at row 2', ..."""
+    what = f"expected {response}{f' (in {units})' if units else ''} at row {index + 1}"
+    return {"low": f"Lowest plausible {what}", "high": f"Highest plausible {what}",
+            "mass": "Probability that it lies in that range"}  # fmt: skip
