@@ -630,3 +630,23 @@ def test_a_bad_conditional_range_is_named_beside_its_field(conditional):
     assert reply["errors"] == {"row4.mass": "not a number: 'x'"}
     assert client.post("/api/preview", bad).json()["errors"] == reply["errors"]
     assert not out.exists() and _leftovers(out.parent) == []
+
+
+def test_the_command_serves_the_conditional_screen_and_resumes_it(tmp_path):
+    out = tmp_path / "priors.toml"
+    proc, address = start(command(DEMO_CSV, out, "--conditional", "--no-noise"))
+    try:
+        client = Client(address)
+        (item,) = client.get("/api/state").json()["items"]
+        assert item["column"] == "conditional" and len(item["rows"]) == 5
+        assert client.post("/api/accept", BLOCK).json()["ok"] is True
+    finally:
+        proc.send_signal(signal.SIGKILL)
+        stop(proc)
+    assert len(read_prior_file(out).block.rows) == 5
+    again, address = start(command(DEMO_CSV, out, "--conditional", "--no-noise"))
+    try:
+        (item,) = Client(address).get("/api/state").json()["items"]
+        assert item["answered"] and item["rationale"] == "trial mixes (invented)"
+    finally:
+        stop(again)

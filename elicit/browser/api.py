@@ -5,6 +5,9 @@ Requests (all JSON; the server checks the token and the Host first, :mod:`.serve
 - ``GET /api/state``: the study, the data's row-label and not-used lines, the terms with what
   the file already holds (and, for a predictor whose units it lacks, the units question), the
   expert.
+- With ``--conditional`` the terms are one item, ``"conditional"``: its reference rows
+  (:func:`elicit.answers.conditional_rows`) and, posted, a range at each (``rows``), written as
+  the terminal writes the ``[correlation]`` block (:func:`elicit.answers.conditional_entry`).
 - ``POST /api/preview``: a statement (with the predictor's units where asked) -> the fitted
   prior's picture and words, or the validator's messages by field. Nothing is written.
 - ``POST /api/accept``: the same, then, when valid, written at once to the prior file, units,
