@@ -8,6 +8,7 @@ at a term's reference rows comes from :mod:`elicit.predictive`.
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -15,7 +16,7 @@ from elicit.errors import PriorFileError
 from elicit.predictive import NoPredictive, Predictive, predictor_means, prior_predictive
 from elicit.questions import Term
 from elicit.read import read_prior_file
-from elicit.spec import PriorSet
+from elicit.spec import INTERCEPT, PriorSet
 from elicit.validate import parse_priors
 from elicit.write import prior_doc, write_prior_file
 
@@ -116,3 +117,38 @@ def with_model(
     if reference:
         model["reference"] = {**model.get("reference", {}), **reference}
     return parse_priors({**doc, "model": model} if model else doc, source=source)
+
+
+def conditional_rows(
+    terms: Sequence[Term], frame, response: str
+) -> tuple[list[str], list[tuple[str, dict[str, float]]]]:
+    """The conditional-means question's coefficient names and its ``k = len(terms) + 1``
+    reference rows ``(label, predictor values)``: the data means, then each term's last
+    reference value (its 90% quantile) with the others at their means."""
+    data_means = predictor_means(frame, response)  # level indicators too
+    means = {t.column: data_means[t.column] for t in terms}
+    rows = [("all predictors at their data means", dict(means))]
+    for t in terms:
+        label, value = t.reference[-1]
+        rows.append((f"{label}, the others at their means", means | {t.column: value}))
+    return [INTERCEPT, *(t.column for t in terms)], rows
+
+
+def conditional_entry(
+    names: Sequence[str],
+    rows: Sequence[tuple[str, Mapping[str, float]]],
+    ranges: Sequence[Mapping[str, Any]],
+    expert: str | None = None,
+    rationale: str | None = None,
+) -> dict[str, Any]:
+    """The ``[correlation]`` entry of stated ranges (``low``, ``high``, ``mass`` per row) at
+    the reference rows, each row with the expert (and rationale) when given."""
+    stated = []
+    for (_, values), said in zip(rows, ranges, strict=True):
+        row = {"at": dict(values), **said}
+        if expert:
+            row["expert"] = expert
+        if rationale:
+            row["rationale"] = rationale
+        stated.append(row)
+    return {"names": list(names), "row": stated}

@@ -274,8 +274,6 @@ def interview(data: str, response: str | None, out: str, response_units: str | N
     if response not in frame:
         raise BadInput(f"{data}: no response column {response!r}")
     _out_path(out)
-    if browser and conditional:
-        raise BadInput("--browser: no --conditional yet (the terminal interview asks those)")
     if not browser and (others or no_open or host != "127.0.0.1" or port):
         raise BadInput("--others, --no-open, --host and --port go with --browser")
     from elicit.columns_kind import column_kinds
@@ -288,7 +286,7 @@ def interview(data: str, response: str | None, out: str, response_units: str | N
     if browser:
         _browser(frame, response, Path(out), response_units, expert, no_noise, others, design,
                  (formula, _levels(design)), notes, no_open=no_open, host=host,
-                 port=port)  # fmt: skip
+                 port=port, conditional=conditional)  # fmt: skip
         return
 
     echo = not sys.stdin.isatty()
@@ -353,7 +351,8 @@ def _resumed_response(out: str) -> str:
 
 
 def _browser(frame, response, out: Path, response_units, expert, no_noise, others, design,
-             model, notes, *, no_open: bool, host: str, port: int) -> None:  # fmt: skip
+             model, notes, *, no_open: bool, host: str, port: int,
+             conditional: bool = False) -> None:  # fmt: skip
     import webbrowser
 
     from elicit.browser.api import Study
@@ -372,7 +371,8 @@ def _browser(frame, response, out: Path, response_units, expert, no_noise, other
         terms = tuple(terms_from_data(frame, response, units=units))
     study = Study(out, frame, response, terms, response_units,
                   tuple((p, read_prior_file(p)) for p in others), noise=not no_noise,
-                  model=model if design is not None else None, notes=notes)  # fmt: skip
+                  model=model if design is not None else None, notes=notes,
+                  conditional=conditional)  # fmt: skip
     serve(study, expert=expert, host=host, port=port, say=click.echo,
           ready=None if no_open else webbrowser.open)  # fmt: skip
 

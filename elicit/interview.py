@@ -25,9 +25,8 @@ from elicit import answers, convert, show
 from elicit.errors import InputError, PriorFileError
 from elicit.feedback import block_feedback, coefficient_feedback, noise_feedback
 from elicit.outfile import Draft, OutputLock, check_writable
-from elicit.predictive import predictor_means
 from elicit.questions import Term, above, finite, positive, probability, terms_from_data
-from elicit.spec import FAMILIES, INTERCEPT, PriorSet
+from elicit.spec import FAMILIES, PriorSet
 from elicit.validate import parse_priors
 
 __all__ = ["Interview", "Term", "terms_from_data"]  # Term's home is elicit.questions
@@ -286,13 +285,7 @@ class Interview:
         """
         if self.frame is None:
             raise InputError("conditional-means questions need the data: give frame")
-        data_means = predictor_means(self.frame, self.response)  # level indicators too
-        means = {t.column: data_means[t.column] for t in terms}
-        rows = [("all predictors at their data means", dict(means))]
-        for t in terms:
-            label, value = t.reference[-1]
-            rows.append((f"{label}, the others at their means", means | {t.column: value}))
-        names = [INTERCEPT, *(t.column for t in terms)]
+        names, rows = answers.conditional_rows(terms, self.frame, self.response)
         self.say(
             f"\nConditional means: the expected {self.response} at {len(rows)} reference rows "
             f"gives a correlated prior on {', '.join(names)}"
@@ -301,16 +294,12 @@ class Interview:
         expert = _blank_to_none(self.ask("Expert", type=str, default=self.expert or ""))
 
         def answer(last: dict[str, Any] | None) -> dict[str, Any]:
-            stated = []
-            for i, (label, values) in enumerate(rows):
+            ranges = []
+            for i, (label, _) in enumerate(rows):
                 self.say(f"row {i + 1}: {label}")
                 what = f"expected {self.response}{self._units()} at row {i + 1}"
-                before = last["row"][i] if last else {}
-                row = {"at": values, **self._ask_range(what, "it", before)}
-                if expert:
-                    row["expert"] = expert
-                stated.append(row)
-            return {"names": names, "row": stated}
+                ranges.append(self._ask_range(what, "it", last["row"][i] if last else {}))
+            return answers.conditional_entry(names, rows, ranges, expert)
 
         self._until_accepted(
             "correlation",

@@ -319,3 +319,40 @@ def test_the_page_fits_the_window(browser, tmp_path, width):
     finally:
         tab.close()
         stop(proc)
+
+
+def test_the_conditional_screen_states_a_range_at_each_reference_row(browser, tmp_path):
+    # the expected strength at the five reference rows (invented)
+    ranges = [("40", "50"), ("33", "45"), ("38", "50"), ("42", "55"), ("41", "52")]
+    out = tmp_path / "priors.toml"
+    tab = Page(browser, width=800)
+    proc, address = _server(out, "--conditional", "--no-noise", "--expert", "Engineer A")
+    try:
+        page = tab.page
+        page.goto(address)
+        expect(page.locator("#rows-set fieldset")).to_have_count(5)
+        expect(page.locator("#rows-set legend").nth(1)).to_contain_text("water_cement = ")
+        expect(page.locator("label[for='row0.low']")).to_have_text(
+            "Lowest plausible expected strength (in MPa) at row 1"
+        )
+        for i, (low, high) in enumerate(ranges):
+            page.fill(f"#row{i}\\.low", low)
+            page.fill(f"#row{i}\\.high", "30" if i == 2 else high)  # row 3's below its lowest
+        expect(page.locator("#err-row2\\.high")).to_contain_text("must be above low")
+        expect(page.locator("#row2\\.high")).to_have_attribute("aria-invalid", "true")
+        page.click("#accept")
+        expect(page.locator("#status")).to_contain_text("Not saved")
+        assert not out.exists()
+        page.fill("#row2\\.high", "50")
+        expect(page.locator("#words pre")).to_contain_text("correlated normal")
+        _accept(page)
+        block = read_prior_file(out).block
+        assert [(r.low, r.high) for r in block.rows] == [(float(a), float(b)) for a, b in ranges]
+        assert {r.expert for r in block.rows} == {"Engineer A"}
+        page.reload()  # resumed: the saved ranges shown, not editable
+        expect(page.locator("#row1\\.low")).to_have_value("33")
+        expect(page.locator("#row1\\.low")).to_be_disabled()
+        assert tab.errors == []
+    finally:
+        tab.close()
+        stop(proc)

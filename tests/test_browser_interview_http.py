@@ -543,3 +543,110 @@ def test_the_browser_writes_the_model_it_was_given(tmp_path):
     assert priors.units == {"x1": "kg"}
     (c,) = [c for c in priors.coefficients if c.column == "soil[clay]"]
     assert (c.statements[0].low, c.statements[0].high) == (-1.0, 1.0)
+
+
+# --------------------------------------------------------------------------- conditional means
+
+# The expected strength at the demo's five conditional-means reference rows (invented): lowest,
+# highest, probability of that range.
+ROW_RANGES = [("40", "50", "0.9"), ("33", "45", "0.9"), ("38", "50", "0.8"), ("42", "55", "0.9"),
+              ("41", "52", "0.9")]  # fmt: skip
+BLOCK = {"column": "conditional", "expert": "Engineer A", "rationale": "trial mixes (invented)",
+         "rows": [{"low": lo, "high": hi, "mass": m} for lo, hi, m in ROW_RANGES]}  # fmt: skip
+
+
+@pytest.fixture
+def conditional(tmp_path):
+    from dataclasses import replace
+
+    with served(replace(study(tmp_path / "priors.toml"), conditional=True)) as s:
+        yield s
+
+
+def test_the_conditional_screen_lists_the_reference_rows(conditional):
+    import pandas as pd
+
+    state = Client(conditional.address).get("/api/state").json()
+    assert [i["column"] for i in state["items"]] == ["conditional", "noise"]
+    item = state["items"][0]
+    predictors = ["water_cement", "fly_ash", "curing_temp", "superplasticizer"]
+    assert item["names"] == ["intercept", *predictors]
+    assert len(item["rows"]) == 5 and not item["answered"]  # k = terms + 1
+    means = pd.read_csv(DEMO_CSV)[predictors].mean()
+    assert item["rows"][0]["at"] == pytest.approx(means.to_dict(), rel=1e-12)
+    for row, name in zip(item["rows"][1:], predictors, strict=True):
+        others = {k: v for k, v in row["at"].items() if k != name}
+        assert others == pytest.approx(means.drop(name).to_dict(), rel=1e-12)
+        assert row["at"][name] != pytest.approx(means[name])  # its 90% quantile
+        assert name in row["values"] and row["title"].startswith("Row ")
+
+
+def test_the_conditional_block_is_the_terminal_ones(conditional, tmp_path):
+    import numpy as np
+    import pandas as pd
+
+    from elicit.interview import Interview, terms_from_data
+
+    client = Client(conditional.address)
+    reply = client.post("/api/accept", BLOCK).json()
+    assert reply["ok"], reply
+    browser = read_prior_file(conditional.session.study.out).block
+    # the terminal interview, the same statements typed (expert; each row's low, high, mass;
+    # accept), the noise not asked
+    typed = iter(["Engineer A", *(v for r in ROW_RANGES for v in r), "a"])
+    frame = pd.read_csv(DEMO_CSV)
+    out = tmp_path / "terminal.toml"
+
+    def ask(prompt, type=None, default=None):
+        value = next(typed)
+        return type(value) if type in (float, str) else value
+
+    Interview(out, "strength", ask, lambda text: None,
+              frame=frame).run(terms_from_data(frame, "strength"), noise=False,
+                               conditional=True)  # fmt: skip
+    terminal = read_prior_file(out).block
+    assert browser.names == terminal.names
+    assert [r.at for r in browser.rows] == [r.at for r in terminal.rows]
+    # both go through the same conversion: equal to rounding of the written numbers
+    assert np.allclose(browser.mean, terminal.mean, rtol=1e-12, atol=0)
+    assert np.allclose(browser.cov, terminal.cov, rtol=1e-12, atol=0)
+    assert browser.rows[0].rationale == "trial mixes (invented)"
+    # resumed: the screen is answered and shows the saved ranges; a second accept is refused
+    item = client.get("/api/state").json()["items"][0]
+    assert item["answered"] and item["rows"][1]["saved"] == {"low": 33, "high": 45, "mass": 0.9}
+    assert client.post("/api/accept", BLOCK).status == 409
+
+
+def test_a_bad_conditional_range_is_named_beside_its_field(conditional):
+    out = conditional.session.study.out
+    client = Client(conditional.address)
+    bad = {**BLOCK, "rows": [dict(r) for r in BLOCK["rows"]]}
+    bad["rows"][2]["high"] = "30"  # below its lowest (38)
+    reply = client.post("/api/accept", bad).json()
+    assert not reply["ok"] and list(reply["errors"]) == ["row2.high"]
+    assert "low" in reply["errors"]["row2.high"]
+    bad["rows"][2]["high"], bad["rows"][4]["mass"] = "50", "x"
+    reply = client.post("/api/accept", bad).json()
+    assert reply["errors"] == {"row4.mass": "not a number: 'x'"}
+    assert client.post("/api/preview", bad).json()["errors"] == reply["errors"]
+    assert not out.exists() and _leftovers(out.parent) == []
+
+
+def test_the_command_serves_the_conditional_screen_and_resumes_it(tmp_path):
+    out = tmp_path / "priors.toml"
+    proc, address = start(command(DEMO_CSV, out, "--conditional", "--no-noise"))
+    try:
+        client = Client(address)
+        (item,) = client.get("/api/state").json()["items"]
+        assert item["column"] == "conditional" and len(item["rows"]) == 5
+        assert client.post("/api/accept", BLOCK).json()["ok"] is True
+    finally:
+        proc.send_signal(signal.SIGKILL)
+        stop(proc)
+    assert len(read_prior_file(out).block.rows) == 5
+    again, address = start(command(DEMO_CSV, out, "--conditional", "--no-noise"))
+    try:
+        (item,) = Client(address).get("/api/state").json()["items"]
+        assert item["answered"] and item["rationale"] == "trial mixes (invented)"
+    finally:
+        stop(again)

@@ -5,6 +5,9 @@ Requests (all JSON; the server checks the token and the Host first, :mod:`.serve
 - ``GET /api/state``: the study, the data's row-label and not-used lines, the terms with what
   the file already holds (and, for a predictor whose units it lacks, the units question), the
   expert.
+- With ``--conditional`` the terms are one item, ``"conditional"``: its reference rows
+  (:func:`elicit.answers.conditional_rows`) and, posted, a range at each (``rows``), written as
+  the terminal writes the ``[correlation]`` block (:func:`elicit.answers.conditional_entry`).
 - ``POST /api/preview``: a statement (with the predictor's units where asked) -> the fitted
   prior's picture and words, or the validator's messages by field. Nothing is written.
 - ``POST /api/accept``: the same, then, when valid, written at once to the prior file, units,
@@ -29,7 +32,7 @@ from typing import Any
 from elicit import answers, show
 from elicit.browser import form, views, wording
 from elicit.errors import ElicitationWarning, PriorFileError
-from elicit.feedback import coefficient_feedback, feedback, noise_feedback
+from elicit.feedback import block_feedback, coefficient_feedback, feedback, noise_feedback
 from elicit.questions import Term
 from elicit.spec import PriorSet
 from elicit.validate import parse_priors
@@ -56,6 +59,7 @@ class Study:
     noise: bool = True
     model: tuple[str | None, dict[str, str]] | None = None  # the formula given, levels used
     notes: tuple[str, ...] = ()  # the data's row-label and not-used lines
+    conditional: bool = False  # one conditional-means screen instead of one per term
 
 
 class Session:
@@ -101,11 +105,23 @@ class Session:
             raise _Invalid({"units": form.field_of(str(exc))[1]}) from None
         return answers.prior_doc(priors)
 
+    def _block_rows(self) -> tuple[list[str], list[tuple[str, dict[str, float]]]]:
+        """The conditional-means names and reference rows, for the terms without an entry of
+        their own (as the terminal interview asks them: :func:`elicit.answers.conditional_rows`)."""
+        own = {c.column for c in self.priors.coefficients}
+        todo = [t for t in self.study.terms if t.column not in own]
+        return answers.conditional_rows(todo, self.study.frame, self.study.response)
+
     def _candidate(self, body: Mapping[str, Any]) -> tuple[str, dict, PriorSet, list[str]]:
-        term = self._term(body.get("column"))
-        doc = self._doc_with_units(body, term)
+        conditional = self.study.conditional and body.get("column") == form.CONDITIONAL
+        term = None if conditional else self._term(body.get("column"))
+        doc = self.doc if conditional else self._doc_with_units(body, term)
         try:
-            if term is None:
+            if conditional:
+                names, rows = self._block_rows()
+                ranges, who = form.row_ranges(body, len(rows))
+                key, entry = "correlation", answers.conditional_entry(names, rows, ranges, **who)
+            elif term is None:
                 key, entry = "noise", form.noise_entry(body)
             else:
                 key, entry = "coefficient", form.coefficient_entry(body, term.name)
@@ -172,7 +188,35 @@ class Session:
                       "show": [show.format_noise(noise_feedback(noise))]},
         }  # fmt: skip
 
+    def block_view(self, priors: PriorSet) -> dict[str, Any]:
+        block = priors.block
+        return {"column": form.CONDITIONAL, "names": list(block.names),
+                "mean": [float(v) for v in block.mean],
+                "sd": [float(v) for v in block.cov.diagonal() ** 0.5],
+                "words": {"show": show.format_block(block_feedback(block)),
+                          "heading": wording.SHOW_HEADING}}  # fmt: skip
+
+    def conditional_item(self) -> dict[str, Any]:
+        """The conditional-means screen: its reference rows (with the ranges saved, if any)."""
+        block = self.priors.block
+        names, rows = self._block_rows()
+        saved = [{"low": r.low, "high": r.high, "mass": r.mass} for r in block.rows] if (
+            block is not None and len(block.rows) == len(rows)) else [{} for _ in rows]  # fmt: skip
+        units = self._units()
+        shown = [{**wording.reference_row(i, label, values), "at": values, "saved": saved[i],
+                  "prompts": wording.row_prompts(self.study.response, units, i)}
+                 for i, (label, values) in enumerate(rows)]  # fmt: skip
+        return {"column": form.CONDITIONAL, "units": units, "units_prompt": None,
+                "describe": wording.conditional_intro(self.study.response, units, len(rows),
+                                                      names),
+                "answered": block is not None, "names": names, "rows": shown,
+                "title": wording.CONDITIONAL_TITLE,
+                "rationale": block.rows[0].rationale if block is not None and block.rows else None,
+                "view": self.block_view(self.priors) if block is not None else None}  # fmt: skip
+
     def view(self, priors: PriorSet, column: str) -> dict[str, Any]:
+        if self.study.conditional and column == form.CONDITIONAL:
+            return self.block_view(priors)
         term = self._term(column)
         return self.noise_view(priors) if term is None else self.coefficient_view(priors, term)
 
@@ -185,6 +229,8 @@ class Session:
                       "describe": t.describe, "answered": t.column in done,
                       "view": self.view(self.priors, t.column) if self.priors.get(t.column)
                       else None} for t in self.study.terms]  # fmt: skip
+            if self.study.conditional:  # one screen for the terms, as the terminal asks them
+                items = [self.conditional_item()]
             if self.study.noise:
                 have = self.priors.noise is not None
                 items.append({"column": form.NOISE, "units": self._units(), "units_prompt": None,
@@ -213,8 +259,10 @@ class Session:
     def accept(self, body: Mapping[str, Any]) -> dict[str, Any]:
         with self._mutex:
             column = body.get("column")
-            if column in answers.answered(self.priors) or (
-                column == form.NOISE and self.priors.noise is not None
+            if (
+                column in answers.answered(self.priors)
+                or (column == form.NOISE and self.priors.noise is not None)
+                or (column == form.CONDITIONAL and self.priors.block is not None)
             ):
                 raise ApiError(409, f"{column} is already answered in {self.study.out}")
             try:

@@ -20,6 +20,7 @@ QUANTILE_SETS = {"quartiles": (0.25, 0.5, 0.75), "wide": (0.05, 0.5, 0.95)}
 DEFAULT_CHIPS = 20  # chips the expert places, all of them, in the chips-and-bins method
 MAX_BINS = 40
 NOISE = "noise"  # the column name the page uses for the noise sd
+CONDITIONAL = "conditional"  # the column name of the conditional-means screen
 
 # prior-file field -> form field
 _FIELDS = {"low": "low", "high": "high", "mass": "mass", "per": "per", "df": "df",
@@ -37,11 +38,41 @@ class FormError(ValueError):
 
 
 def field_of(message: str) -> tuple[str, str]:
-    """(form field, problem) of a validator message ``"...: field 'high': problem"``."""
+    """(form field, problem) of a validator message ``"...: field 'high': problem"``; a
+    conditional-means row's field is ``row{i}.low`` (``"[correlation] row 2: field 'low'"``
+    -> ``row1.low``, rows from 0 as the page counts them)."""
     found = re.search(r"field '([^']+)': (.*)$", message)
     if not found:
         return "general", message.split(": ", 2)[-1]
+    row = re.search(r"\[correlation\] row (\d+): field '(low|high|mass)'", message)
+    if row:
+        return f"row{int(row.group(1)) - 1}.{row.group(2)}", found.group(2)
     return _FIELDS.get(found.group(1), "general"), found.group(2)
+
+
+def row_ranges(form: Mapping[str, Any], k: int) -> tuple[list[dict[str, float]], dict[str, Any]]:
+    """The stated ranges ``rows[i] = {low, high, mass}`` of the conditional-means screen's
+    ``k`` reference rows, and its expert and rationale. Raises FormError (fields ``row{i}.low``
+    and so on)."""
+    rows = form.get("rows")
+    if (
+        not isinstance(rows, list)
+        or len(rows) != k
+        or not all(isinstance(r, Mapping) for r in rows)
+    ):
+        raise FormError({"general": f"need a range at each of the {k} reference rows"})
+    errors: dict[str, str] = {}
+    ranges = []
+    for i, row in enumerate(rows):
+        r = _Reader(row)
+        ranges.append({key: r.number(key) for key in ("low", "high", "mass")})
+        errors.update({f"row{i}.{key}": text for key, text in r.errors.items()})
+    said = _Reader(form)
+    who = {key: said.text(key) for key in ("expert", "rationale")}
+    errors.update(said.errors)
+    if errors:
+        raise FormError(errors)
+    return ranges, who
 
 
 class _Reader:

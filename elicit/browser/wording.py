@@ -8,6 +8,9 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from typing import Any
 
+CONDITIONAL_TITLE = "Conditional means: the expected response at reference rows"
+SHOW_HEADING = "The correlated prior the rows give, as elicit show puts it"
+
 
 def _g(x: float | None) -> str:
     return "-" if x is None else f"{x:.4g}"
@@ -87,3 +90,26 @@ def pooled(quantiles: Mapping[str, float], n: int, units: str | None) -> str:
         f"Linear pool of {n} statements (equal weights): median {_g(quantiles['50'])}{u}, "
         f"90% between {_g(quantiles['5'])} and {_g(quantiles['95'])}{u}."
     )
+
+
+def reference_row(index: int, label: str, values: Mapping[str, float]) -> dict[str, str]:
+    """A conditional-means reference row: its title and its predictor values."""
+    return {"title": f"Row {index + 1}: {label}",
+            "values": ", ".join(f"{k} = {_g(v)}" for k, v in values.items())}  # fmt: skip
+
+
+def conditional_intro(response: str, units: str | None, k: int, names: Sequence[str]) -> str:
+    """What the conditional-means screen asks."""
+    u = f" (in {units})" if units else ""
+    return (f"Conditional means: the expected {response}{u} at {k} reference rows gives a "
+            f"correlated prior on {', '.join(names)}. For each row, give the lowest and highest "
+            f"plausible expected {response} there and the probability that it lies in that "
+            "range.")  # fmt: skip
+
+
+def row_prompts(response: str, units: str | None, index: int) -> dict[str, str]:
+    """The three questions at conditional-means row ``index`` (from 0), as the terminal
+    interview asks them: 'Lowest plausible expected strength (in MPa) at row 2', ..."""
+    what = f"expected {response}{f' (in {units})' if units else ''} at row {index + 1}"
+    return {"low": f"Lowest plausible {what}", "high": f"Highest plausible {what}",
+            "mass": "Probability that it lies in that range"}  # fmt: skip

@@ -73,13 +73,65 @@
     });
   }
 
+  // The conditional-means screen: one fieldset per reference row, its words from the server.
+  function isBlock() { return current && current.column === "conditional"; }
+
+  function drawRows() {
+    var box = $("rows-set");
+    box.textContent = "";
+    current.rows.forEach(function (row, i) {
+      var set = document.createElement("fieldset");
+      var legend = document.createElement("legend");
+      legend.textContent = row.title;
+      set.appendChild(legend);
+      para(set, row.values, "values");
+      ["low", "high", "mass"].forEach(function (f) {
+        var id = "row" + i + "." + f, div = document.createElement("div");
+        div.className = "row";
+        var label = document.createElement("label");
+        label.htmlFor = id;
+        label.textContent = row.prompts[f];
+        var input = document.createElement("input");
+        input.id = id; input.type = "text"; input.inputMode = "decimal"; input.autocomplete = "off";
+        var err = document.createElement("span");
+        err.className = "err"; err.id = "err-" + id; err.setAttribute("aria-live", "polite");
+        [label, input, err].forEach(function (n) { div.appendChild(n); });
+        set.appendChild(div);
+      });
+      box.appendChild(set);
+    });
+  }
+
+  function restoreRows() {
+    var kept = {};
+    try { kept = JSON.parse(localStorage.getItem(storeKey(current.column)) || "{}"); } catch (e) { kept = {}; }
+    $("rationale").value = (current.answered ? current.rationale : kept.rationale) || "";
+    current.rows.forEach(function (row, i) {
+      var typed = (kept.rows || [])[i] || {};
+      ["low", "high", "mass"].forEach(function (f) {
+        var v = current.answered ? row.saved[f] : typed[f];
+        $("row" + i + "." + f).value = v !== undefined && v !== null ? String(v) : (f === "mass" ? "0.9" : "");
+      });
+    });
+  }
+
+  function renderBlock(view) {
+    $("chart").parentNode.hidden = true;  // a correlated block: its words, no single curve
+    var w = $("words");
+    w.textContent = "";
+    heading(w, view.words.heading);
+    var pre = document.createElement("pre");
+    pre.textContent = view.words.show.join("\n");
+    w.appendChild(pre);
+  }
+
   function method() {
     var checked = document.querySelector('input[name="method"]:checked');
     return current && current.column === "noise" ? "range" : (checked ? checked.value : "range");
   }
 
   function showMethod() {
-    ["range", "quantiles", "bins"].forEach(function (m) { $(m + "-set").hidden = m !== method(); });
+    ["range", "quantiles", "bins"].forEach(function (m) { $(m + "-set").hidden = isBlock() || m !== method(); });
     $("df-row").hidden = $("family").value !== "student_t";
     var sets = state.quantile_sets[$("quantile_set").value];
     var names = sets.map(function (p) { return p === 0.5 ? "median" : (100 * p) + "% quantile"; });
@@ -89,27 +141,29 @@
   function select(column) {
     current = state.items.find(function (i) { return i.column === column; });
     renderNav();
-    var noise = column === "noise";
-    $("q-title").textContent = noise ? "Noise: the residual sd of " + state.response : column;
+    var noise = column === "noise", block = isBlock();
+    $("rows-set").hidden = !block;
+    $("chart").parentNode.hidden = block;
+    $("q-title").textContent = current.title ? current.title : noise ? "Noise: the residual sd of " + state.response : column;
     $("q-describe").textContent = current.describe || "";
-    $("method-set").hidden = noise;
-    $("shape-set").hidden = noise;
+    $("method-set").hidden = noise || block;
+    $("shape-set").hidden = noise || block;
     $("units-row").hidden = !current.units_prompt;  // asked once, where the file lacks them
     $("units-label").textContent = current.units_prompt || "Units";
     $("per-label").textContent = "Stated for a change in " + column + " of" + (current.units ? " (" + current.units + ")" : "");
     $("range-legend").textContent = noise ? "The range of the residual sd" + (state.response_units ? " (" + state.response_units + ")" : "")
       : "The range of the change in " + state.response;
-    restoreForm(column);
+    if (block) { drawRows(); restoreRows(); } else restoreForm(column);
     $("statement").querySelectorAll("input, select, button").forEach(function (n) {
       if (!n.closest(".who")) n.disabled = current.answered;
     });
     $("saved-note").textContent = current.answered ? "Saved in the prior file." : "";
-    $("others-box").hidden = !(current.answered && !noise);
+    $("others-box").hidden = !(current.answered && !noise && !block);
     $("others-switch").checked = false;
     $("others-words").textContent = "";
     showErrors({});
     showMethod();
-    if (current.answered && current.view) renderView(current.view, []);
+    if (current.answered && current.view) (block ? renderBlock : renderView)(current.view, []);
     else { renderEmpty(); schedule(); }  // never another question's picture meanwhile
   }
 
@@ -160,6 +214,14 @@
   }
 
   function collect() {
+    if (isBlock()) {
+      var block = {column: current.column, expert: $("expert").value, rationale: $("rationale").value};
+      block.rows = current.rows.map(function (row, i) {
+        return {low: $("row" + i + ".low").value, high: $("row" + i + ".high").value,
+                mass: $("row" + i + ".mass").value};
+      });
+      return block;
+    }
     var body = {column: current.column, method: method(), chips: chips.slice(),
                 chip_total: state.chips, expert: $("expert").value};
     FIELDS.forEach(function (f) { body[f] = $(f).value; });
@@ -185,7 +247,7 @@
       if (mine !== seq) return;
       if (method() === "bins") board(r.edges || []);
       showErrors(r.errors);
-      if (r.ok) renderView(r.view, r.notes);
+      if (r.ok) (isBlock() ? renderBlock : renderView)(r.view, r.notes);
       else renderEmpty();
       status("");
     }).catch(fail);
@@ -296,6 +358,7 @@
   window.addEventListener("resize", function () { if (lastSpec) drawChart(lastSpec); });
 
   function renderEmpty() {
+    if (isBlock()) { $("words").textContent = ""; return; }
     drawChart({x: [], empty: "Complete the statement to see the prior it gives."});
     $("words").textContent = "";
   }
