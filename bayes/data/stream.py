@@ -247,26 +247,33 @@ def table_chunks(path: str | Path, chunk_rows: int | None = None) -> Iterator[pd
     else:
         chunks = _csv_chunks(path, chunk_rows)
     rows = 0
-    for frame, _ in _read_ahead(chunks):
+    for frame, _ in read_ahead(chunks):
         rows += len(frame)
         yield frame
     if rows == 0:
         raise InputError(f"{path}: no data rows")
 
 
-def _read_ahead(chunks: Iterator[T]) -> Iterator[T]:
+def read_ahead(chunks: Iterator[T]) -> Iterator[T]:
     """Yield from ``chunks`` while a helper thread already reads the next item.
 
     Parsing (pandas' C reader) and the QR (LAPACK) both release the GIL, so on two
     cores the factor is computed while the next chunk is parsed; two chunks at most
-    are held at once.
+    are held at once. Closed early (an error downstream, or collected as garbage, which
+    may happen on the reader thread itself), it lets the reader finish its item without
+    waiting for it: a thread cannot wait for itself.
     """
     done = object()
-    with ThreadPoolExecutor(1, thread_name_prefix="bayes-read") as pool:
+    pool = ThreadPoolExecutor(1, thread_name_prefix="bayes-read")
+    finished = False
+    try:
         ahead = pool.submit(next, chunks, done)
         while (item := ahead.result()) is not done:
             ahead = pool.submit(next, chunks, done)
             yield item
+        finished = True
+    finally:
+        pool.shutdown(wait=finished, cancel_futures=not finished)
 
 
 def stream_factor(
@@ -322,7 +329,7 @@ def stream_factor(
     # cores, and OpenBLAS waking a second thread for every small leaf QR is very slow.
     # closed here, in this thread, when a bad chunk stops the fold (left to the garbage
     # collector, the reader could be closed in its own thread, which cannot join itself)
-    with one_blas_thread(), contextlib.closing(_read_ahead(chunks)) as ahead:
+    with one_blas_thread(), contextlib.closing(read_ahead(chunks)) as ahead:
         state, rows, predictors = fold(
             ahead, response, predictors, source=source, drop_missing=drop_missing,
             progress=progress,
