@@ -26,11 +26,12 @@ from pathlib import Path
 import numpy as np
 
 from bayes.engine.crossings import crossing_arrays, crossing_fields_of
-from bayes.engine.posterior import DrawsPosterior, MixturePosterior, Posterior
+from bayes.engine.posterior import DrawsPosterior, FactoredCovs, MixturePosterior, Posterior
 from bayes.errors import InputError
 from bayes.problem import DataFactor
 from bayes.results.result import FitResult
 from bayes.store_checks import (
+    COV_FACTORS,
     DAMAGE,
     check_fit_doc,
     damaged,
@@ -190,6 +191,8 @@ def _posterior_arrays(post: Posterior, *, draws_in_nc: bool) -> dict[str, np.nda
             extra["noise_modes"] = np.array(post.noise_modes, dtype=float).reshape(-1, 2)
         if post.growth is not None:  # the noise posterior's tail (infinite variances)
             extra.update(tail_df=np.array(post.tail_df), growth=post.growth)
+        if post.factored is not None:  # the covariances' factors, which the fit read off
+            extra.update({f"cov_{n}": getattr(post.factored, n) for n in COV_FACTORS})
     return {
         "names": np.array(post.names, dtype=str),
         **mixture,
@@ -215,12 +218,13 @@ def _posterior_from_arrays(z, labels: dict, draws=None) -> Posterior:
         return DrawsPosterior(**common, draws=z["draws"], sigma_draws=z["sigma_draws"],
                               **crossing_fields_of(z))  # fmt: skip
     return MixturePosterior(
-        **common, weights=z["weights"], sigma=z["sigma"], means=z["means"], covs=z["covs"],
+        **common, weights=z["weights"], sigma=z["sigma"], means=z["means"], stack=z["covs"],
         df=float(df), sigma_cdf=z["sigma_cdf"] if "sigma_cdf" in z else None,
         noise_modes=tuple((float(s), float(m)) for s, m in z["noise_modes"])
         if "noise_modes" in z else (),
         tail_df=float(z["tail_df"]) if "tail_df" in z else np.inf,
         growth=z["growth"] if "growth" in z else None,
+        factored=FactoredCovs(*(z[f"cov_{n}"] for n in COV_FACTORS)) if "cov_G" in z else None,
     )  # fmt: skip
 
 

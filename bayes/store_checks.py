@@ -20,6 +20,10 @@ from bayes.errors import InputError
 DAMAGE = (KeyError, ValueError, TypeError, IndexError, AttributeError, OSError, EOFError,
           zipfile.BadZipFile)  # fmt: skip
 
+#: ``posterior.npz`` keeps an exact fit's covariance factors as ``cov_G`` ... ``cov_h``
+#: (:class:`bayes.engine.posterior.FactoredCovs`), beside the ``covs`` stack formed from them
+COV_FACTORS = ("G", "d", "H", "h")
+
 
 def damaged(path: Path, e: Exception) -> InputError:
     """The one-line error for a fit-folder file that could not be read as one."""
@@ -104,6 +108,10 @@ def check_arrays(z: dict[str, np.ndarray], *, path: Path, intercept: bool = True
         shapes.update(draws_shape=(2,), draws_digest=(32,))
     if "growth" in z or "tail_df" in z:  # both or neither: the noise posterior's tail
         shapes.update(growth=(k, k), tail_df=())
+    if any(f"cov_{n}" in z for n in COV_FACTORS):  # all or none: the covariances' factors
+        r, f = (z[key].shape[-1] if key in z and z[key].ndim == 2 else -1
+                for key in ("cov_G", "cov_H"))  # fmt: skip
+        shapes.update(cov_G=(k, r), cov_d=(m, r), cov_H=(k, f), cov_h=(m,))
     for key, shape in shapes.items():
         if key not in z or z[key].shape != shape:
             got = z[key].shape if key in z else "none"
@@ -120,7 +128,8 @@ def check_arrays(z: dict[str, np.ndarray], *, path: Path, intercept: bool = True
         if z[key].dtype.kind not in "fiub":
             raise InputError(f"{path}: damaged: array {key!r} is not numbers")
     for key in ("x_mean", "x_scale", "y_mean", "R", "mode", "weights", "sigma", "means", "covs",
-                "draws", "sigma_draws", "factor_n", "growth", "tail_df"):  # fmt: skip
+                "draws", "sigma_draws", "factor_n", "growth", "tail_df",
+                *(f"cov_{n}" for n in COV_FACTORS)):  # fmt: skip
         if key in z and not np.all(np.isfinite(z[key])):
             raise InputError(f"{path}: damaged: array {key!r} has values that are not finite")
     if "draws_shape" in z and (z["draws_shape"].dtype.kind not in "iu" or

@@ -44,6 +44,7 @@ DAMAGE = {
     "npz without R": ("posterior.npz", lambda f: _npz(f, R=None)),
     "wrong-shape factor": ("posterior.npz", lambda f: _npz(f, x_mean=np.zeros(7))),
     "wrong-shape covs": ("posterior.npz", lambda f: _npz(f, covs=np.zeros((64, 3, 3)))),
+    "a lone covariance factor": ("posterior.npz", lambda f: _npz(f, cov_d=np.zeros((64, 1)))),
     "non-finite R": ("posterior.npz", lambda f: _npz(f, R=np.full((5, 5), np.nan))),
     "text for numbers": ("posterior.npz", lambda f: _npz(f, mode=np.array(["a"] * 5))),
     "names differ": ("posterior.npz", lambda f: _npz(

@@ -23,7 +23,7 @@ from scipy import linalg
 
 from bayes.engine.likelihood import coefficient_names
 from bayes.engine.noise_rule import QUADRATURE_NODES
-from bayes.engine.posterior import MixturePosterior
+from bayes.engine.posterior import FactoredCovs, MixturePosterior
 from bayes.engine.quadrature import StackedRows, noise_quadrature
 from bayes.engine.widths import WidthPath
 from bayes.problem import DataFactor, ScaledPrior, natural_transform
@@ -67,7 +67,7 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> MixturePosterior:
             names=names, method="exact", detail="Gaussian posterior, noise sd known",
             mode=means[0], mode_kind="posterior mode", sigma_mode=float(noise.sd),
             noise_known=True, weights=np.ones(1), sigma=np.array([noise.sd]), means=means,
-            covs=covs,
+            stack=covs,
         )  # fmt: skip
 
     if rows.flat:
@@ -85,13 +85,14 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> MixturePosterior:
             f"freedom (flat coefficient priors, {prior_word} noise prior)",
             mode=means[0], mode_kind="joint mode of (beta, sigma^2)",
             sigma_mode=float(np.sqrt(s2_mode)), weights=np.ones(1),
-            sigma=np.array([np.sqrt(s2)]), means=means, covs=covs, df=float(df),
+            sigma=np.array([np.sqrt(s2)]), means=means, stack=covs, df=float(df),
         )  # fmt: skip
 
     path = eigen_path(factor, prior, rows)
     quad = noise_quadrature(factor, prior, path)
     weights, sigma = quad.mixture()
     u_peak = quad.nodes[np.argmax(quad.log_density)]
+    factored = None
     if path is None:
         sols = [rows.solve(np.exp(u)) for u in quad.nodes]
         means, covs = _natural(
@@ -104,7 +105,8 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> MixturePosterior:
         T = natural_transform(factor)
         growth = T @ growth @ T.T
     else:
-        means, covs = eigen_components(path, sigma)
+        means, factored = eigen_components(path, sigma)
+        covs = None
         u_mode = _joint_mode(rows, u_peak, path)
         mode = path.conditional(np.exp([u_mode]), 1.0)[0][0]
         tail_df = float(n + 2 * noise.shape - path.k_flat)  # as noise_tail, from the path
@@ -114,7 +116,8 @@ def exact_posterior(factor: DataFactor, prior: ScaledPrior) -> MixturePosterior:
         detail=f"noise sd integrated out exactly ({QUADRATURE_NODES}-node Gauss-Legendre "
         "quadrature in log sigma)",
         mode=mode, mode_kind="joint mode of (beta, sigma^2)", sigma_mode=float(np.exp(u_mode)),
-        weights=weights, sigma=sigma, means=means, covs=covs, sigma_cdf=quad.sigma_cdf(),
+        weights=weights, sigma=sigma, means=means, stack=covs, factored=factored,
+        sigma_cdf=quad.sigma_cdf(),
         noise_modes=tuple((float(np.exp(u)), float(m)) for u, m in quad.modes),
         tail_df=tail_df, growth=growth,
     )  # fmt: skip
@@ -134,32 +137,23 @@ def eigen_path(factor: DataFactor, prior: ScaledPrior, rows: StackedRows) -> Wid
     return path if path.prior_condition <= EIGEN_MAX_CONDITION else None
 
 
-def eigen_components(path: WidthPath, sigma: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def eigen_components(path: WidthPath, sigma: np.ndarray) -> tuple[np.ndarray, FactoredCovs]:
     """Conditional means and covariances at each noise sd from the eigen directions.
 
-    ``cov = sigma^2 (G diag(1 / (s^2 + sigma^2)) G' + H H')`` in natural units: one product
-    of k x r by r x k per node. The stack is built read-only, so the posterior keeps it
-    without a copy.
+    ``cov = sigma^2 (G diag(1 / (s^2 + sigma^2)) G' + H H')`` in natural units, kept as its
+    factors: the K x k x k stack is formed only when asked for (:attr:`MixturePosterior.covs`).
 
     Returns
     -------
     means : ndarray, shape (K, k)
-    covs : ndarray, shape (K, k, k)
+    covs : FactoredCovs
     """
     s2 = np.asarray(sigma, dtype=float) ** 2
     means = (
         path.offset
         + ((path.s * path.z + s2[:, None] * path.t) / (path.s**2 + s2[:, None])) @ path.G.T
     )
-    HH = path.H @ path.H.T
-    k = path.G.shape[0]
-    covs = np.empty((len(s2), k, k))
-    for c, v in enumerate(s2):
-        np.matmul(path.G * (v / (path.s**2 + v)), path.G.T, out=covs[c])
-        if path.k_flat:
-            covs[c] += v * HH
-    covs.flags.writeable = False
-    return means, covs
+    return means, FactoredCovs(path.G, s2[:, None] / (path.s**2 + s2[:, None]), path.H, s2)
 
 
 def noise_tail(rows: StackedRows) -> tuple[float, np.ndarray]:

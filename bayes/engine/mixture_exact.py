@@ -157,7 +157,7 @@ def exact_mixture_posterior(factor: DataFactor, priors) -> MixturePosterior:
         MODE_KIND.replace("gamma", "beta"), sigma_mode=sigma_mode, noise_known=known,
         weights=weights, sigma=np.concatenate([p.sigma for p in posts]),
         means=np.concatenate([p.means for p in posts]),
-        covs=np.concatenate([p.covs for p in posts]),
+        stack=np.concatenate([p.covs for p in posts]),
         sigma_cdf=None if known else _combined_sigma_cdf(W, [p.sigma_cdf for p in posts]),
         noise_modes=() if known else _merged_modes(W, [p.noise_modes for p in posts]),
     )  # fmt: skip

@@ -14,11 +14,12 @@ from __future__ import annotations
 
 from abc import ABC, abstractmethod
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 from scipy import stats
 
-from bayes.arrays import ReadOnlyArrays
+from bayes.arrays import ReadOnlyArrays, read_only
 from bayes.distributions import Distribution, Empirical, NormalMixture, StudentT
 
 PREDICTIVE_SEED = 20260  # seed of the new-noise draws added to a sampled predictive
@@ -91,6 +92,63 @@ class Posterior(ReadOnlyArrays, ABC):
         return [self.coefficient(j) for j in range(self.k)]
 
 
+@dataclass(frozen=True, eq=False)
+class FactoredCovs(ReadOnlyArrays):
+    """The conditional covariances ``G diag(d[c]) G' + h[c] H H'`` of K components, as factors.
+
+    What the eigen route gives (:func:`bayes.engine.exact.eigen_components`): one shared
+    ``G`` and ``H`` and a diagonal per component, O(K k + k^2) numbers where the stack has
+    K k^2. Variances, quadratic forms and weighted sums are read off the factors.
+
+    Attributes
+    ----------
+    G : ndarray, shape (k, r)
+    d : ndarray, shape (K, r)
+    H : ndarray, shape (k, f)
+        The flat-prior directions (f may be 0).
+    h : ndarray, shape (K,)
+    """
+
+    G: np.ndarray
+    d: np.ndarray
+    H: np.ndarray
+    h: np.ndarray
+
+    def stack(self) -> np.ndarray:
+        """The K x k x k stack itself (read-only): one k x r by r x k product per component."""
+        HH = self.H @ self.H.T
+        covs = np.empty((len(self.d), self.G.shape[0], self.G.shape[0]))
+        for c, d in enumerate(self.d):
+            np.matmul(self.G * d, self.G.T, out=covs[c])
+            if self.H.shape[1]:
+                covs[c] += self.h[c] * HH
+        covs.flags.writeable = False
+        return covs
+
+    def variances(self) -> np.ndarray:
+        """Each component's diagonal, shape (K, k).
+
+        Summed as :meth:`quadratic` sums (numpy's pairwise sum of each row, not BLAS, whose
+        order may follow memory alignment), so a unit vector's quadratic is its column bit
+        for bit.
+        """
+        G2, flat = self.G**2, np.sum(self.H**2, axis=1)
+        return np.array(
+            [np.sum(G2 * d, axis=1) + h * flat for d, h in zip(self.d, self.h, strict=True)]
+        )
+
+    def quadratic(self, a: np.ndarray) -> np.ndarray:
+        """``a' cov_c a`` for each component, shape (K,)."""
+        return np.sum(self.d * (self.G.T @ a) ** 2, axis=1) + self.h * np.sum((self.H.T @ a) ** 2)
+
+    def weighted(self, w: np.ndarray) -> np.ndarray:
+        """``sum_c w[c] cov_c``, shape (k, k)."""
+        return (self.G * (w @ self.d)) @ self.G.T + float(w @ self.h) * (self.H @ self.H.T)
+
+    def finite(self) -> bool:
+        return all(np.all(np.isfinite(x)) for x in (self.G, self.d, self.H, self.h))
+
+
 @dataclass(frozen=True, eq=False, kw_only=True)
 class MixturePosterior(Posterior):
     """An exact posterior: a scale mixture of Gaussians over the noise sd.
@@ -102,9 +160,13 @@ class MixturePosterior(Posterior):
     sigma : ndarray, shape (K,)
         Noise sd at each component; for a Student-t posterior the t scale s.
     means : ndarray, shape (K, k)
-    covs : ndarray, shape (K, k, k)
-        Conditional posterior mean and covariance at each component; for a
-        Student-t posterior ``covs[0]`` is the t scale matrix.
+    stack : ndarray, shape (K, k, k), optional
+        Conditional posterior covariance at each component, as given; for a Student-t
+        posterior ``stack[0]`` is the t scale matrix. Read it as :attr:`covs`.
+    factored : FactoredCovs, optional
+        The same covariances as factors, given by the eigen route: variances, contrasts
+        and the mixture covariance are read off them, and without ``stack`` :attr:`covs`
+        forms the stack only when asked for (K k^2 doubles).
     df : float
         Degrees of freedom of a Student-t posterior (inf otherwise).
     sigma_cdf : ndarray, shape (2, G), optional
@@ -128,17 +190,37 @@ class MixturePosterior(Posterior):
     weights: np.ndarray
     sigma: np.ndarray
     means: np.ndarray
-    covs: np.ndarray
+    stack: np.ndarray | None = None
+    factored: FactoredCovs | None = None
     df: float = np.inf
     sigma_cdf: np.ndarray | None = None
     noise_modes: tuple[tuple[float, float], ...] = ()
     tail_df: float = np.inf
     growth: np.ndarray | None = None
 
+    def __post_init__(self) -> None:
+        super().__post_init__()
+        if self.stack is None and self.factored is None:
+            raise ValueError("give the covariances: stack, factored or both")
+
+    @cached_property
+    def covs(self) -> np.ndarray:
+        """Conditional covariances, shape (K, k, k); formed from :attr:`factored` on first use."""
+        return self.stack if self.stack is not None else read_only(self.factored.stack())
+
+    def variances(self) -> np.ndarray:
+        """Each component's conditional variances (the diagonals of :attr:`covs`), (K, k)."""
+        if self.factored is not None:
+            return self.factored.variances()
+        return np.diagonal(self.covs, axis1=1, axis2=2)
+
     def marginal(self, a: np.ndarray, offset: float = 0.0, noise: bool = False) -> Distribution:
         a = np.asarray(a, dtype=float)
         locs = offset + self.means @ a
-        var = np.einsum("i,kij,j->k", a, self.covs, a)
+        if self.factored is not None:
+            var = self.factored.quadratic(a)
+        else:
+            var = np.einsum("i,kij,j->k", a, self.covs, a)
         if noise:
             var = var + self.sigma**2
         scales = np.sqrt(np.maximum(var, 0.0))
@@ -155,10 +237,12 @@ class MixturePosterior(Posterior):
         and diagonal (every other term is an exact zero), so they are read off instead of
         contracted k times, which costs O(K k^3) for a wide model.
         """
-        if not (np.all(np.isfinite(self.means)) and np.all(np.isfinite(self.covs))):
+        finite = self.factored.finite() if self.stack is None else np.all(np.isfinite(self.stack))
+        if not (np.all(np.isfinite(self.means)) and finite):
             return super().coefficients()
         locs = 0.0 + self.means.T  # (k, K), as ``offset + means @ a``
-        scales = np.sqrt(np.maximum(np.diagonal(self.covs, axis1=1, axis2=2).T, 0.0))
+        variances = self.variances()
+        scales = np.sqrt(np.maximum(variances.T, 0.0))
         if np.isfinite(self.df):
             return [
                 StudentT(float(m[0]), float(s[0]), self.df)
@@ -167,8 +251,7 @@ class MixturePosterior(Posterior):
         grows = np.zeros(self.k, dtype=bool)
         if self.tail_df <= 2 and self.growth is not None:
             dev = self.means - self.mean
-            ref = np.abs(self.weights @ np.diagonal(self.covs, axis1=1, axis2=2)
-                         + self.weights @ dev**2)  # fmt: skip
+            ref = np.abs(self.weights @ variances + self.weights @ dev**2)
             grow = np.abs(np.diag(self.growth)) * float(self.weights @ self.sigma**2)
             grows = grow > 1e-12 * ref
         return [
@@ -179,9 +262,11 @@ class MixturePosterior(Posterior):
     def _mixture_cov(self) -> np.ndarray:
         """The covariance of the mixture itself (over the quadrature's nodes)."""
         dev = self.means - self.mean  # about the mean: no cancellation
-        return np.einsum("k,kij->ij", self.weights, self.covs) + np.einsum(
-            "k,ki,kj->ij", self.weights, dev, dev
-        )
+        if self.factored is not None:
+            within = self.factored.weighted(self.weights)
+        else:
+            within = np.einsum("k,kij->ij", self.weights, self.covs)
+        return within + np.einsum("k,ki,kj->ij", self.weights, dev, dev)
 
     def _grows(self, A: np.ndarray) -> np.ndarray:
         """Whether the covariance of contrasts ``A[i]' beta`` and ``A[j]' beta`` grows with sigma.

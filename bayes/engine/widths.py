@@ -323,7 +323,7 @@ class CoefficientMixtures(ReadOnlyArrays):
     @classmethod
     def from_posterior(cls, posterior: MixturePosterior) -> CoefficientMixtures:
         """The marginals of an exact posterior."""
-        sd = np.sqrt(np.maximum(np.einsum("kjj->kj", posterior.covs), 0.0))
+        sd = np.sqrt(np.maximum(posterior.variances(), 0.0))
         infinite = ~np.isfinite(np.diag(posterior.cov)) if np.isinf(posterior.df) else None
         return cls(posterior.weights, posterior.means.T, sd.T, posterior.df, infinite)
 
