@@ -33,11 +33,11 @@ from bayes.engine.scaled import scaled_prior
 from bayes.engine.widths import CoefficientMixtures
 from bayes.errors import InputError
 from bayes.problem import DataFactor, ScaledPrior, natural_shift, natural_transform, to_natural
+from bayes.sensitivity.importance import log_prior_density
 from bayes.sensitivity.priors import flat_limit, variance_ratios
 from bayes.sensitivity.sampled import (
     SampledEngine,
     WeightedDraws,
-    log_prior_density,
     marginals,
     normal_reading_conflict,
     power_scaling_of,

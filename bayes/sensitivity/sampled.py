@@ -22,7 +22,6 @@ from dataclasses import dataclass
 from functools import cached_property
 
 import numpy as np
-from scipy import stats
 
 from bayes.arrays import freeze
 from bayes.engine.diagnostics import infinite_sampled
@@ -33,6 +32,7 @@ from bayes.engine.widths import CoefficientMixtures, WidthPath
 from bayes.errors import InputError
 from bayes.problem import DataFactor, ScaledPrior, to_natural
 from bayes.sensitivity.conflict import power_scaling_draws, prior_data_conflict
+from bayes.sensitivity.importance import K_LIMIT, log_prior_density, pareto_k
 from bayes.sensitivity.priors import flat_limit, variance_ratios
 from bayes.sensitivity.wording import (
     CONFLICT_NORMAL_READING,
@@ -69,12 +69,15 @@ class WeightedDraws:
     infinite : ndarray of bool, shape (k,), optional
         Coefficients whose exact posterior variance is infinite (:func:`infinite_sampled`):
         their sd is inf, however finite the draws' spread.
+    pareto_k : float
+        Pareto k of the importance weights (0: equal weights; :mod:`.importance`).
     """
 
     draws: np.ndarray
     weights: np.ndarray
     chains: int = 1
     infinite: np.ndarray | None = None
+    pareto_k: float = 0.0
 
     def __post_init__(self) -> None:
         freeze(self, "draws", "weights")
@@ -97,8 +100,9 @@ class WeightedDraws:
 
     @property
     def ess(self) -> float:
-        """Kish effective sample size of the weights."""
-        return float(1.0 / np.sum(self.weights**2))
+        """Kish effective sample size of the weights; 0 where their Pareto k exceeds K_LIMIT
+        (the weighting cannot be trusted there, so no value is reported from it)."""
+        return 0.0 if self.pareto_k > K_LIMIT else float(1.0 / np.sum(self.weights**2))
 
     @property
     def mean(self) -> np.ndarray:
@@ -181,26 +185,6 @@ def marginals(
     if prior.gaussian_only:
         return CoefficientMixtures.from_posterior(exact_posterior(factor, prior))
     return WeightedDraws.sample(factor, prior, sampler)
-
-
-def log_prior_density(prior: ScaledPrior, gamma: np.ndarray) -> np.ndarray:
-    """Log density of the coefficient priors of the scaled problem at ``gamma`` (S, k).
-
-    Flat coordinates contribute nothing; the Gaussian part is normalised by the
-    pseudo-determinant of its root precision, so ratios between widths are exact.
-    """
-    fam = np.array(prior.family)
-    out = np.zeros(gamma.shape[0])
-    for j in np.flatnonzero(fam == "laplace"):
-        b = prior.scale[j]
-        out += -np.log(2 * b) - np.abs(gamma[:, j] - prior.mean[j]) / b
-    for j in np.flatnonzero(fam == "student_t"):
-        out += stats.t.logpdf(gamma[:, j], prior.df[j], loc=prior.mean[j], scale=prior.scale[j])
-    W = prior.root_precision
-    if W.shape[0]:
-        out += np.sum(np.log(np.linalg.svd(W, compute_uv=False)))
-        out -= 0.5 * np.sum(((gamma - prior.mean) @ W.T) ** 2, axis=1)
-    return out
 
 
 class SampledEngine:
@@ -355,7 +339,13 @@ class SampledEngine:
             return WeightedDraws(nat, np.full(len(nat), 1.0 / len(nat)), self.chains[fs], infinite)
         lw = self.log_prior(f, gamma) - lp
         w = np.exp(lw - lw.max())
-        return WeightedDraws(nat, w / w.sum(), self.chains[fs], infinite)
+        return WeightedDraws(nat, w / w.sum(), self.chains[fs], infinite, pareto_k(lw))
+
+    def sample_at(self, f: float) -> None:
+        """Sample at factor ``f`` too, so its values come from its own draws."""
+        self.extra["sampler_ess"].append(self._sample(float(f), self.sampler))
+        self.extra["sampled_factors"].append(float(f))
+        self.sampled = np.unique([*self.sampled, float(f)])
 
     def flat(self) -> tuple[CoefficientMixtures | WeightedDraws | None, str | None]:
         """The marginals in the flat-prior limit, or None and the reason there is none."""

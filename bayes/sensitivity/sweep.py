@@ -45,6 +45,7 @@ from bayes.sensitivity.conflict import flat_prior_rows
 from bayes.sensitivity.family_swap import family_swap as read_as_families
 from bayes.sensitivity.gaussian import GaussianEngine
 from bayes.sensitivity.grid import Threshold, default_factors, factor_grid, thresholds_for
+from bayes.sensitivity.importance import K_LIMIT, MAX_REFITS
 from bayes.sensitivity.mixture import mixture_engine
 from bayes.sensitivity.priors import block_names, informative, prior_interval, widened
 from bayes.sensitivity.result import MCSE_STATISTICS, CoefficientSweep, SweepResult
@@ -196,6 +197,16 @@ def _along(engine, grid, flat_mix, k: int, level: float) -> tuple[list, dict, di
     statistic and its Monte Carlo standard error (0 where exact), as (F + 1, k) arrays, and
     the importance weights' effective sample size per factor (sampled engines)."""
     mixes = [engine.at(float(f)) for f in grid]
+    if engine.method == "sampled":  # weights that fail their Pareto k: sample there instead
+        failed = [i for i, m in enumerate(mixes) if m.pareto_k > K_LIMIT]
+        done = engine.extra.setdefault("refitted_factors", [])  # over the refinement rounds
+        refit = sorted(failed, key=lambda i: -mixes[i].pareto_k)[: MAX_REFITS - len(done)]
+        for i in refit:
+            engine.sample_at(float(grid[i]))
+            mixes[i] = engine.at(float(grid[i]))
+        done[:] = sorted([*done, *(float(grid[i]) for i in refit)])
+        engine.extra["pareto_k"] = [float(m.pareto_k) for m in mixes]  # of the values reported
+        engine.extra["pareto_k_max"] = max(engine.extra["pareto_k"])
     ess = [m.ess for m in mixes] if engine.method == "sampled" else []
     if engine.method == "sampled":
         mixes = [m if m.ess >= MIN_ESS else None for m in mixes]
