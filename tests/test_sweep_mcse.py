@@ -26,40 +26,45 @@ from elicit.validate import parse_priors
 SIGMA, CENTER, SCALE = 1.0, 0.0, 0.4
 
 
-def _design(n: int = 12):
+def one_slope_design(n: int = 12, sigma: float = SIGMA):
+    """The design above with ``n`` rows and noise sd ``sigma``: the factor, the Laplace prior on
+    the slope, the least-squares slope b_hat and its variance v."""
     # Invented data: the slope is about 0.5 and the Laplace prior pulls it towards 0.
     rng = np.random.default_rng(5)
     x = np.linspace(-1.0, 1.0, n)
-    y = 2.0 + 0.5 * x + SIGMA * rng.standard_normal(n)
+    y = 2.0 + 0.5 * x + sigma * rng.standard_normal(n)
     factor = factor_from_arrays(x[:, None], y, ["x"])
     priors = parse_priors({
-        "noise": {"sd": SIGMA},
+        "noise": {"sd": sigma},
         "coefficient": [{"name": "x", "family": "laplace", "center": CENTER, "scale": SCALE}],
     })  # fmt: skip
     xc = x - x.mean()
     sxx = float(xc @ xc)
-    return factor, priors, float(xc @ y) / sxx, SIGMA**2 / sxx
+    return factor, priors, float(xc @ y) / sxx, sigma**2 / sxx
 
 
 def exact_above(t: float, f: float, b_hat: float, v: float) -> float:
-    """P(slope > t) under the Laplace(CENTER, SCALE f) prior, by numerical integration."""
+    """P(slope > t) under the Laplace(CENTER, SCALE f) prior, by numerical integration over a
+    range that holds both the likelihood and the prior (either may dominate)."""
+    b = SCALE * f
 
     def logp(s):
-        return -((s - b_hat) ** 2) / (2 * v) - abs(s - CENTER) / (SCALE * f)
+        return -((s - b_hat) ** 2) / (2 * v) - abs(s - CENTER) / b
 
-    lo, hi = b_hat - 40 * math.sqrt(v), b_hat + 40 * math.sqrt(v)
-    top = logp(b_hat)
+    lo = min(b_hat, CENTER) - 40 * (math.sqrt(v) + b)
+    hi = max(b_hat, CENTER) + 40 * (math.sqrt(v) + b)
+    top = max(logp(s) for s in (b_hat, CENTER, *np.linspace(lo, hi, 2001)))  # near the peak
 
-    def mass(a, b):
-        return integrate.quad(lambda s: math.exp(logp(s) - top), a, b,
-                              points=[c for c in (CENTER, t) if a < c < b], limit=200,
+    def mass(a, c):
+        inner = [p for p in sorted((CENTER, t, b_hat)) if a < p < c] or None
+        return integrate.quad(lambda s: math.exp(logp(s) - top), a, c, points=inner, limit=400,
                               epsabs=0, epsrel=1e-11)[0]  # fmt: skip
 
     return mass(t, hi) / mass(lo, hi)
 
 
 def test_probabilities_lie_within_their_mcse_of_numerical_integration():
-    factor, priors, b_hat, v = _design()
+    factor, priors, b_hat, v = one_slope_design()
     t = 0.1  # threshold conclusion x > 0.1
     factors = np.geomspace(0.25, 4.0, 5)
     result = sweep(factor, priors, "y", factors=factors, thresholds=["x>0.1"],
@@ -101,7 +106,7 @@ def _threshold_at(p_target: float, b_hat: float, v: float) -> float:
 
 
 def test_a_conclusion_just_above_its_level_never_reads_as_failing():
-    factor, priors, b_hat, v = _design()
+    factor, priors, b_hat, v = one_slope_design()
     t = _threshold_at(0.955, b_hat, v)
     assert exact_above(t, 1.0, b_hat, v) == pytest.approx(0.955, abs=1e-9)
     seen = {}
@@ -128,7 +133,7 @@ def test_a_conclusion_just_above_its_level_never_reads_as_failing():
 
 
 def test_a_clear_conclusion_takes_no_extra_rounds_and_a_close_one_does():
-    factor, priors, b_hat, v = _design()
+    factor, priors, b_hat, v = one_slope_design()
     sampler = SamplerSettings(chains=2, draws=300, warmup=50, seed=7, max_draws=1200)
     clear = sweep(factor, priors, "y", factors=[1.0], thresholds=["x>-2"], sampler=sampler,
                   family_swap=False)  # fmt: skip
@@ -149,7 +154,7 @@ def test_a_clear_conclusion_takes_no_extra_rounds_and_a_close_one_does():
 
 
 def test_flip_factors_carry_a_range_and_the_json_reads_back(tmp_path):
-    factor, priors, b_hat, v = _design()
+    factor, priors, b_hat, v = one_slope_design()
     # x > 0.35: the Laplace prior at 0 pulls the slope down, so the conclusion holds only
     # once the prior is wide enough; it flips somewhere on the grid.
     result = sweep(factor, priors, "y", factors=np.geomspace(0.125, 8, 9), thresholds=["x>0.3"],
@@ -178,7 +183,7 @@ def test_flip_factors_carry_a_range_and_the_json_reads_back(tmp_path):
 
 
 def test_an_old_sweep_json_without_mcse_still_loads():
-    factor, priors, _, _ = _design()
+    factor, priors, _, _ = one_slope_design()
     result = sweep(factor, priors, "y", factors=[0.5, 1.0, 2.0],
                    sampler=SamplerSettings(chains=2, draws=200, warmup=50),
                    family_swap=False)  # fmt: skip

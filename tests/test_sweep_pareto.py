@@ -3,66 +3,26 @@ used (Pareto-smoothed importance sampling: Vehtari, Simpson, Gelman, Yao and Gab
 Journal of Machine Learning Research; k computed by arviz.psislw); where k is above the limit
 the sweep samples that width directly.
 
-The design: one slope, a known noise sd and a flat intercept, so the slope's posterior under a
-Laplace(c, b) prior is one-dimensional: the likelihood of the slope is N(b_hat, v), b_hat =
-Sxy / Sxx, v = sigma^2 / Sxx (common practice, no source), integrated here by
-scipy.integrate.quad. Invented data: weak (six rows, noise sd 10), so the prior shapes the
-posterior and widening it four times strains the weights.
+The design is tests/test_sweep_mcse.py's (one slope, a known noise sd, a flat intercept; the
+slope's posterior integrated by scipy.integrate.quad there), on weaker invented data: six rows,
+noise sd 10, so the prior shapes the posterior and widening it four times strains the weights.
 """
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 import pytest
-from scipy import integrate
+from test_sweep_mcse import exact_above, one_slope_design
 
 import bayes.sensitivity.sampled as sampled_module
 import bayes.sensitivity.sweep as sweep_module
-from bayes.data.factor import factor_from_arrays
 from bayes.sensitivity.importance import K_LIMIT, pareto_k
 from bayes.sensitivity.sweep import sweep
 from bayes.settings import SamplerSettings
-from elicit.validate import parse_priors
 
-SIGMA, CENTER, SCALE, THRESHOLD = 10.0, 0.0, 0.4, 0.1
+SIGMA, THRESHOLD = 10.0, 0.1
 SAMPLER = SamplerSettings(chains=2, draws=2000, warmup=200, seed=3)
 FACTORS = np.geomspace(1 / 64, 64, 7)  # sampled at 1/64, 1/16, 1, 4, 64; 1/4 and 16 weighted
-
-
-def _design():
-    rng = np.random.default_rng(5)
-    x = np.linspace(-1.0, 1.0, 6)
-    y = 2.0 + 0.5 * x + SIGMA * rng.standard_normal(6)
-    factor = factor_from_arrays(x[:, None], y, ["x"])
-    priors = parse_priors({
-        "noise": {"sd": SIGMA},
-        "coefficient": [{"name": "x", "family": "laplace", "center": CENTER, "scale": SCALE}],
-    })  # fmt: skip
-    xc = x - x.mean()
-    sxx = float(xc @ xc)
-    return factor, priors, float(xc @ y) / sxx, SIGMA**2 / sxx
-
-
-def exact_above(t: float, f: float, b_hat: float, v: float) -> float:
-    """P(slope > t) under the Laplace(CENTER, SCALE f) prior, by scipy.integrate.quad."""
-    b = SCALE * f
-
-    def logp(s):
-        return -((s - b_hat) ** 2) / (2 * v) - abs(s - CENTER) / b
-
-    lo = min(b_hat, CENTER) - 40 * (math.sqrt(v) + b)
-    hi = max(b_hat, CENTER) + 40 * (math.sqrt(v) + b)
-    top = max(logp(s) for s in np.linspace(lo, hi, 2001))  # the log density's peak, nearly
-    kinks = sorted(c for c in (CENTER, t, b_hat) if lo < c < hi)
-
-    def mass(a, c):
-        inner = [p for p in kinks if a < p < c] or None
-        return integrate.quad(lambda s: math.exp(logp(s) - top), a, c, points=inner, limit=400,
-                              epsabs=0, epsrel=1e-11)[0]  # fmt: skip
-
-    return mass(t, hi) / mass(lo, hi)
 
 
 def test_pareto_k_separates_light_from_heavy_weight_tails():
@@ -76,7 +36,7 @@ def test_pareto_k_separates_light_from_heavy_weight_tails():
 
 
 def test_a_width_whose_weights_fail_is_sampled_directly(monkeypatch):
-    factor, priors, b_hat, v = _design()
+    factor, priors, b_hat, v = one_slope_design(6, SIGMA)
     trusted = sweep(factor, priors, "y", factors=FACTORS, thresholds=[f"x>{THRESHOLD}"],
                     sampler=SAMPLER, family_swap=False, conclusion_level=0.5)  # fmt: skip
     ks = trusted.extra["pareto_k"]
