@@ -16,9 +16,10 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import special, stats
+from scipy import special
 
 from bayes.arrays import ReadOnlyArrays
+from elicit.closed_forms import SQRT_2PI, t_pdf, t_ppf, t_sf
 
 
 class Distribution(ReadOnlyArrays, ABC):
@@ -82,10 +83,10 @@ class NormalMixture(Distribution):
 
     def cdf(self, x: float) -> float:
         # clipped: the weights' sum may round a hair above 1
-        return _probability(np.dot(self.weights, stats.norm.cdf((x - self.locs) / self.scales)))
+        return _probability(np.dot(self.weights, special.ndtr((x - self.locs) / self.scales)))
 
     def sf(self, x: float) -> float:
-        return _probability(np.dot(self.weights, stats.norm.sf((x - self.locs) / self.scales)))
+        return _probability(np.dot(self.weights, special.ndtr(-((x - self.locs) / self.scales))))
 
     def ppf(self, q: float) -> float:
         """The q-quantile (exact to about 1e-13 relative for a mixture)."""
@@ -93,7 +94,8 @@ class NormalMixture(Distribution):
 
     def pdf(self, x: np.ndarray) -> np.ndarray:
         x = np.asarray(x, dtype=float)
-        dens = stats.norm.pdf(x[None, :], self.locs[:, None], self.scales[:, None])
+        z = (x[None, :] - self.locs[:, None]) / self.scales[:, None]
+        dens = np.exp(-(z**2) / 2.0) / SQRT_2PI / self.scales[:, None]
         return self.weights @ dens
 
 
@@ -115,19 +117,23 @@ class StudentT(Distribution):
             return np.inf
         return float(self.scale * np.sqrt(self.df / (self.df - 2)))
 
+    def _z(self, x):
+        # nan at scale 0, as scipy.stats.t gives: a point has no Student-t cdf or density
+        return (x - self.loc) / self.scale if self.scale > 0 else np.full(np.shape(x), np.nan)
+
     def cdf(self, x: float) -> float:
-        return float(stats.t.cdf(x, self.df, self.loc, self.scale))
+        return float(special.stdtr(self.df, self._z(x)))
 
     def sf(self, x: float) -> float:
-        return float(stats.t.sf(x, self.df, self.loc, self.scale))
+        return float(t_sf(self._z(x), self.df))
 
     def ppf(self, q: float) -> float:
         if self.scale == 0.0:  # a point (the mean response at the origin, no intercept)
             return float(self.loc)
-        return float(stats.t.ppf(q, self.df, self.loc, self.scale))
+        return float(t_ppf(q, self.df) * self.scale + self.loc)
 
     def pdf(self, x: np.ndarray) -> np.ndarray:
-        return stats.t.pdf(np.asarray(x, dtype=float), self.df, self.loc, self.scale)
+        return t_pdf(self._z(np.asarray(x, dtype=float)), self.df) / self.scale
 
 
 @dataclass(frozen=True, eq=False)
@@ -160,6 +166,8 @@ class Empirical(Distribution):
 
     def pdf(self, x: np.ndarray) -> np.ndarray:
         """A Gaussian kernel density estimate."""
+        from scipy import stats  # lazily: scipy.stats costs 0.6 s of start-up
+
         return stats.gaussian_kde(self.draws)(np.asarray(x, dtype=float))
 
 

@@ -19,7 +19,7 @@ from elicit.errors import InputError, PriorFileError
 from elicit.model_spec import ModelSpec
 from elicit.noise_prior import NoisePrior  # noqa: F401 (its home; re-exported for callers)
 from elicit.pool import DEFAULT_METHOD, linear_misfit, pool
-from elicit.pool_mixture import MIXTURE, Component, MixtureDistribution, from_opinions, moments
+from elicit.pool_mixture import MIXTURE, Component, from_opinions, moments
 from elicit.pool_mixture import widened as widened_components
 from elicit.statement_record import Statement
 
@@ -118,11 +118,13 @@ class CoefficientPrior:
     def dist(self):
         """Frozen scipy.stats distribution of the prior (None for flat).
 
-        A mixture gives a :class:`elicit.pool_mixture.MixtureDistribution` (same methods).
+        A mixture gives a :class:`elicit.mixture_distribution.MixtureDistribution` (same methods).
         """
         if self.family == "flat":
             return None
         if self.family == MIXTURE:
+            from elicit.mixture_distribution import MixtureDistribution  # lazily: scipy.stats
+
             return MixtureDistribution(self.components)
         return convert.distribution(self.family, self.center, self.scale, df=self.df)
 

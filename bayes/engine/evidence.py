@@ -28,7 +28,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import linalg, special, stats
+from scipy import linalg, special
 
 from bayes.engine.quadrature import StackedRows, log_noise_prior, noise_quadrature
 from bayes.errors import InputError
@@ -142,6 +142,8 @@ def log_prior(factor: DataFactor, prior: ScaledPrior, gamma: np.ndarray) -> np.n
     for j, family in enumerate(prior.family):
         if family not in ("laplace", "student_t"):
             continue
+        from scipy import stats  # lazily: scipy.stats costs 0.6 s of start-up
+
         t = gamma[..., j]
         if family == "laplace":
             dens = stats.laplace.logpdf(t, prior.mean[j], prior.scale[j])

@@ -17,10 +17,10 @@ from dataclasses import dataclass
 from functools import cached_property
 
 import numpy as np
-from scipy import stats
 
 from bayes.arrays import ReadOnlyArrays, read_only
 from bayes.distributions import Distribution, Empirical, NormalMixture, StudentT
+from elicit.closed_forms import invgamma_ppf
 
 PREDICTIVE_SEED = 20260  # seed of the new-noise draws added to a sampled predictive
 
@@ -303,7 +303,7 @@ class MixturePosterior(Posterior):
             return float(self.sigma[0])
         if np.isfinite(self.df):
             # sigma^2 ~ InvGamma(df/2, df s^2/2): the conjugate case
-            s2 = stats.invgamma.ppf(q, self.df / 2, scale=self.df * self.sigma[0] ** 2 / 2)
+            s2 = invgamma_ppf(q, self.df / 2, scale=self.df * self.sigma[0] ** 2 / 2)
             return float(np.sqrt(s2))
         if self.sigma_cdf is not None:
             return float(np.interp(q, self.sigma_cdf[1], self.sigma_cdf[0]))

@@ -24,6 +24,7 @@ from bayes.engine.likelihood import check_identified, data_rows
 from bayes.engine.noise_rule import NoiseQuadrature, log_sigma_quadrature, stationary_span
 from bayes.errors import InputError
 from bayes.problem import DataFactor, NoiseSpec, ScaledPrior
+from elicit.closed_forms import invgamma_logpdf
 
 #: The data are fitted exactly when the least-squares residual's norm is below this share of
 #: the centred response's: rounding leaves about 1e-16 times the design's condition number.
@@ -193,9 +194,7 @@ def log_noise_prior(prior: ScaledPrior, s2):
     """log density of the noise prior at sigma^2 = s2 (float or ndarray); Jeffreys: -log s2."""
     if prior.noise.jeffreys:
         return -np.log(s2)
-    from scipy import stats  # lazily: scipy.stats costs 0.6 s of start-up
-
-    return stats.invgamma.logpdf(s2, prior.noise.shape, scale=prior.noise.scale)
+    return invgamma_logpdf(s2, prior.noise.shape, scale=prior.noise.scale)
 
 
 def noise_quadrature(factor: DataFactor, prior: ScaledPrior, path=None) -> NoiseQuadrature:

@@ -39,11 +39,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import linalg, special, stats
+from scipy import linalg, special
 from scipy.linalg import lapack
 
 from bayes.arrays import ReadOnlyArrays
-from bayes.distributions import mixture_quantile
+from bayes.distributions import mixture_quantile, t_ppf, t_sf  # closed forms, no scipy.stats
 from bayes.engine.likelihood import coefficient_names
 from bayes.engine.noise_rule import NoiseQuadrature, log_sigma_quadrature, stationary_span
 from bayes.engine.posterior import MixturePosterior
@@ -365,7 +365,7 @@ class CoefficientMixtures(ReadOnlyArrays):
         larger (at least 1/2) as its complement, so neither cancels.
         """
         z, shape = self._z(x)
-        small = stats.t.sf(np.abs(z), self.df) if np.isfinite(self.df) else special.ndtr(-np.abs(z))
+        small = t_sf(np.abs(z), self.df) if np.isfinite(self.df) else special.ndtr(-np.abs(z))
         below = z < 0
         # clipped to [0, 1]: the weights' sum may round a hair above 1
         cdf = np.clip(np.where(below, small, 1.0 - small) @ self.weights, 0.0, 1.0)
@@ -383,7 +383,7 @@ class CoefficientMixtures(ReadOnlyArrays):
     def quantile(self, q: float) -> np.ndarray:
         """The q-quantile of every coefficient, shape (k,), to about 1e-13 relative."""
         if np.isfinite(self.df):
-            return self.locs[:, 0] + self.scales[:, 0] * stats.t.ppf(q, self.df)
+            return self.locs[:, 0] + self.scales[:, 0] * t_ppf(q, self.df)
         return mixture_quantile(self.weights, self.locs, self.scales, q)
 
 
