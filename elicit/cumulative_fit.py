@@ -22,7 +22,6 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import optimize
 
 from elicit.convert import fit_quantiles, standard
 from elicit.errors import InputError
@@ -65,6 +64,8 @@ def _checked_points(pairs: Sequence[tuple[float, float]]) -> tuple[np.ndarray, n
 
 
 def _solve(residual, start: np.ndarray) -> np.ndarray:
+    from scipy import optimize  # lazily: scipy.optimize costs 0.2 s of start-up
+
     found = optimize.least_squares(residual, start, method="lm", xtol=1e-15, ftol=1e-15,
                                    gtol=1e-15, max_nfev=20_000)  # fmt: skip
     if not np.all(np.isfinite(found.x)):

@@ -35,7 +35,6 @@ from dataclasses import dataclass
 from typing import Protocol
 
 import numpy as np
-from scipy import optimize
 
 from elicit.convert import distribution, fit_quantiles
 from elicit.errors import InputError
@@ -154,6 +153,8 @@ def mixture_ppf(opinions: Sequence[Opinion], p: float) -> float:
     hi, g_hi = _widen(gap, hi, 1.0, max(o.scale for o in opinions))
     if g_hi <= 0.0:
         return hi
+    from scipy import optimize  # lazily: scipy.optimize costs 0.2 s of start-up
+
     root, _ = optimize.brentq(gap, lo, hi, xtol=PPF_XTOL, rtol=PPF_RTOL, maxiter=2000,
                               full_output=True, disp=False)  # fmt: skip
     return float(root)

@@ -9,7 +9,6 @@ promising starts (see :func:`mixture_mode`), and the highest result is kept.
 from __future__ import annotations
 
 import numpy as np
-from scipy import optimize
 
 from bayes.engine.likelihood import data_rows
 from bayes.engine.mixture_prior import log_mixed_prior
@@ -111,6 +110,8 @@ def mixture_mode(log_joint: LogJoint, starts: np.ndarray) -> tuple[np.ndarray, f
         if not np.isfinite(value):
             return np.inf, np.zeros_like(x)
         return -value, -log_joint.gradient(x[:k], u)
+
+    from scipy import optimize  # lazily: scipy.optimize costs 0.2 s of start-up
 
     best, best_value = None, np.inf
     for x0 in np.asarray(starts, dtype=float)[:MAX_STARTS]:
