@@ -7,8 +7,12 @@ of its hundred-odd distributions). tests/test_closed_forms.py compares them with
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 from scipy import special
+
+from elicit.errors import InputError
 
 SQRT_2PI = np.sqrt(2 * np.pi)
 
@@ -31,8 +35,14 @@ def t_pdf(x, df):
     x = np.asarray(x, dtype=float)
     if np.isinf(df):
         return np.exp(-(x**2) / 2.0) / SQRT_2PI
+    return np.exp(t_logpdf(x, df))
+
+
+def t_logpdf(x, df):
+    """``scipy.stats.t.logpdf(x, df)`` for finite df."""
+    x = np.asarray(x, dtype=float)
     log = np.log(special.poch(0.5 * df, 0.5)) - 0.5 * (np.log(df) + np.log(np.pi))
-    return np.exp(log - (df + 1) / 2 * np.log1p(x * x / df))
+    return log - (df + 1) / 2 * np.log1p(x * x / df)
 
 
 def invgamma_ppf(q, a, scale):
@@ -64,3 +74,61 @@ def laplace_ppf(q):
 def gamma_ppf(q, a):
     """``scipy.stats.gamma.ppf(q, a)`` for q in (0, 1)."""
     return special.gammaincinv(a, q)
+
+
+@dataclass(frozen=True)
+class LocationScale:
+    """A normal, Laplace or Student-t prior with the frozen scipy.stats distribution's
+    ``cdf``, ``sf``, ``ppf``, ``isf`` and ``logpdf`` (same formulas, same end points)."""
+
+    family: str
+    loc: float
+    scale: float
+    df: float = 5.0
+
+    def __post_init__(self):
+        if self.family not in ("normal", "laplace", "student_t"):
+            raise InputError(
+                f"unknown family {self.family!r} (expected normal, laplace, student_t)"
+            )
+
+    def _z(self, x):
+        return (np.asarray(x, dtype=float) - self.loc) / self.scale
+
+    def _unit_cdf(self, z):
+        if self.family == "normal":
+            return special.ndtr(z)
+        if self.family == "laplace":
+            with np.errstate(over="ignore"):
+                return np.where(z > 0, 1.0 - 0.5 * np.exp(-z), 0.5 * np.exp(z))
+        return special.stdtr(self.df, z)
+
+    def cdf(self, x):
+        return self._unit_cdf(self._z(x))[()]
+
+    def sf(self, x):
+        return self._unit_cdf(-self._z(x))[()]
+
+    def ppf(self, q):
+        return (self._unit_ppf(q) * self.scale + self.loc)[()]
+
+    def _unit_ppf(self, q):
+        if self.family == "normal":
+            return norm_ppf(q)
+        if self.family == "laplace":
+            return laplace_ppf(q)
+        return t_ppf(q, self.df)
+
+    def isf(self, q):
+        return (-self._unit_ppf(q) * self.scale + self.loc)[()]
+
+    def logpdf(self, x):
+        z = self._z(x)
+        if self.family == "normal":
+            unit = -(z**2) / 2.0 - np.log(SQRT_2PI)
+        elif self.family == "laplace":
+            with np.errstate(divide="ignore"):  # as scipy.stats: the log of the density,
+                unit = np.log(0.5 * np.exp(-np.abs(z)))  # -inf where it underflows
+        else:
+            unit = t_logpdf(z, self.df)
+        return (unit - np.log(self.scale))[()]

@@ -36,7 +36,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from elicit.closed_forms import gamma_ppf, invgamma_ppf, laplace_ppf, norm_ppf, t_ppf
+from elicit.closed_forms import LocationScale, gamma_ppf, invgamma_ppf
 from elicit.errors import InputError
 
 SHAPED_FAMILIES = ("normal", "laplace", "student_t")
@@ -60,15 +60,14 @@ def standard(family: str, *, df: float | None = None):
     raise InputError(f"unknown family {family!r} (expected one of {', '.join(SHAPED_FAMILIES)})")
 
 
+def closed_distribution(family: str, center: float, scale: float, *, df: float | None = None):
+    """:func:`distribution` in closed form (cdf, sf, ppf, isf, logpdf), without scipy.stats."""
+    return LocationScale(family, center, scale, DEFAULT_DF if df is None else df)
+
+
 def standard_ppf(family: str, q, *, df: float | None = None):
-    """``standard(family, df=df).ppf(q)`` in closed form, without importing scipy.stats."""
-    if family == "normal":
-        return norm_ppf(q)
-    if family == "laplace":
-        return laplace_ppf(q)
-    if family == "student_t":
-        return t_ppf(q, DEFAULT_DF if df is None else df)
-    raise InputError(f"unknown family {family!r} (expected one of {', '.join(SHAPED_FAMILIES)})")
+    """``standard(family, df=df).ppf(q)``, without importing scipy.stats."""
+    return closed_distribution(family, 0.0, 1.0, df=df).ppf(q)
 
 
 def distribution(family: str, center: float, scale: float, *, df: float | None = None):

@@ -36,7 +36,7 @@ from typing import Protocol
 
 import numpy as np
 
-from elicit.convert import distribution, fit_quantiles
+from elicit.convert import closed_distribution, fit_quantiles
 from elicit.errors import InputError
 
 METHODS = ("linear", "log")
@@ -75,7 +75,7 @@ class PoolResult:
 
 
 def _distribution(o: Opinion):
-    return distribution(o.family, o.center, o.scale, df=o.df)
+    return closed_distribution(o.family, o.center, o.scale, df=o.df)
 
 
 def _weights(opinions: Sequence[Opinion]) -> np.ndarray:
@@ -163,7 +163,7 @@ def mixture_ppf(opinions: Sequence[Opinion], p: float) -> float:
 def _match(family: str, df: float | None, grid: np.ndarray, cdf: np.ndarray, quantiles):
     fit = fit_quantiles(family, quantiles, df=df)
     misfit = float(
-        np.max(np.abs(cdf - distribution(family, fit.center, fit.scale, df=df).cdf(grid)))
+        np.max(np.abs(cdf - closed_distribution(family, fit.center, fit.scale, df=df).cdf(grid)))
     )
     return PoolResult(fit.center, fit.scale, misfit)
 
@@ -177,7 +177,7 @@ def linear_misfit(
     used when a pooled entry was written without its ``pool_misfit``.
     """
     grid = _grid(opinions)
-    fitted = distribution(family, center, scale, df=df).cdf(grid)
+    fitted = closed_distribution(family, center, scale, df=df).cdf(grid)
     return float(np.max(np.abs(mixture_cdf(opinions, grid) - fitted)))
 
 

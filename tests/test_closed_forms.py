@@ -99,3 +99,17 @@ def test_a_plain_fit_does_not_import_scipy_stats():
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == "[]"
+
+
+@pytest.mark.parametrize("family, df", [("normal", None), ("laplace", None), ("student_t", None),
+                                        ("student_t", 2.5)])  # fmt: skip
+def test_closed_distribution_against_the_frozen_scipy_distribution(family, df):
+    ours = convert.closed_distribution(family, -3.0, 0.7, df=df)
+    theirs = convert.distribution(family, -3.0, 0.7, df=df)  # source: scipy.stats (frozen)
+    x = np.concatenate([X, [-np.inf, np.inf]])
+    for name in ("cdf", "sf", "logpdf"):
+        close(getattr(ours, name)(x), getattr(theirs, name)(x))
+        close(getattr(ours, name)(0.25), getattr(theirs, name)(0.25))
+    for name in ("ppf", "isf"):
+        close(getattr(ours, name)(Q), getattr(theirs, name)(Q))
+        close(getattr(ours, name)(0.3), getattr(theirs, name)(0.3))
