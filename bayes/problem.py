@@ -18,6 +18,7 @@ through :attr:`DataFactor.k`, :attr:`DataFactor.slopes` and
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -94,6 +95,13 @@ class DataFactor:
     @property
     def r12(self) -> np.ndarray:
         return self.R[:, self.p]
+
+    @functools.cached_property
+    def design_singular_values(self) -> np.ndarray:
+        """Singular values of the centred, scaled design ``R11``, largest first (one
+        values-only SVD, computed on first use and shared by the identifiability check and
+        the condition number)."""
+        return read_only(np.linalg.svd(self.R11, compute_uv=False), float)
 
     @property
     def tss(self) -> float:

@@ -56,6 +56,24 @@ def _null_space(M: np.ndarray, floor: float) -> np.ndarray:
     return Vt[s_full <= floor].T
 
 
+def _free_directions(W: np.ndarray, k: int) -> np.ndarray:
+    """Orthonormal basis (columns) of the directions the proper priors' roots ``W`` leave
+    free: ``||W v|| <= RANK_TOL ||W|| ||v||``.
+
+    Independent priors give a scaled permutation (at most one entry in each row and
+    column), whose singular values are its entries' sizes and whose singular vectors are
+    unit vectors: the basis is read off the columns, with the SVD's threshold, instead of
+    an SVD of the k x k matrix.
+    """
+    if not W.shape[0]:
+        return np.eye(k)
+    nonzero = W != 0
+    if nonzero.sum(axis=0).max() <= 1 and nonzero.sum(axis=1).max() <= 1:
+        size = np.abs(W).max(axis=0)
+        return np.eye(k)[:, size <= size.max() * RANK_TOL]
+    return _null_space(W, np.linalg.norm(W, 2) * RANK_TOL)
+
+
 def check_identified(factor: DataFactor, prior: ScaledPrior) -> None:
     """Stop with a clear error when a flat prior leaves a direction unidentified.
 
@@ -72,12 +90,10 @@ def check_identified(factor: DataFactor, prior: ScaledPrior) -> None:
         Naming the aliased columns, or when n is too small for the flat coefficients.
     """
     D, _ = data_rows(factor)
-    W = prior.root_precision
     k = D.shape[1]
-    free = np.eye(k)
-    if W.shape[0]:
-        free = _null_space(W, np.linalg.norm(W, 2) * RANK_TOL)
-    d_max = np.linalg.norm(D, 2)
+    free = _free_directions(prior.root_precision, k)
+    s = factor.design_singular_values  # D's are these and, with an intercept, sqrt(n)
+    d_max = max([*s[:1], np.sqrt(factor.n)] if factor.intercept else [*s[:1], 0.0])
     null = np.zeros((k, 0))
     if free.shape[1]:
         null = free @ _null_space(D @ free, d_max * RANK_TOL)

@@ -72,7 +72,9 @@ def scaled_prior(factor: DataFactor, priors) -> ScaledPrior:
         family[j] = cp.family
         center[j] = cp.center
         if cp.family == "normal":
-            rows.append(np.eye(k)[j] / cp.scale)
+            row = np.zeros(k)
+            row[j] = 1.0 / cp.scale
+            rows.append(row)
         else:
             if factor.intercept and j == 0:
                 raise InputError(

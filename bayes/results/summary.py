@@ -40,7 +40,7 @@ def fitted_rss(factor: DataFactor, beta: np.ndarray) -> float:
 
 def condition_number(factor: DataFactor) -> float:
     """2-norm condition number of the centred, scaled design (inf when rank deficient)."""
-    s = np.linalg.svd(factor.R[:, : factor.p], compute_uv=False)
+    s = factor.design_singular_values
     if len(s) < factor.p or s[-1] <= s[0] * 1e-15:
         return math.inf
     return float(s[0] / s[-1])
