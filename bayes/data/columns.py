@@ -9,7 +9,6 @@ header being line 1) and the column.
 
 from __future__ import annotations
 
-import hashlib
 from collections.abc import Mapping, Sequence
 
 import numpy as np
@@ -222,19 +221,52 @@ def check_distinct(
         All rows, or any subset of rows that keeps the first row, each column's smallest and
         largest value and a row where any two columns differ (bayes.data.moments).
     """
-    seen: dict[bytes, list[int]] = {}  # digest of a column's values -> the columns so far
+    ok = _spread_ok(X)
+    keys = _column_keys(X)
+    seen: dict[int, list[int]] = {}  # key of a column's values -> the columns so far
     for j, c in enumerate(predictors):
-        _check_spread(X[:, j], f"column '{c}'", source, f"({X[0, j]:g}): it has no effect")
-        # + 0.0 makes -0.0 into 0.0, so that equal columns (array_equal) have equal bytes
-        key = hashlib.blake2b((X[:, j] + 0.0).tobytes(), digest_size=16).digest()
-        for k in seen.setdefault(key, []):
+        if not ok[j]:  # raises, with the column's own message
+            _check_spread(X[:, j], f"column '{c}'", source, f"({X[0, j]:g}): it has no effect")
+        for k in seen.setdefault(int(keys[j]), []):
             if np.array_equal(X[:, j], X[:, k]):
                 raise InputError(f"{source}: columns '{predictors[k]}' and '{c}' are identical")
-        seen[key].append(j)
+        seen[int(keys[j])].append(j)
     _check_spread(y, f"response '{response}'", source)
-    for j, c in enumerate(predictors):  # its residuals would be exactly 0: no noise to fit
-        if np.array_equal(X[:, j], y):
+    if len(predictors):  # its residuals would be exactly 0: no noise to fit
+        same = np.flatnonzero((X == np.asarray(y)[:, None]).all(axis=0))
+        if same.size:
+            c = predictors[same[0]]
             raise InputError(f"{source}: response '{response}' is identical to column '{c}'")
+
+
+_KEY_ROWS = 2048  # rows per block of the column keys below
+
+
+def _column_keys(X: np.ndarray) -> np.ndarray:
+    """A 64-bit key of each column's values, equal for equal columns (O(n p), vectorised).
+
+    The sum, wrapping modulo 2^64, of each value's bit pattern times a fixed random odd
+    multiplier per row; ``+ 0.0`` makes -0.0 into 0.0 so that equal columns
+    (``array_equal``) have equal bits. Columns with equal keys are then compared in full.
+    """
+    n, p = X.shape
+    mult = np.random.default_rng(20261202).integers(1, 2**63, size=n, dtype=np.uint64)
+    mult |= np.uint64(1)
+    keys = np.zeros(p, dtype=np.uint64)
+    for i in range(0, n, _KEY_ROWS):
+        bits = (np.asarray(X[i : i + _KEY_ROWS], dtype=float) + 0.0).view(np.uint64)
+        keys += (bits * mult[i : i + _KEY_ROWS, None]).sum(axis=0, dtype=np.uint64)
+    return keys
+
+
+def _spread_ok(X: np.ndarray) -> np.ndarray:
+    """Per column, whether :func:`_check_spread` passes (the same tests, all columns at once)."""
+    if not X.size:
+        return np.ones(X.shape[1], dtype=bool)
+    top, bottom = X.max(axis=0), X.min(axis=0)  # nan propagates: the test fails
+    spread = top - bottom
+    inside = np.maximum(np.abs(top), np.abs(bottom)) <= LARGEST
+    return inside & (spread != 0) & (spread >= SMALLEST)
 
 
 def _check_spread(v: np.ndarray, what: str, source: str, constant: str = "") -> None:
