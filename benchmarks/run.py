@@ -1,6 +1,10 @@
 """Large-data and engine benchmarks, side by side with reference libraries. Not a test.
 
-    python benchmarks/run.py [--repeats 3] [--blas-threads 1]
+    python benchmarks/run.py [--repeats 3] [--blas-threads 1] [--only ROWS] [--quick]
+
+``--only`` takes a comma-separated list of row groups (``--help`` lists them; ``issue19`` is
+the speed issue's table, benchmarks/speed_goals.py); ``--quick`` shrinks that table's sizes
+for a smoke check and writes results_quick.json.
 
 Each comparison runs both sides in this process on the same INVENTED data
 (seeded random numbers), timed as the median of ``--repeats`` runs, and prints
@@ -365,8 +369,8 @@ def help_time(repeats: int) -> dict:
 
 
 def show(rows: list[dict]) -> None:
-    def num(x, fmt="{:.3f}"):
-        return "-" if x is None else fmt.format(x)
+    def num(x, fmt="{:.3f}"):  # seconds per effective draw are small: 3 digits still
+        return "-" if x is None else fmt.format(x) if x == 0 or abs(x) >= 0.01 else f"{x:.2e}"
 
     print(f"{'benchmark':<62}{'ours s':>9}{'ref s':>9}{'ratio':>8}  {'goal':<22}met")
     for r in rows:
@@ -375,6 +379,28 @@ def show(rows: list[dict]) -> None:
               f"{num(r['ratio'], '{:.2f}'):>8}  {r['goal']:<22}{met}")  # fmt: skip
         if r["note"]:
             print(f"{'':<4}{r['note']}")
+
+
+EXISTING = ("exact", "stream", "memory", "lasso", "sweep", "plan", "gibbs")
+
+
+def group_names() -> list[str]:
+    """Every row group in run order: the existing rows, the speed issue's, then start-up."""
+    from speed_goals import GROUPS
+
+    return [*EXISTING, *GROUPS, "help"]
+
+
+def chosen_groups(only: str) -> list[str] | None:
+    """The groups ``--only`` names, in run order (None when a name is unknown)."""
+    from speed_goals import GROUPS
+
+    words = {w.strip() for w in only.split(",") if w.strip()}
+    names = group_names()
+    chosen = set(names) if "all" in words else set()
+    chosen |= set(GROUPS) if "issue19" in words else set()
+    chosen |= words - {"all", "issue19"}
+    return [n for n in names if n in chosen] if chosen <= set(names) else None
 
 
 def main() -> None:
@@ -386,6 +412,12 @@ def main() -> None:
     parser.add_argument("--five-gb", action="store_true",
                         help="only stream a 5 GB CSV and report its peak memory "
                         "(a few minutes; results_5gb.json)")  # fmt: skip
+    parser.add_argument("--only", default="all", metavar="ROWS",
+                        help=f"comma-separated row groups: {', '.join(EXISTING)}, help, "
+                        "issue19 (the speed issue's table, or its groups: speed_goals.GROUPS); "
+                        "all (default)")  # fmt: skip
+    parser.add_argument("--quick", action="store_true",
+                        help="smaller sizes for the issue19 rows (a smoke check)")  # fmt: skip
     parser.add_argument("--child", nargs=2, metavar=("MODE", "PATH"), help=argparse.SUPPRESS)
     parser.add_argument("--trace", action="store_true", help=argparse.SUPPRESS)
     args = parser.parse_args()
@@ -406,22 +438,32 @@ def main() -> None:
         import sklearn.linear_model  # noqa: F401
     except ImportError:
         pass
+    chosen = chosen_groups(args.only)
+    if chosen is None:
+        parser.error(f"--only {args.only}: the groups are {', '.join(group_names())}, issue19")
+    import speed_goals  # benchmarks/speed_goals.py: the speed issue's rows
+
     start = time.perf_counter()
     results = {"machine": machine(), "blas_threads": args.blas_threads,
-               "repeats": args.repeats}  # fmt: skip
+               "repeats": args.repeats, "only": chosen, "quick": args.quick}  # fmt: skip
     rows = []
     with threadpool_limits(limits=args.blas_threads, user_api="blas"), \
             tempfile.TemporaryDirectory(prefix="bayes-bench-") as tmp:  # fmt: skip
-        folder = Path(tmp)
-        results["memory"] = memory_flatness(folder)  # first: children fork a small parent
-        rows.append(exact_vs_lstsq(args.repeats))
-        rows.append(stream_vs_read_csv(args.repeats, folder))
-        rows.append(results["memory"]["row"])
-        rows.append(laplace_vs_lasso(args.repeats))
-        rows.extend(width_sweep(args.repeats))
-        rows.extend(run_plan(args.repeats))
-        rows.append(gibbs_rate(args.repeats))
-    rows.append(help_time(args.repeats))
+        folder, r = Path(tmp), args.repeats
+        if "memory" in chosen:  # first: children fork a small parent
+            results["memory"] = memory_flatness(folder)
+        groups = {"exact": lambda: [exact_vs_lstsq(r)],
+                  "stream": lambda: [stream_vs_read_csv(r, folder)],
+                  "memory": lambda: [results["memory"]["row"]],
+                  "lasso": lambda: [laplace_vs_lasso(r)], "sweep": lambda: width_sweep(r),
+                  "plan": lambda: run_plan(r), "gibbs": lambda: [gibbs_rate(r)]}  # fmt: skip
+        for name in chosen:
+            if name in speed_goals.GROUPS:
+                rows.extend(speed_goals.GROUPS[name](r, args.quick, folder))
+            elif name in groups:
+                rows.extend(groups[name]())
+    if "help" in chosen:
+        rows.append(help_time(args.repeats))
     results["rows"] = rows
     results["seconds"] = time.perf_counter() - start
     results["machine"]["load_average_at_end"] = os.getloadavg()
@@ -429,8 +471,9 @@ def main() -> None:
     print(f"total {results['seconds']:.0f} s; BLAS threads {args.blas_threads}; "
           f"load average {results['machine']['load_average_at_start'][0]:.1f} at start, "
           f"{results['machine']['load_average_at_end'][0]:.1f} at end")  # fmt: skip
-    RESULTS.write_text(json.dumps(results, indent=2, default=float) + "\n")
-    print(f"wrote {RESULTS}")
+    path = HERE / "results_quick.json" if args.quick else RESULTS
+    path.write_text(json.dumps(results, indent=2, default=float) + "\n")
+    print(f"wrote {path}")
 
 
 if __name__ == "__main__":
