@@ -125,8 +125,19 @@ def column_kinds(frame, response: str, used: Sequence[str] | None = None) -> Col
     used : sequence of str, optional
         The predictors (or formula variables) the user named; None: the rule of the module.
     """
+    import pandas as pd
+
     columns = [str(c) for c in frame.columns]
-    text = {c: is_text(frame[c]) for c in columns if c != response}
+    if frame.columns.is_unique:  # one pass over the table, not one per column
+        dtypes = dict(zip(columns, frame.dtypes, strict=True))
+        present = dict(zip(columns, frame.notna().any(axis=0).to_numpy(), strict=True))
+    else:  # repeated names (refused by the callers' own checks): column by column
+        dtypes = {c: None for c in columns}
+        present = {c: not frame[c].dropna().empty for c in columns}
+    numeric = {c: dt is not None and (pd.api.types.is_numeric_dtype(dt)
+                                      or pd.api.types.is_bool_dtype(dt))
+               for c, dt in dtypes.items()}  # fmt: skip
+    text = {c: not numeric[c] and is_text(frame[c]) for c in columns if c != response}
     named = None if used is None else [str(c) for c in used]
     predictors, categorical, unused, empty, label = [], [], [], [], None
     for c in columns:
@@ -136,7 +147,7 @@ def column_kinds(frame, response: str, used: Sequence[str] | None = None) -> Col
             if text[c]:
                 categorical.append(c)
             continue
-        if frame[c].dropna().empty:
+        if not present[c]:
             unused.append(c)
             empty.append(c)
         elif text[c] and all_distinct(frame[c]):

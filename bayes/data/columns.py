@@ -9,6 +9,7 @@ header being line 1) and the column.
 
 from __future__ import annotations
 
+from collections import Counter
 from collections.abc import Mapping, Sequence
 
 import numpy as np
@@ -134,7 +135,7 @@ def select_columns(
     """
     frame = string_columns(frame)
     columns = list(frame.columns)
-    dup_names = sorted({c for c in columns if columns.count(c) > 1})
+    dup_names = sorted(c for c, times in Counter(columns).items() if times > 1)
     if dup_names:
         raise InputError(f"{source}: column name '{dup_names[0]}' appears more than once")
     if response not in columns:

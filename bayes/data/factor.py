@@ -17,8 +17,15 @@ from bayes.threads import one_blas_thread
 _BLOCK = 1024  # rows per leaf of the tall-skinny QR below (used for up to 256 columns)
 
 
-def _triangular(M: np.ndarray) -> np.ndarray:
-    """R factor of M (rows >= 0), sign-normalised so that diag(R) >= 0.
+def _narrow(n: int, k: int) -> bool:
+    """Whether the tall-skinny QR below is used for an n x k matrix (the leaves then need
+    C order; otherwise one LAPACK call works in place on Fortran order)."""
+    return n > 2 * _BLOCK and 4 * k <= _BLOCK
+
+
+def _triangular(M: np.ndarray, *, overwrite: bool = False) -> np.ndarray:
+    """R factor of M (rows >= 0), sign-normalised so that diag(R) >= 0. ``overwrite``:
+    M is scratch (a Fortran-order M is then factorised in place).
 
     A tall, narrow M is reduced by TSQR: the QR of each 1024-row leaf (one batched
     numpy call), then the QR of the stacked leaf factors, repeated. ``R'R`` is
@@ -27,6 +34,16 @@ def _triangular(M: np.ndarray) -> np.ndarray:
     a long matrix, which streams it from memory once per column).
     """
     k = M.shape[1]
+    if not _narrow(M.shape[0], k):  # one Householder pass, in place on a Fortran-order M
+        from scipy.linalg import lapack
+
+        A = np.asfortranarray(M, dtype=float)
+        qr, _, _, info = lapack.dgeqrf(A, overwrite_a=overwrite or A is not M)
+        if info != 0:
+            raise ValueError(f"LAPACK dgeqrf failed (info {info})")
+        R = np.triu(qr[: min(M.shape)])
+        signs = np.where(np.diag(R) < 0, -1.0, 1.0)
+        return R * signs[:, None]
     while M.shape[0] > 2 * _BLOCK and 4 * k <= _BLOCK:
         m = M.shape[0] // _BLOCK * _BLOCK
         with one_blas_thread():  # small leaf QRs: waking BLAS threads costs more
@@ -69,13 +86,16 @@ def factor_from_arrays(
     y = np.asarray(y, dtype=float)
     n, p = X.shape
     x_mean = X.mean(axis=0) if intercept else np.zeros(p)
-    Xc = X - x_mean
+    # [Xc / x_scale, yc] built in place in the order its QR wants: no further copies
+    M = np.empty((n, p + 1), order="C" if _narrow(n, p + 1) else "F")
+    Xc = np.subtract(X, x_mean, out=M[:, :p])
     if x_scale is None:
         x_scale = np.sqrt(np.mean(Xc**2, axis=0))
+    np.divide(Xc, x_scale, out=Xc)
     y_mean = float(y.mean()) if intercept else 0.0
-    M = np.column_stack([Xc / x_scale, y - y_mean])
-    return DataFactor(tuple(names), n, x_mean, np.asarray(x_scale, float), y_mean, _triangular(M),
-                      intercept)  # fmt: skip
+    M[:, p] = y - y_mean
+    R = _triangular(M, overwrite=True)
+    return DataFactor(tuple(names), n, x_mean, np.asarray(x_scale, float), y_mean, R, intercept)
 
 
 def centred_moments(X: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
