@@ -38,7 +38,8 @@ def _triangular(M: np.ndarray, *, overwrite: bool = False) -> np.ndarray:
         from scipy.linalg import lapack
 
         A = np.asfortranarray(M, dtype=float)
-        qr, _, _, info = lapack.dgeqrf(A, overwrite_a=overwrite or A is not M)
+        lwork = int(lapack.dgeqrf_lwork(*A.shape)[0])  # the blocked algorithm's workspace
+        qr, _, _, info = lapack.dgeqrf(A, lwork=max(lwork, 1), overwrite_a=overwrite or A is not M)
         if info != 0:
             raise ValueError(f"LAPACK dgeqrf failed (info {info})")
         R = np.triu(qr[: min(M.shape)])
